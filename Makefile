@@ -1,0 +1,37 @@
+# ohmtally: every target builds its own virtual environment first (.venv).
+PY ?= python3
+VENV ?= .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed-stamp
+
+.PHONY: setup demo test lint typecheck bench clean
+
+$(STAMP): pyproject.toml
+	$(PY) -m venv $(VENV)
+	$(BIN)/python -m pip install -q --upgrade pip
+	$(BIN)/python -m pip install -q -e '.[dev]'
+	touch $(STAMP)
+
+setup: $(STAMP)
+
+## The main job on the embedded default (SQLite): the demo site, verified.
+demo: $(STAMP)
+	$(BIN)/ohmtally demo
+
+## Lint, type-check the engine, run the tests.
+test: $(STAMP)
+	$(BIN)/ruff check engine adapters api tests
+	$(BIN)/mypy
+	$(BIN)/pytest -q
+
+lint: $(STAMP)
+	$(BIN)/ruff check engine adapters api tests
+
+typecheck: $(STAMP)
+	$(BIN)/mypy
+
+bench: $(STAMP)
+	$(BIN)/python -m tests.bench
+
+clean:
+	rm -rf $(VENV) .pytest_cache .ruff_cache .mypy_cache .hypothesis instance

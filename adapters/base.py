@@ -1,0 +1,113 @@
+"""The adapter protocol: an input stream in, record fragments and line errors out.
+
+Invariants (every adapter keeps them; tests check the built-ins):
+- Results come in input order and stream: memory stays constant in the size of
+  the input (one line or row at a time).
+- Every input line is accounted for exactly once: as one :class:`Fragment`,
+  one :class:`LineError` or one :class:`Skipped` (blank, comment, header,
+  context line). A row with one bad cell yields its good cells as a fragment
+  *and* a :class:`LineError` per bad cell (the fragment counts for the line).
+- Nothing raises out of ``read`` for any byte sequence; only a bad *option*
+  (an unknown profile, an invalid profile document) raises :class:`AdapterError`
+  before the first result.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field
+from typing import IO, Any, ClassVar, Protocol, runtime_checkable
+
+__all__ = [
+    "Adapter",
+    "AdapterError",
+    "AdapterOptions",
+    "Fragment",
+    "LineError",
+    "Result",
+    "Skipped",
+]
+
+
+class AdapterError(Exception):
+    """Root of the adapters' errors: a bad option or profile, never a bad input line."""
+
+    code = "adapter_error"
+
+    def __init__(self, message: str, *, code: str | None = None,
+                 details: Mapping[str, Any] | None = None) -> None:
+        super().__init__(message)
+        self.message = message
+        if code:
+            self.code = code
+        self.details = dict(details or {})
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Fragment:
+    """Some fields of one circuit record, from one input line (or row)."""
+
+    board: str
+    circuit: str
+    fields: Mapping[str, Any]  # field name -> typed value (Reading, float, str, bool)
+    line: int
+
+    @property
+    def key(self) -> tuple[str, str]:
+        return (self.board, self.circuit)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class LineError:
+    """One input line, or one cell of it, that could not be taken."""
+
+    line: int
+    reason: str
+    code: str = "bad_line"
+    field: str | None = None
+    column: str | None = None
+    text: str | None = None
+
+    def as_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"line": self.line, "code": self.code, "reason": self.reason}
+        for name in ("field", "column", "text"):
+            value = getattr(self, name)
+            if value is not None:
+                out[name] = value
+        return out
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Skipped:
+    """A line that carries no reading: blank, comment, header or context line."""
+
+    line: int
+    reason: str
+
+
+Result = Fragment | LineError | Skipped
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class AdapterOptions:
+    """Options every adapter understands; adapter-specific ones go in ``extra``."""
+
+    profile: str | None = None  # profile name (built-in or from OHMTALLY_PROFILE_DIR)
+    profile_dir: str | None = None
+    decimal_comma: bool | None = None  # None: as the profile says, else no
+    encoding: str | None = None  # None: detect
+    max_line_length: int = 65536
+    max_columns: int = 512
+    extra: Mapping[str, Any] = field(default_factory=dict)
+
+
+@runtime_checkable
+class Adapter(Protocol):
+    """What the registry loads from the ``ohmtally.adapters`` entry points."""
+
+    name: ClassVar[str]
+    description: ClassVar[str]
+    media_types: ClassVar[tuple[str, ...]]  # content types the API routes to it
+    extensions: ClassVar[tuple[str, ...]]  # file extensions the CLI routes to it
+
+    def read(self, stream: IO[bytes], options: AdapterOptions) -> Iterator[Result]: ...

@@ -1,0 +1,55 @@
+"""``verify(records, ruleset)``: every applicable check for every circuit.
+
+Invariants:
+- One verdict per distinct ``(board, circuit)``, in first-seen order; a later
+  record with the same key replaces the earlier one (callers merge first).
+- Checks run in the order of :data:`engine.checks.CHECKS`.
+- Nothing a record holds makes this raise. A ruleset lacking a value a check
+  needs, or a bug in a check, becomes an ``incomplete`` result and an entry in
+  the verdict's ``errors`` — never a pass and never a crash.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+from .checks import CHECKS
+from .context import Context
+from .errors import EngineError
+from .records import CircuitRecord
+from .results import CheckResult, Outcome, Verdict, worst
+from .ruleset import Ruleset, load_ruleset
+
+__all__ = ["verify", "verify_one"]
+
+
+def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None) -> list[Verdict]:
+    rules = load_ruleset(ruleset)
+    ctx = Context.build(records, rules)
+    return [verify_one(record, ctx) for record in ctx.records.values()]
+
+
+def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
+    view = ctx.view(record)
+    checks: list[CheckResult] = []
+    errors: list[dict[str, str]] = []
+    for check_id, run in CHECKS.items():
+        try:
+            checks.extend(run(view, ctx))
+        except EngineError as exc:
+            errors.append({"check": check_id, **exc.as_dict()})
+            checks.append(CheckResult(check=check_id, outcome=Outcome.INCOMPLETE,
+                                      detail=f"could not be evaluated: {exc.message}"))
+        except Exception as exc:  # a bug must not become a pass or a 500
+            errors.append({"check": check_id, "code": "check_error",
+                           "message": f"{type(exc).__name__}: {exc}"})
+            checks.append(CheckResult(check=check_id, outcome=Outcome.INCOMPLETE,
+                                      detail="could not be evaluated (internal error, reported)"))
+    return Verdict(
+        board=record.board,
+        circuit=record.circuit,
+        outcome=worst(c.outcome for c in checks),
+        checks=tuple(checks),
+        defaults_applied=dict(view.defaults_applied),
+        errors=tuple(errors),
+    )

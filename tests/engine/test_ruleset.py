@@ -1,0 +1,65 @@
+"""Rulesets as data: every value has a source; user rulesets validate with clear errors."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+
+from engine import RulesetError, builtin_ruleset_ids, load_builtin, ruleset_from_data
+from engine.ruleset import MARKERS
+
+
+def test_builtin_rulesets_present() -> None:
+    assert {"bs7671-2018-a2", "iec-60364"} <= set(builtin_ruleset_ids())
+
+
+@pytest.mark.parametrize("rid", ["bs7671-2018-a2", "iec-60364"])
+def test_every_builtin_value_names_a_source_and_marker(rid: str) -> None:
+    rules = load_builtin(rid)
+    assert rules.sources, "a ruleset lists the sources it relies on"
+    count = 0
+    for entries in rules.sections.values():
+        for entry in entries.values():
+            assert entry.source.strip()
+            assert entry.marker in MARKERS
+            count += 1
+    assert count > 10
+
+
+def _doc(**extra: Any) -> dict[str, Any]:
+    return {"id": "local", "title": "Local code", **extra}
+
+
+def test_user_ruleset_overrides_one_value_of_its_base() -> None:
+    base = load_builtin("bs7671-2018-a2")
+    doc = _doc(base="bs7671-2018-a2", sections={
+        "defaults": {"nominal_voltage_v": {"value": 240, "source": "local code 1.2", "marker": "S"}}
+    })
+    rules = ruleset_from_data(doc)
+    assert rules.value("defaults", "nominal_voltage_v") == 240
+    assert rules.value("temperature", "alpha_per_k") == base.value("temperature", "alpha_per_k")
+
+
+@pytest.mark.parametrize(
+    ("doc", "pointer"),
+    [
+        ({"title": "x"}, "/id"),
+        ({"id": "x"}, "/title"),
+        (_doc(sections={"defaults": {"phases": {"value": 1}}}), "/sections/defaults/phases"),
+        (_doc(sections={"defaults": {"phases": {"value": 1, "source": "s", "marker": "Q"}}}),
+         "/sections/defaults/phases"),
+        (_doc(sections={"defaults": {"phases": 1}}), "/sections/defaults/phases"),
+        (_doc(base="no-such"), "/base"),
+        (_doc(colour="red"), "/"),
+    ],
+)
+def test_invalid_user_ruleset_is_a_clear_error(doc: dict[str, Any], pointer: str) -> None:
+    with pytest.raises(RulesetError) as info:
+        ruleset_from_data(doc)
+    assert info.value.field == pointer
+
+
+def test_unknown_builtin_lists_the_valid_ids() -> None:
+    with pytest.raises(RulesetError, match="bs7671-2018-a2"):
+        load_builtin("nope")
