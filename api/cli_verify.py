@@ -2,25 +2,36 @@
 
 The adapter is chosen from each file's extension (``.json`` → JSON records,
 ``.csv`` → ``csv``, ``.txt``/``.log`` → ``lines``) unless ``--adapter`` is given.
-``--format json`` prints exactly the body ``POST /v1/verify`` returns.
+``--format json`` prints exactly the body ``POST /v1/verify`` returns;
+``junit`` and ``csv`` are for pipelines and spreadsheets (see api/render/).
 
-Exit status: 1 if any circuit fails; else 2 if any input was rejected or
-unreadable; else 0. A failing circuit wins over rejected input because it is
-the finding a pipeline must never miss.
+``--fail-on fail|investigate|incomplete`` (default ``fail``) is the least
+severe outcome that fails; ``--warn-on investigate|incomplete|none`` (default
+``incomplete``) the least severe that warns (JUnit ``<skipped>``, ``→ warn`` in
+the table). Fail wins over warn.
+
+Exit status: 1 if any circuit fails under the policy; else 2 if any input was
+rejected or a file could not be read; else 0; 3 for usage (bad option, unknown
+ruleset, adapter or profile). A failing circuit wins over rejected input: both
+are non-zero, so a pipeline stops either way, and 1 names the finding that must
+never be missed; the rejected lines are still in every format's output. An
+unreadable file is reported as rejected input and the other files are still
+verified, so one bad file never hides the circuits in the others.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
 from engine import (
     CircuitRecord,
     EngineError,
-    Outcome,
     Ruleset,
     load_ruleset,
     ruleset_from_data,
@@ -30,7 +41,15 @@ from engine import (
 from .bodies import verify_body
 from .cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
 from .intake import records_from_objects
-from .render import FORMATS, render
+from .render import (
+    FAIL_ON_CHOICES,
+    FORMATS,
+    WARN_ON_CHOICES,
+    Policy,
+    policy_from_names,
+    render,
+    rich_table,
+)
 
 __all__ = ["register", "run"]
 
@@ -42,6 +61,10 @@ def register(sub: Any) -> None:
     p.add_argument("--profile", help="mapping or line profile for the adapter")
     p.add_argument("--ruleset", help="ruleset id, or a path to a ruleset JSON file")
     p.add_argument("--format", choices=FORMATS, default="table")
+    p.add_argument("--fail-on", choices=FAIL_ON_CHOICES, default="fail",
+                   help="least severe outcome that fails (exit 1, JUnit <failure>)")
+    p.add_argument("--warn-on", choices=WARN_ON_CHOICES, default="incomplete",
+                   help="least severe outcome that warns (JUnit <skipped>); none: never")
     p.set_defaults(func=run)
 
 
@@ -81,27 +104,53 @@ def _read_adapter(path: Path, adapter: str | None, profile: str | None
     return got.records, [e.as_dict() for e in got.errors]
 
 
-def run(args: argparse.Namespace) -> int:
+def _generated_at() -> datetime | None:
+    """SOURCE_DATE_EPOCH (reproducible-builds.org) pins the JUnit timestamp; else now."""
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "")
+    return datetime.fromtimestamp(int(epoch), UTC) if epoch.isdigit() else None
+
+
+def _read_files(args: argparse.Namespace, rejected: list[dict[str, Any]]
+                ) -> tuple[list[CircuitRecord], str | None]:
     records: list[CircuitRecord] = []
-    rejected: list[dict[str, Any]] = []
     ruleset_id: str | None = None
-    try:
-        for name in args.files:
-            path = Path(name)
-            if not path.is_file():
-                print(f"ohmtally verify: no such file: {name}", file=sys.stderr)
-                return EXIT_USAGE
+    for name in args.files:
+        path = Path(name)
+        try:
             use_json = (args.adapter in (None, "json") and path.suffix.lower() == ".json")
             if use_json:
                 got, bad, file_ruleset = _read_json(path)
                 ruleset_id = ruleset_id or file_ruleset
             else:
                 got, bad = _read_adapter(path, args.adapter, args.profile)
-            records.extend(got)
-            rejected.extend({"file": name, **b} for b in bad)
+        except (OSError, UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
+            reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+            print(f"ohmtally verify: cannot read {name}: {reason}", file=sys.stderr)
+            rejected.append({"file": name, "pointer": "", "code": "unreadable", "reason": reason})
+            continue
+        records.extend(got)
+        rejected.extend({"file": name, **b} for b in bad)
+    return records, ruleset_id
+
+
+def _write(body: dict[str, Any], fmt: str, policy: Policy) -> None:
+    if fmt == "table" and sys.stdout.isatty():
+        from rich.console import Console
+
+        Console().print(rich_table(body, policy))
+        return
+    text, _media_type = render(body, fmt, policy, generated_at=_generated_at())
+    sys.stdout.write(text)
+
+
+def run(args: argparse.Namespace) -> int:
+    policy = policy_from_names(args.fail_on, args.warn_on)
+    rejected: list[dict[str, Any]] = []
+    try:
+        records, ruleset_id = _read_files(args, rejected)
         ruleset = _ruleset(args.ruleset or ruleset_id)
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-        print(f"ohmtally verify: cannot read input: {exc}", file=sys.stderr)
+        print(f"ohmtally verify: cannot read the ruleset: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except EngineError as exc:
         print(f"ohmtally verify: {exc.message}", file=sys.stderr)
@@ -114,8 +163,8 @@ def run(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     verdicts = verify(records, ruleset)
     body = verify_body(ruleset, verdicts, rejected)
-    sys.stdout.write(render(body, args.format))
-    if any(v.outcome is Outcome.FAIL for v in verdicts):
+    _write(body, args.format, policy)
+    if policy.failing_circuits(body["verdicts"]):
         return EXIT_FAIL
     if rejected:
         return EXIT_BAD_INPUT
