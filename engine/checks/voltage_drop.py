@@ -1,14 +1,96 @@
-"""Placeholder: the voltage_drop check is being written (see the open issues)."""
+"""Voltage drop from the origin against IEC 60364-5-52 Table G.52.1 / BS 7671 App. 4 §6.4.
+
+Invariants:
+- The drop judged is the circuit's own (``engine.vdrop``, most precise method
+  the data supports) plus the drop of every distribution circuit between its
+  board and the origin (``engine.feeders``); both parts are in ``inputs``.
+- Limit = U0 × (p + allowance) / 100, p = 3 % lighting / 5 % other (public
+  supply), 6 % / 8 % (private); allowance 0.005 % per metre of route beyond
+  100 m, at most 0.5 %. The route length counts the circuit and the known
+  lengths of its feeders. Figures come from the ruleset's ``voltage_drop``.
+- Outcomes: within the limit → pass; beyond it → fail, except that a figure
+  from the quick method alone (no conductor sizes to split R1+R2) is an upper
+  bound only when the cpc is no larger than the neutral, so beyond the limit
+  it is ``investigate``. No current or no resistance data → incomplete.
+- A broken feeder chain (cycle, missing or conflicting feeder, feeder without
+  data) makes this check incomplete for the boards it concerns, with the
+  problem's code and message in ``inputs["error"]``.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Iterator
+from typing import Any
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..feeders import FeederProblem, upstream_drop
+from ..results import CheckResult, Outcome
+from ..vdrop import NoDrop, own_drop
+from ._compare import incomplete
 
-__all__ = ["run"]
+__all__ = ["limit_pct", "run"]
+
+CHECK = "voltage_drop"
+_QUICK_METHODS = frozenset({"r1r2_quick", "ring_r1r2_quick", "three_phase_quick"})
+
+
+def limit_pct(view: CircuitView, route_length_m: float) -> tuple[float, float, str]:
+    """(base %, long-run allowance %, words) for the circuit's supply and load type."""
+    rules = view.ruleset
+    supply = str(view.get("supply"))
+    load = str(view.get("load_type"))
+    table: dict[str, dict[str, float]] = rules.value(CHECK, "limits_pct")
+    base = float(table[supply][load])
+    threshold = float(rules.value(CHECK, "long_run_threshold_m"))
+    per_m = float(rules.value(CHECK, "long_run_allowance_pct_per_m"))
+    cap = float(rules.value(CHECK, "long_run_allowance_cap_pct"))
+    allowance = min(cap, max(0.0, route_length_m - threshold) * per_m)
+    words = f"{base:g} % {'lighting' if load == 'lighting' else 'other uses'}, {supply} supply"
+    if allowance > 0:
+        words += f", +{allowance:.3g} % for {route_length_m:g} m of route"
+    return base, allowance, words
 
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    yield from ()
+    basis = ctx.ruleset.basis(CHECK, "limits_pct")
+    own = own_drop(view)
+    if isinstance(own, NoDrop):
+        yield incomplete(CHECK, own.missing, detail=own.detail, basis=basis, inputs=own.inputs)
+        return
+    upstream = upstream_drop(view.record.board, ctx)
+    inputs: dict[str, Any] = {**own.inputs, "circuit_v": own.volts}
+    if isinstance(upstream, FeederProblem):
+        inputs["error"] = upstream.as_dict()
+        yield CheckResult(check=CHECK, outcome=Outcome.INCOMPLETE, method=own.method, basis=basis,
+                          detail=f"the drop from the origin cannot be found: {upstream.message}; "
+                                 f"this circuit's own drop is {own.volts:.3g} V",
+                          inputs=inputs)
+        return
+    total = own.volts + upstream.volts
+    own_length = view.raw("length_m")
+    route = (float(own_length) if own_length is not None else 0.0) + upstream.length_m
+    base, allowance, words = limit_pct(view, route)
+    u0 = float(view.get("nominal_voltage_v"))
+    limit = u0 * (base + allowance) / 100.0
+    inputs.update(upstream_v=upstream.volts,
+                  upstream=[p.feeder for p in upstream.parts],
+                  upstream_parts=[{"feeder": p.feeder, "volts": p.volts, "method": p.method}
+                                  for p in upstream.parts],
+                  u0_v=u0, limit_pct=base + allowance, limit_basis=words,
+                  route_length_m=route)
+    percent = 100.0 * total / u0 if u0 else float("nan")
+    split = (f"{own.volts:.3g} V here + {upstream.volts:.3g} V upstream "
+             f"({', '.join(p.feeder for p in upstream.parts)}) = " if upstream.parts else "")
+    figure = f"{split}{total:.3g} V ({percent:.2f} % of {u0:g} V) by {own.explanation}"
+    if total <= limit:
+        outcome = Outcome.PASS
+        detail = f"drop {figure}, within the {limit:.3g} V limit ({words})"
+    elif own.method in _QUICK_METHODS:
+        outcome = Outcome.INVESTIGATE
+        detail = (f"quick drop {figure} exceeds the {limit:.3g} V limit ({words}); give line_mm2 "
+                  f"and cpc_mm2 (or R2) so R1+R2 can be split before deciding")
+    else:
+        outcome = Outcome.FAIL
+        detail = f"drop {figure} exceeds the {limit:.3g} V limit ({words})"
+    yield CheckResult(check=CHECK, outcome=outcome, value=total, limit=limit, limit_kind="max",
+                      unit="V", method=own.method, basis=basis, detail=detail, inputs=inputs)
