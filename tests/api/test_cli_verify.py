@@ -1,0 +1,156 @@
+"""``ohmtally verify``: formats, the --fail-on/--warn-on policy, and exit statuses.
+
+Exit statuses are the contract's (DESIGN.md, CLI): 0 all pass, 1 a circuit
+fails, 2 bad input, 3 usage; "fails" is read under the policy (issue 8).
+Circuits are invented; pass/fail/incomplete come from the polarity check
+(BS 7671 Reg. 643.6: recorded false fails, missing is incomplete), which
+holds however many other checks join the engine.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+from typing import Any
+
+import pytest
+from junitparser import Failure, JUnitXml
+
+import api.cli_verify
+from api.bodies import verify_body
+from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE, main
+from api.intake import records_from_objects
+from engine import CheckResult, Outcome, Verdict, load_ruleset, verify
+
+ROOT = Path(__file__).resolve().parents[2]
+PASS_AND_INCOMPLETE = [{"board": "DB1", "circuit": "1", "polarity_ok": True},
+                       {"board": "DB1", "circuit": "2"}]
+FAILING = [{"board": "DB1", "circuit": "1", "polarity_ok": True},
+           {"board": "DB1", "circuit": "3", "polarity_ok": False}]
+
+
+def write(tmp_path: Path, name: str, circuits: Any) -> str:
+    path = tmp_path / name
+    path.write_text(json.dumps({"circuits": circuits}), encoding="utf-8")
+    return str(path)
+
+
+def run(argv: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
+    status = main(["verify", *argv])
+    return status, capsys.readouterr().out
+
+
+@pytest.mark.parametrize(("fail_on", "expected"), [
+    ("fail", EXIT_OK), ("investigate", EXIT_OK), ("incomplete", EXIT_FAIL)])
+def test_incomplete_circuit_fails_only_under_fail_on_incomplete(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str], fail_on: str, expected: int) -> None:
+    """A circuit lacking polarity_ok (incomplete) exits 1 only with --fail-on incomplete."""
+    status, _ = run([write(tmp_path, "a.json", PASS_AND_INCOMPLETE), "--format", "json",
+                     "--fail-on", fail_on], capsys)
+    assert status == expected
+
+
+@pytest.mark.parametrize("fail_on", ["fail", "investigate", "incomplete"])
+def test_failed_polarity_exits_1_under_every_policy(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str], fail_on: str) -> None:
+    """A recorded polarity false is a failure whatever the policy: a policy can never hide it."""
+    status, _ = run([write(tmp_path, "f.json", FAILING), "--fail-on", fail_on, "--warn-on", "none"],
+                    capsys)
+    assert status == EXIT_FAIL
+
+
+@pytest.mark.parametrize(("fail_on", "expected"), [
+    ("fail", EXIT_OK), ("investigate", EXIT_FAIL), ("incomplete", EXIT_FAIL)])
+def test_investigate_fails_under_fail_on_investigate_and_incomplete(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch,
+        fail_on: str, expected: int) -> None:
+    """An investigate verdict (stood in for the engine: no check yields one yet) follows --fail-on."""
+    check = CheckResult(check="loop_impedance", outcome=Outcome.INVESTIGATE, detail="marginal")
+    stand_in = [Verdict(board="DB1", circuit="1", outcome=Outcome.INVESTIGATE, checks=(check,))]
+    monkeypatch.setattr(api.cli_verify, "verify", lambda records, ruleset: stand_in)
+    status, _ = run([write(tmp_path, "i.json", PASS_AND_INCOMPLETE[:1]), "--fail-on", fail_on],
+                    capsys)
+    assert status == expected
+
+
+def test_json_output_equals_verify_body_of_the_same_records(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """--format json is exactly verify_body for the same records (the API's body)."""
+    circuits = [*FAILING, {"board": "DB2", "circuit": "1", "zs_ohm": "3 kA"}]
+    path = write(tmp_path, "j.json", circuits)
+    status, out = run([path, "--format", "json"], capsys)
+    records, rejected = records_from_objects(circuits)
+    ruleset = load_ruleset(None)
+    expected = verify_body(ruleset, verify(records, ruleset), [{"file": path, **r} for r in rejected])
+    assert json.loads(out) == expected
+    assert status == EXIT_FAIL
+
+
+def test_rejected_input_exits_2_and_a_failure_wins_over_it(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Rejected lines alone exit 2; with a failing circuit beside them the exit is 1."""
+    bad = {"board": "DB2", "circuit": "1", "polarity_ok": True, "zs_ohm": "3 kA"}
+    alone, _ = run([write(tmp_path, "r.json", [bad]), "--format", "csv"], capsys)
+    beside, _ = run([write(tmp_path, "rf.json", [bad, FAILING[1]]), "--format", "csv"], capsys)
+    assert (alone, beside) == (EXIT_BAD_INPUT, EXIT_FAIL)
+
+
+@pytest.mark.parametrize("content", [None, "{not json", b"\xff\xfe\x00bad"])
+def test_unreadable_file_exits_2_and_the_other_files_are_still_verified(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str], content: str | bytes | None) -> None:
+    """A missing, malformed or undecodable file is rejected input; the good file's circuits remain."""
+    broken = tmp_path / "broken.json"
+    if isinstance(content, bytes):
+        broken.write_bytes(content)
+    elif content is not None:
+        broken.write_text(content, encoding="utf-8")
+    good = write(tmp_path, "good.json", PASS_AND_INCOMPLETE[:1])
+    status, out = run([str(broken), good, "--format", "json"], capsys)
+    body = json.loads(out)
+    assert status == EXIT_BAD_INPUT
+    assert [r["code"] for r in body["rejected"]] == ["unreadable"]
+    assert ("DB1", "1") in {(v["board"], v["circuit"]) for v in body["verdicts"]}
+
+
+@pytest.mark.parametrize("argv", [["--fail-on", "pass"], ["--warn-on", "fail"], ["--format", "xml"],
+                                  ["--ruleset", "no-such-ruleset"]])
+def test_usage_errors_exit_3(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                             argv: list[str]) -> None:
+    """A misspelt policy, format or ruleset is a usage error, exit 3."""
+    path = write(tmp_path, "u.json", FAILING)
+    try:
+        status = main(["verify", path, *argv])
+    except SystemExit as exc:  # argparse exits from inside parse_args
+        status = int(exc.code or 0)
+    assert status == EXIT_USAGE
+
+
+def test_junit_from_the_cli_follows_warn_on(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """--fail-on incomplete turns the incomplete polarity into a <failure> in the JUnit report."""
+    status, out = run([write(tmp_path, "ju.json", PASS_AND_INCOMPLETE), "--format", "junit",
+                       "--fail-on", "incomplete"], capsys)
+    cases = {(c.classname, c.name): c for s in JUnitXml.fromstring(out.encode()) for c in s}
+    assert [type(r) for r in cases[("DB1.2", "polarity")].result] == [Failure]
+    assert status == EXIT_FAIL
+
+
+def test_table_off_a_terminal_is_plain(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Captured stdout is not a TTY, so the table has no escape codes."""
+    status, out = run([write(tmp_path, "t.json", FAILING)], capsys)
+    assert "\x1b" not in out and "polarity" in out and "CAUTION" in out
+    assert status == EXIT_FAIL
+
+
+def test_installed_entry_exits_with_the_status(tmp_path: Path) -> None:
+    """Run as a process (as a pipeline does): exit 1 on a failure, 0 otherwise, JUnit on stdout."""
+    base = [sys.executable, "-m", "api.cli", "verify", "--format", "junit"]
+    env = {"SOURCE_DATE_EPOCH": "1714555800", "PATH": "/usr/bin:/bin"}
+    failing = subprocess.run([*base, write(tmp_path, "p.json", FAILING)], cwd=ROOT, env=env,
+                             capture_output=True, check=False)
+    passing = subprocess.run([*base, write(tmp_path, "q.json", PASS_AND_INCOMPLETE)], cwd=ROOT,
+                             env=env, capture_output=True, check=False)
+    assert (failing.returncode, passing.returncode) == (EXIT_FAIL, EXIT_OK), failing.stderr
+    # SOURCE_DATE_EPOCH 1714555800 is 2024-05-01T09:30:00Z (reproducible-builds.org spec)
+    assert b'timestamp="2024-05-01T09:30:00"' in failing.stdout
