@@ -1,0 +1,136 @@
+"""The Flask app factory: settings, JSON logs, database, auth, the /v1 blueprints, one error handler.
+
+Invariants:
+- ``create_app(config)`` reads ``OHMTALLY_*`` settings (``config`` wins) and
+  refuses to build an app on a database that is not migrated.
+- Every error, ours (:class:`ApiError`), Flask's/werkzeug's (404, 405, 413),
+  webargs'/marshmallow's (422) or an unexpected exception (500, logged),
+  leaves as ``application/problem+json`` from :meth:`OhmtallyApi.handle_http_exception`
+  or :func:`_api_error`; no traceback reaches a client.
+- ``OHMTALLY_AUTH=on`` fails closed: until an API-key module (``api.auth``)
+  is installed every route but ``/v1/health`` answers 401.
+"""
+
+from __future__ import annotations
+
+import http
+import importlib.util
+from collections.abc import Mapping
+from typing import Any
+
+from flask import Flask, current_app, request
+from flask_smorest import Api
+from werkzeug.exceptions import HTTPException
+
+from engine import __version__
+
+from . import db, logs
+from .errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
+from .schemas import json_types_attribute
+from .schemas.errors import ProblemSchema
+from .settings import Settings, load_settings
+
+__all__ = ["OhmtallyApi", "create_app"]
+
+
+class OhmtallyApi(Api):  # type: ignore[misc]
+    """flask-smorest's Api with problem+json errors, documented as such."""
+
+    ERROR_SCHEMA = ProblemSchema
+
+    def _register_responses(self) -> None:
+        default = self.DEFAULT_RESPONSE_CONTENT_TYPE
+        self.DEFAULT_RESPONSE_CONTENT_TYPE = PROBLEM_MEDIA_TYPE
+        try:
+            super()._register_responses()
+        finally:
+            self.DEFAULT_RESPONSE_CONTENT_TYPE = default
+
+    def handle_http_exception(self, error: HTTPException) -> Any:
+        status = error.code or 500
+        if status >= 500:
+            original = getattr(error, "original_exception", None) or error
+            current_app.extensions["ohmtally.logger"].error(
+                "unhandled error", exc_info=(type(original), original, original.__traceback__))
+            return problem_response(ApiError(500, "internal_error",
+                                             "the server could not complete the request; the "
+                                             "error was logged with this request id"))
+        data = getattr(error, "data", None) or {}
+        messages = data.get("messages") or data.get("errors")
+        errors: list[dict[str, Any]] = []
+        if isinstance(messages, Mapping):
+            for location, inner in messages.items():
+                for entry in messages_to_errors(inner):
+                    if location in ("query", "path", "headers"):
+                        entry["parameter"] = entry.pop("pointer").lstrip("/")
+                    errors.append(entry)
+        code = _HTTP_CODES.get(status, http.HTTPStatus(status).phrase.lower().replace(" ", "_"))
+        detail = str(data.get("message") or error.description or http.HTTPStatus(status).phrase)
+        if status == 422 and errors:
+            detail = f"{len(errors)} invalid parameter(s)"
+        problem = ApiError(status, code, detail, errors=errors, headers=dict(data.get("headers") or {}))
+        response = problem_response(problem)
+        if status == 405 and hasattr(error, "valid_methods") and error.valid_methods:
+            response.headers["Allow"] = ", ".join(error.valid_methods)
+        return response
+
+
+_HTTP_CODES = {404: "not_found", 405: "method_not_allowed", 413: "body_too_large",
+               400: "bad_request", 422: "invalid_parameters", 415: "unsupported_media_type"}
+
+
+def _api_error(error: ApiError) -> Any:
+    return problem_response(error)
+
+
+def _init_auth(app: Flask, settings: Settings) -> None:
+    if not settings.auth:
+        return
+    if importlib.util.find_spec("api.auth") is not None:
+        from importlib import import_module
+
+        import_module("api.auth").init_app(app)
+        return
+
+    @app.before_request
+    def _closed() -> Any:
+        if request.path.rstrip("/") in ("/v1/health", "/v1/openapi.json"):
+            return None
+        raise ApiError(401, "auth_unavailable",
+                       "API keys are required (OHMTALLY_AUTH=on) but this build has no key store; "
+                       "for a loopback demo or test set OHMTALLY_AUTH=off")
+
+
+def create_app(config: Mapping[str, Any] | None = None) -> Flask:
+    settings = load_settings(config)
+    app = Flask("api", instance_path=settings.instance_path, instance_relative_config=False)
+    app.config.update(
+        API_TITLE="ohmtally",
+        API_VERSION=__version__,
+        OPENAPI_VERSION="3.1.0",
+        OPENAPI_URL_PREFIX="/v1",
+        OPENAPI_JSON_PATH="openapi.json",
+        MAX_CONTENT_LENGTH=settings.max_upload_bytes,
+        API_SPEC_OPTIONS={"info": {"description": "Installation test readings in, verdicts out. "
+                                   "Verdicts are a decision aid; the person who signs decides."}},
+    )
+    for key, value in (config or {}).items():
+        if not str(key).startswith("OHMTALLY_") and str(key).isupper():
+            app.config[key] = value
+    app.json.sort_keys = False  # type: ignore[attr-defined]
+    app.json.ensure_ascii = False  # type: ignore[attr-defined]
+    app.extensions["ohmtally.settings"] = settings
+    logs.init_app(app, settings.log_level)
+    url = db.database_url_for(app.instance_path, settings.database_url)
+    app.config["OHMTALLY_DATABASE_URL"] = url
+    db.init_app(app, url)
+    _init_auth(app, settings)
+
+    api = OhmtallyApi(app)
+    api.ma_plugin.converter.add_attribute_function(json_types_attribute)
+    app.register_error_handler(ApiError, _api_error)
+    from .routes import BLUEPRINTS
+
+    for blueprint in BLUEPRINTS:
+        api.register_blueprint(blueprint)
+    return app

@@ -1,0 +1,137 @@
+"""The database: one SQLAlchemy engine per app, one session per request, Alembic migrations.
+
+Invariants:
+- The default database is an SQLite file in the Flask instance folder, in WAL
+  mode (readers never block the writer), with foreign keys on and a busy
+  timeout, and every transaction opened ``BEGIN IMMEDIATE``: two processes
+  merging into the same job queue one behind the other instead of failing
+  on a lock upgrade. PostgreSQL (``postgresql+psycopg://``) locks the job
+  row instead (``repository.lock_job``).
+- The schema comes only from the migrations in ``api/migrations``; the app
+  refuses to start on a database that is not at the newest revision and says
+  to run ``ohmtally db upgrade``.
+- A session lives for one request and is closed at teardown.
+"""
+
+from __future__ import annotations
+
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from flask import Flask, current_app, g
+from sqlalchemy import Engine, create_engine, event
+from sqlalchemy.engine import make_url
+from sqlalchemy.orm import Session, sessionmaker
+
+__all__ = [
+    "SchemaNotCurrent",
+    "alembic_config",
+    "check_schema",
+    "database_url_for",
+    "default_sqlite_url",
+    "get_session",
+    "init_app",
+    "make_engine",
+    "upgrade",
+]
+
+SQLITE_FILE = "ohmtally.sqlite3"
+
+
+class SchemaNotCurrent(RuntimeError):
+    """The database is not at the newest migration."""
+
+
+def default_sqlite_url(instance_path: str) -> str:
+    Path(instance_path).mkdir(parents=True, exist_ok=True)
+    return f"sqlite:///{Path(instance_path, SQLITE_FILE)}"
+
+
+def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    # The pysqlite driver's own transaction handling is switched off so that
+    # the "begin" hook below decides how a transaction starts (SQLAlchemy's
+    # documented recipe for SQLite locking).
+    dbapi_connection.isolation_level = None
+    cursor = dbapi_connection.cursor()
+    cursor.execute("PRAGMA journal_mode=WAL")
+    cursor.execute("PRAGMA foreign_keys=ON")
+    cursor.execute("PRAGMA busy_timeout=30000")
+    cursor.close()
+
+
+def _sqlite_begin(connection: Any) -> None:
+    connection.exec_driver_sql("BEGIN IMMEDIATE")
+
+
+def make_engine(url: str) -> Engine:
+    parsed = make_url(url)
+    if parsed.get_backend_name() == "sqlite":
+        engine = create_engine(url, connect_args={"timeout": 30})
+        event.listen(engine, "connect", _sqlite_pragmas)
+        event.listen(engine, "begin", _sqlite_begin)
+        return engine
+    return create_engine(url, pool_pre_ping=True)
+
+
+def alembic_config(url: str) -> Any:
+    """An Alembic config built in code: no alembic.ini needed at the top level."""
+    from alembic.config import Config
+
+    script_location = str(resources.files("api").joinpath("migrations"))
+    config = Config()
+    config.set_main_option("script_location", script_location)
+    config.set_main_option("sqlalchemy.url", url.replace("%", "%%"))
+    return config
+
+
+def upgrade(url: str, revision: str = "head") -> None:
+    from alembic import command
+
+    command.upgrade(alembic_config(url), revision)
+
+
+def _head_revision(url: str) -> str | None:
+    from alembic.script import ScriptDirectory
+
+    return ScriptDirectory.from_config(alembic_config(url)).get_current_head()
+
+
+def check_schema(engine: Engine, url: str) -> None:
+    """Raise :class:`SchemaNotCurrent` unless the database is at the newest migration."""
+    from alembic.runtime.migration import MigrationContext
+
+    with engine.connect() as connection:
+        current = MigrationContext.configure(connection).get_current_revision()
+    head = _head_revision(url)
+    if current != head:
+        shown = make_url(url).render_as_string(hide_password=True)
+        state = "has no ohmtally schema" if current is None else f"is at revision {current}"
+        raise SchemaNotCurrent(
+            f"the database {shown} {state}, the code needs {head}: run `ohmtally db upgrade` "
+            "(with the same OHMTALLY_DATABASE_URL) before starting the server")
+
+
+def init_app(app: Flask, url: str) -> None:
+    engine = make_engine(url)
+    check_schema(engine, url)
+    app.extensions["ohmtally.db"] = sessionmaker(engine, expire_on_commit=False)
+    app.extensions["ohmtally.engine"] = engine
+
+    @app.teardown_appcontext
+    def _close(_exc: BaseException | None) -> None:
+        session = g.pop("db_session", None)
+        if session is not None:
+            session.close()
+
+
+def get_session() -> Session:
+    if "db_session" not in g:
+        g.db_session = current_app.extensions["ohmtally.db"]()
+    session: Session = g.db_session
+    return session
+
+
+def database_url_for(instance_path: str, configured: str) -> str:
+    """The configured URL, else the SQLite file in the instance folder."""
+    return configured or default_sqlite_url(instance_path)

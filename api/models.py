@@ -1,0 +1,115 @@
+"""Tables: organisations, jobs, circuits (current merged fields), field history, uploads.
+
+Invariants:
+- Every job belongs to an organisation; migration 0001 seeds the ``local`` one.
+- ``circuits.fields`` holds the current merged record's fields as JSON, readings
+  in their ``Reading.to_json()`` form, so ``engine.build_record`` rebuilds them
+  unchanged. ``(job_id, board, circuit)`` is unique.
+- ``field_history`` has one row for every field value ever received (the
+  latest row of a field equals the current value), each with its upload.
+- ``uploads.body`` is the request body exactly as received; it is never
+  changed or deleted, so nothing a client sent is lost, even rejected rows.
+- The schema is owned by the Alembic migrations in ``api/migrations``; these
+  classes must match them (a test compares them).
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime
+from typing import Any
+
+from sqlalchemy import JSON, ForeignKey, Index, LargeBinary, String, Text, UniqueConstraint
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
+from sqlalchemy.types import DateTime, TypeDecorator
+
+__all__ = ["Base", "Circuit", "FieldHistory", "Job", "Organisation", "Upload", "utcnow"]
+
+
+def utcnow() -> datetime:
+    return datetime.now(UTC)
+
+
+class UtcDateTime(TypeDecorator[datetime]):
+    """Timezone-aware UTC datetimes on every backend (SQLite keeps no zone)."""
+
+    impl = DateTime(timezone=True)
+    cache_ok = True
+
+    def process_bind_param(self, value: datetime | None, dialect: Any) -> datetime | None:
+        return None if value is None else value.astimezone(UTC)
+
+    def process_result_value(self, value: datetime | None, dialect: Any) -> datetime | None:
+        if value is None:
+            return None
+        return value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
+
+
+class Base(DeclarativeBase):
+    pass
+
+
+class Organisation(Base):
+    __tablename__ = "organisations"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    slug: Mapped[str] = mapped_column(String(64), unique=True)
+    name: Mapped[str] = mapped_column(String(200))
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+class Job(Base):
+    __tablename__ = "jobs"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    organisation_id: Mapped[int] = mapped_column(ForeignKey("organisations.id"), index=True)
+    reference: Mapped[str] = mapped_column(String(200), index=True)
+    site: Mapped[str] = mapped_column(Text)
+    ruleset: Mapped[str] = mapped_column(String(100))
+    external_ref: Mapped[str | None] = mapped_column(String(200), default=None)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+    organisation: Mapped[Organisation] = relationship()
+
+
+class Upload(Base):
+    __tablename__ = "uploads"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
+    content_type: Mapped[str] = mapped_column(String(200))
+    adapter: Mapped[str | None] = mapped_column(String(100), default=None)
+    profile: Mapped[str | None] = mapped_column(String(200), default=None)
+    sha256: Mapped[str] = mapped_column(String(64))
+    size: Mapped[int]
+    body: Mapped[bytes] = mapped_column(LargeBinary, deferred=True)  # loaded only when fetched
+    received_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    status: Mapped[str] = mapped_column(String(20))  # merged | rejected
+    accepted: Mapped[int] = mapped_column(default=0)
+    rejected: Mapped[list[dict[str, Any]]] = mapped_column(JSON, default=list)
+
+
+class Circuit(Base):
+    __tablename__ = "circuits"
+    __table_args__ = (UniqueConstraint("job_id", "board", "circuit", name="uq_circuits_job_key"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
+    board: Mapped[str] = mapped_column(String(200))
+    circuit: Mapped[str] = mapped_column(String(200))
+    fields: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    upload_id: Mapped[int | None] = mapped_column(ForeignKey("uploads.id"), default=None)
+
+
+class FieldHistory(Base):
+    __tablename__ = "field_history"
+    __table_args__ = (Index("ix_field_history_circuit_field", "circuit_id", "field"),)
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    circuit_id: Mapped[int] = mapped_column(ForeignKey("circuits.id"))
+    field: Mapped[str] = mapped_column(String(64))
+    value: Mapped[Any] = mapped_column(JSON)
+    upload_id: Mapped[int] = mapped_column(ForeignKey("uploads.id"), index=True)
+    location: Mapped[str | None] = mapped_column(String(100), default=None)  # "line 12", "/circuits/3"
+    recorded_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)

@@ -1,0 +1,202 @@
+"""Jobs, uploads and merged circuit records in the database: every query the views need.
+
+Invariants:
+- Merging is per ``(board, circuit)`` and per field, later winning; a field
+  value is never dropped: every value received gets a ``field_history`` row
+  with its upload and input location, in arrival order.
+- Posting to a job first locks the job (``SELECT … FOR UPDATE`` on
+  PostgreSQL; SQLite's ``BEGIN IMMEDIATE`` in ``api.db``), so two writers to
+  one job apply one after the other and lose nothing.
+- A job's records are loaded in one query (no N+1); its history in one more.
+"""
+
+from __future__ import annotations
+
+import base64
+import binascii
+import hashlib
+import json
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from engine import CircuitRecord, build_record
+
+from .body_intake import Item
+from .errors import ApiError
+from .models import Circuit, FieldHistory, Job, Organisation, Upload, utcnow
+
+__all__ = [
+    "LOCAL_ORGANISATION",
+    "create_job",
+    "decode_cursor",
+    "encode_cursor",
+    "get_job",
+    "get_upload",
+    "job_circuits",
+    "job_history",
+    "job_records",
+    "list_jobs",
+    "list_uploads",
+    "lock_job",
+    "merge_items",
+    "records_of",
+    "store_upload",
+]
+
+LOCAL_ORGANISATION = "local"
+
+
+def local_organisation(session: Session) -> Organisation:
+    found = session.scalars(select(Organisation).where(Organisation.slug == LOCAL_ORGANISATION)).first()
+    if found is None:  # seeded by migration 0001; missing only if someone deleted it
+        raise ApiError(500, "no_organisation", "the 'local' organisation is missing; "
+                       "re-run `ohmtally db upgrade` on a fresh database")
+    return found
+
+
+def create_job(session: Session, *, reference: str, site: str, ruleset: str,
+               external_ref: str | None, organisation: Organisation | None = None) -> Job:
+    org = organisation or local_organisation(session)
+    now = utcnow()
+    job = Job(organisation_id=org.id, reference=reference, site=site, ruleset=ruleset,
+              external_ref=external_ref, created_at=now, updated_at=now)
+    session.add(job)
+    session.flush()
+    return job
+
+
+def encode_cursor(last_id: int) -> str:
+    raw = json.dumps({"after": last_id}, separators=(",", ":")).encode()
+    return base64.urlsafe_b64encode(raw).decode().rstrip("=")
+
+
+def decode_cursor(cursor: str) -> int:
+    try:
+        padded = cursor + "=" * (-len(cursor) % 4)
+        data = json.loads(base64.urlsafe_b64decode(padded.encode()))
+        after = data["after"]
+        if not isinstance(after, int) or isinstance(after, bool):
+            raise ValueError
+        return after
+    except (ValueError, KeyError, TypeError, binascii.Error, UnicodeDecodeError):
+        raise ApiError(400, "bad_cursor", "the cursor is not one this API handed out",
+                       errors=[{"parameter": "cursor", "code": "bad_cursor",
+                                "reason": "use next_cursor from the previous page"}]) from None
+
+
+def list_jobs(session: Session, *, limit: int, cursor: str | None,
+              reference: str | None) -> tuple[list[Job], str | None]:
+    """One page in creation order, and the cursor of the next page (``None`` at the end)."""
+    query = select(Job).order_by(Job.id).limit(limit + 1)
+    if cursor:
+        query = query.where(Job.id > decode_cursor(cursor))
+    if reference is not None:
+        query = query.where(Job.reference == reference)
+    rows = list(session.scalars(query))
+    more = len(rows) > limit
+    page = rows[:limit]
+    return page, encode_cursor(page[-1].id) if more and page else None
+
+
+def get_job(session: Session, job_id: int) -> Job:
+    job = session.get(Job, job_id)
+    if job is None:
+        raise ApiError(404, "job_not_found", f"there is no job {job_id}",
+                       errors=[{"parameter": "job_id", "code": "job_not_found",
+                                "reason": f"no job with id {job_id}"}])
+    return job
+
+
+def lock_job(session: Session, job_id: int) -> Job:
+    """The job, locked for this transaction against other writers."""
+    job = session.scalars(select(Job).where(Job.id == job_id).with_for_update()).first()
+    if job is None:
+        return get_job(session, job_id)
+    return job
+
+
+def store_upload(session: Session, job: Job, *, body: bytes, content_type: str,
+                 adapter: str | None, profile: str | None) -> Upload:
+    upload = Upload(job_id=job.id, content_type=content_type or "application/octet-stream",
+                    adapter=adapter, profile=profile, sha256=hashlib.sha256(body).hexdigest(),
+                    size=len(body), body=body, received_at=utcnow(), status="rejected",
+                    accepted=0, rejected=[])
+    session.add(upload)
+    session.flush()
+    return upload
+
+
+def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item]
+                ) -> tuple[int, list[tuple[str, str]]]:
+    """Merge items into the job's circuits; returns (field values merged, keys touched)."""
+    existing = {(c.board, c.circuit): c
+                for c in session.scalars(select(Circuit).where(Circuit.job_id == job.id))}
+    touched: dict[tuple[str, str], None] = {}
+    accepted = 0
+    now = utcnow()
+    for item in items:
+        key = (item.board, item.circuit)
+        row = existing.get(key)
+        if row is None:
+            row = Circuit(job_id=job.id, board=item.board, circuit=item.circuit, fields={},
+                          updated_at=now, upload_id=upload.id)
+            session.add(row)
+            session.flush()
+            existing[key] = row
+        merged = dict(row.fields)
+        for name, value in item.fields.items():
+            merged[name] = value
+            session.add(FieldHistory(circuit_id=row.id, field=name, value=value, upload_id=upload.id,
+                                     location=item.location, recorded_at=now))
+            accepted += 1
+        row.fields = merged  # a new dict, so the JSON column is seen as changed
+        row.updated_at = now
+        row.upload_id = upload.id
+        touched[key] = None
+    job.updated_at = now
+    return accepted, list(touched)
+
+
+def job_circuits(session: Session, job: Job) -> list[Circuit]:
+    return list(session.scalars(select(Circuit).where(Circuit.job_id == job.id).order_by(Circuit.id)))
+
+
+def records_of(circuits: Sequence[Circuit]) -> list[CircuitRecord]:
+    out: list[CircuitRecord] = []
+    for row in circuits:
+        record, _errors = build_record({"board": row.board, "circuit": row.circuit, **row.fields})
+        if record is not None:
+            out.append(record)
+    return out
+
+
+def job_records(session: Session, job: Job) -> list[CircuitRecord]:
+    return records_of(job_circuits(session, job))
+
+
+def job_history(session: Session, job: Job) -> dict[int, dict[str, list[dict[str, Any]]]]:
+    """circuit id → field → values oldest first, in one query."""
+    query = (select(FieldHistory).join(Circuit, Circuit.id == FieldHistory.circuit_id)
+             .where(Circuit.job_id == job.id).order_by(FieldHistory.id))
+    out: dict[int, dict[str, list[dict[str, Any]]]] = {}
+    for row in session.scalars(query):
+        out.setdefault(row.circuit_id, {}).setdefault(row.field, []).append({
+            "value": row.value, "upload_id": row.upload_id, "location": row.location,
+            "recorded_at": row.recorded_at.isoformat()})
+    return out
+
+
+def list_uploads(session: Session, job: Job) -> list[Upload]:
+    return list(session.scalars(select(Upload).where(Upload.job_id == job.id).order_by(Upload.id)))
+
+
+def get_upload(session: Session, job: Job, upload_id: int) -> Upload:
+    upload = session.get(Upload, upload_id)
+    if upload is None or upload.job_id != job.id:
+        raise ApiError(404, "upload_not_found", f"job {job.id} has no upload {upload_id}",
+                       errors=[{"parameter": "upload_id", "code": "upload_not_found",
+                                "reason": f"no upload {upload_id} on job {job.id}"}])
+    return upload

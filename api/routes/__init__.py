@@ -1,0 +1,14 @@
+"""The /v1 blueprints, one per resource, in the order the OpenAPI document lists them."""
+
+from __future__ import annotations
+
+from flask_smorest import Blueprint
+
+from .catalogue import blp as catalogue
+from .jobs import blp as jobs
+from .readings import blp as readings
+from .verify import blp as verify
+
+__all__ = ["BLUEPRINTS"]
+
+BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, verify, jobs, readings)

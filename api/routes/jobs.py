@@ -1,0 +1,117 @@
+"""Jobs (site visits): create, list (cursor pages), read; their merged circuits and verdicts."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask.views import MethodView
+from flask_smorest import Blueprint
+from marshmallow import ValidationError
+
+from engine import record_to_dict, verify
+
+from ..bodies import verify_body
+from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from ..db import get_session
+from ..errors import ApiError
+from ..models import Job
+from ..repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
+from ..schemas.jobs import (
+    CircuitsQuerySchema,
+    CircuitsResponseSchema,
+    JobCreateSchema,
+    JobListQuerySchema,
+    JobListSchema,
+    JobSchema,
+    JobVerdictsSchema,
+)
+from .common import json_response, raw_body, resolve_ruleset, settings
+
+__all__ = ["blp", "job_dict"]
+
+blp = Blueprint("jobs", __name__, url_prefix="/v1", description="Jobs, their circuits and verdicts")
+
+
+def job_dict(job: Job) -> dict[str, Any]:
+    return {"id": job.id, "organisation": job.organisation.slug, "reference": job.reference,
+            "site": job.site, "ruleset": job.ruleset, "external_ref": job.external_ref,
+            "created_at": job.created_at.isoformat(), "updated_at": job.updated_at.isoformat()}
+
+
+def _json_body(schema: Any) -> dict[str, Any]:
+    body, media_type, _charset = raw_body()
+    if media_type != JSON_MEDIA_TYPE:
+        raise ApiError(415, "unsupported_media_type",
+                       f"send application/json, not {media_type or 'a body without a Content-Type'}",
+                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
+                                "reason": "expected application/json"}], extra={"choices": [JSON_MEDIA_TYPE]})
+    try:
+        loaded: dict[str, Any] = schema.load(read_json_document(body))
+    except ValidationError as exc:
+        raise validation_problem(exc) from None
+    return loaded
+
+
+@blp.route("/jobs")
+class Jobs(MethodView):
+    @blp.doc(requestBody={"required": True, "content": {JSON_MEDIA_TYPE: {"schema": JobCreateSchema}}})
+    @blp.response(201, JobSchema)
+    def post(self) -> Any:
+        """Create a job: reference, site, and the ruleset its verdicts use."""
+        data = _json_body(JobCreateSchema())
+        ruleset = resolve_ruleset(data.get("ruleset"), pointer="/ruleset")
+        session = get_session()
+        job = create_job(session, reference=data["reference"], site=data["site"], ruleset=ruleset.id,
+                         external_ref=data.get("external_ref"))
+        session.commit()
+        return json_response(job_dict(job), 201, {"Location": f"/v1/jobs/{job.id}"})
+
+    @blp.arguments(JobListQuerySchema, location="query", as_kwargs=True)
+    @blp.response(200, JobListSchema)
+    def get(self, **query: Any) -> Any:
+        """Jobs in creation order, a page at a time (`next_cursor` → `?cursor=`)."""
+        limit = query.get("limit") or settings().page_limit
+        jobs, cursor = list_jobs(get_session(), limit=limit, cursor=query.get("cursor"),
+                                 reference=query.get("reference"))
+        return json_response({"items": [job_dict(j) for j in jobs], "next_cursor": cursor, "limit": limit})
+
+
+@blp.route("/jobs/<int:job_id>")
+class JobDetail(MethodView):
+    @blp.response(200, JobSchema)
+    def get(self, job_id: int) -> Any:
+        """One job."""
+        return json_response(job_dict(get_job(get_session(), job_id)))
+
+
+@blp.route("/jobs/<int:job_id>/circuits")
+class JobCircuits(MethodView):
+    @blp.arguments(CircuitsQuerySchema, location="query", as_kwargs=True)
+    @blp.response(200, CircuitsResponseSchema)
+    def get(self, job_id: int, history: bool = False) -> Any:
+        """The job's merged circuit records; `?history=true` adds every value of each field."""
+        session = get_session()
+        job = get_job(session, job_id)
+        rows = job_circuits(session, job)
+        by_circuit = job_history(session, job) if history else {}
+        out = []
+        for row, record in zip(rows, records_of(rows), strict=True):
+            item: dict[str, Any] = {"board": row.board, "circuit": row.circuit,
+                                    "record": record_to_dict(record),
+                                    "updated_at": row.updated_at.isoformat(), "upload_id": row.upload_id}
+            if history:
+                item["history"] = by_circuit.get(row.id, {})
+            out.append(item)
+        return json_response({"job_id": job.id, "circuits": out})
+
+
+@blp.route("/jobs/<int:job_id>/verdicts")
+class JobVerdicts(MethodView):
+    @blp.response(200, JobVerdictsSchema)
+    def get(self, job_id: int) -> Any:
+        """Verdicts of all the job's circuits, recomputed now from the merged records."""
+        session = get_session()
+        job = get_job(session, job_id)
+        ruleset = resolve_ruleset(job.ruleset)
+        records = records_of(job_circuits(session, job))
+        return json_response({"job_id": job.id, **verify_body(ruleset, verify(records, ruleset), [])})

@@ -1,0 +1,62 @@
+"""``POST /v1/verify``: stateless verification of a body of readings; nothing is stored."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask.views import MethodView
+from flask_smorest import Blueprint
+from marshmallow import RAISE, Schema, fields
+
+from engine import verify
+
+from ..bodies import verify_body
+from ..body_intake import read_body
+from ..errors import ApiError
+from ..schemas.verdicts import VerifyResponseSchema
+from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
+
+__all__ = ["ReadingsQuerySchema", "blp"]
+
+blp = Blueprint("verify", __name__, url_prefix="/v1", description="Stateless verification")
+
+
+class ReadingsQuerySchema(Schema):
+    class Meta:
+        unknown = RAISE
+
+    adapter = fields.String(metadata={"description": "adapter name (default: from the Content-Type)"})
+    profile = fields.String(metadata={"description": "mapping or line profile for the adapter"})
+    ruleset = fields.String(metadata={"description": "ruleset id (JSON bodies may name it instead)"})
+
+
+def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | None, dict[str, str]]:
+    """The ruleset the request names, and where (for the pointer of a 404)."""
+    if query_id and body_id and query_id != body_id:
+        raise ApiError(422, "conflicting_ruleset",
+                       f"the query names ruleset {query_id!r} and the body {body_id!r}; name one",
+                       errors=[{"pointer": "/ruleset", "code": "conflicting_ruleset",
+                                "reason": f"differs from ?ruleset={query_id}"}])
+    if body_id:
+        return body_id, {"pointer": "/ruleset"}
+    return query_id, {"parameter": "ruleset"}
+
+
+@blp.route("/verify")
+class Verify(MethodView):
+    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True)
+    @blp.doc(requestBody=READINGS_BODY_DOC)
+    @blp.response(200, VerifyResponseSchema)
+    def post(self, **query: Any) -> Any:
+        """Verify circuits: `{ruleset, summary, verdicts, rejected, notice}`.
+
+        JSON bodies are all or nothing (422 with a pointer per bad field); CSV,
+        lines and NDJSON take the good rows and list the bad ones in `rejected`.
+        """
+        body, media_type, charset = raw_body()
+        intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
+                           profile=query.get("profile"), profile_dir=settings().profile_dir)
+        ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
+        ruleset = resolve_ruleset(ruleset_id, **where)
+        records = intake.records()
+        return json_response(verify_body(ruleset, verify(records, ruleset), intake.rejected))

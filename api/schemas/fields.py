@@ -1,0 +1,64 @@
+"""A field that takes any of a few JSON types and leaves the value to the engine.
+
+Readings are a number or a string (``0.82``, ``"> 299 MΩ"``, ``"OL"``); the
+engine's parser decides whether the string is a reading. The schema only
+rejects the wrong JSON type (an object, a list, a boolean for a reading) and
+documents the union as an OpenAPI 3.1 type list.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from marshmallow import ValidationError, fields
+
+__all__ = ["JsonTypes", "json_types_attribute"]
+
+_CHECKS: dict[str, Any] = {
+    "string": lambda v: isinstance(v, str),
+    "number": lambda v: isinstance(v, int | float) and not isinstance(v, bool),
+    "integer": lambda v: isinstance(v, int) and not isinstance(v, bool),
+    "boolean": lambda v: isinstance(v, bool),
+}
+
+
+class JsonTypes(fields.Field):  # type: ignore[type-arg]
+    """Accepts a value of one of ``types`` (JSON type names) unchanged."""
+
+    def __init__(self, *types: str, **kwargs: Any) -> None:
+        unknown = set(types) - set(_CHECKS)
+        if unknown:
+            raise ValueError(f"unsupported JSON types {sorted(unknown)}")
+        self.json_types = types
+        super().__init__(**kwargs)
+
+    def _deserialize(self, value: Any, attr: str | None, data: Mapping[str, Any] | None,
+                     **kwargs: Any) -> Any:
+        if any(_CHECKS[t](value) for t in self.json_types):
+            return value
+        raise ValidationError(f"expected {' or '.join(self.json_types)}, got {_json_type(value)}")
+
+
+def _json_type(value: Any) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "boolean"
+    if isinstance(value, int | float):
+        return "number"
+    if isinstance(value, str):
+        return "string"
+    if isinstance(value, list):
+        return "array"
+    return "object"
+
+
+def json_types_attribute(self: Any, field: Any, ret: Mapping[str, Any], **_kwargs: Any) -> dict[str, Any]:
+    """apispec attribute function: a :class:`JsonTypes` field becomes ``type: [..]``."""
+    if not isinstance(field, JsonTypes):
+        return {}
+    types: list[str] = list(field.json_types)
+    if field.allow_none:
+        types.append("null")
+    return {"type": types}
