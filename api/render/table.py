@@ -80,8 +80,10 @@ def rich_table(body: dict[str, Any], policy: Policy) -> Any:
     ruleset = body["ruleset"]
     table = Table(title=Text(f"{ruleset.get('id')} — {ruleset.get('title', '')}"),
                   show_lines=False, header_style="bold")
+    wraps = ("board", "circuit", "detail")  # user text may fold; ids, outcomes and figures stay whole
     for name in HEADER:
-        table.add_column(name, overflow="fold", no_wrap=name != "detail")
+        table.add_column(name, overflow="fold", no_wrap=name not in wraps,
+                         ratio=1 if name == "detail" else None)
     for row in _rows(body, policy):
         outcome = row[3].split(" ")[0].lower()
         cells = [Text(cell) for cell in row]
