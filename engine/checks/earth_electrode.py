@@ -1,14 +1,78 @@
-"""Placeholder: the earth_electrode check is being written (see the open issues)."""
+"""TT earth electrode: RA × IΔn ≤ 50 V (411.5.3), and whether RA looks stable.
+
+Invariants:
+- Applies to TT installations, and where ``ra_ohm`` is recorded but the
+  earthing is not (only a TT installation has an RA to record). TN and IT are
+  left out.
+- Two results: ``ra_x_idn`` (RA × IΔn against the touch-voltage limit, in V)
+  and ``electrode_stability`` (RA above 200 Ω → investigate: it may not stay
+  stable with soil drying or freezing; a handbook note, not a limit).
+- No RA → one incomplete. No IΔn → the touch-voltage result is incomplete
+  (TT fault protection is normally by RCD, 411.5.2; with an overcurrent device
+  the ``loop_impedance`` check judges it) and reports the largest IΔn the
+  recorded RA allows, 50 V / RA.
+- Bounded RA readings keep their bound through the product.
+"""
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..protection import positive
+from ..readings import Reading
+from ..results import CheckResult, Outcome
+from ._compare import Side, compare_max, incomplete
 
 __all__ = ["run"]
 
+CHECK = "earth_electrode"
+SECTION = "earth_electrode"
+_MA_PER_A = 1000.0
+_OUTCOME = {Side.WITHIN: Outcome.PASS, Side.BEYOND: Outcome.FAIL, Side.UNKNOWN: Outcome.INVESTIGATE}
+
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    yield from ()
+    rules = ctx.ruleset
+    earthing = view.raw("earthing")
+    ra = view.reading("ra_ohm")
+    if earthing != "TT" and not (earthing is None and ra is not None):
+        return
+    touch_v = float(rules.value(SECTION, "touch_voltage_v"))
+    basis = rules.basis(SECTION, "touch_voltage_v")
+    if ra is None:
+        yield incomplete(CHECK, ["ra_ohm"], basis=basis)
+        return
+    idn_ma = positive(view.raw("rcd_residual_ma"))
+    inputs: dict[str, object] = {"ra": ra.to_json(), "touch_voltage_v": touch_v,
+                                 "earthing": earthing or "not recorded (RA implies TT)"}
+    if ra.value is not None and ra.value > 0:
+        inputs["max_residual_ma"] = touch_v / ra.value * _MA_PER_A
+    if idn_ma is None:
+        yield incomplete(CHECK, ["rcd_residual_ma"], basis=basis, inputs=inputs,
+                         detail="needs the RCD's IΔn to judge RA × IΔn ≤ 50 V")
+    else:
+        idn_a = idn_ma / _MA_PER_A
+        raw = None if ra.value is None else ra.value * idn_a
+        # a product too large for a float is over any limit: keep it as an over-range bound
+        product = (Reading(value=raw, relation=ra.relation) if raw is not None and math.isfinite(raw)
+                   else Reading(value=None, relation=">"))
+        side = compare_max(product, touch_v)
+        words = {Side.WITHIN: "within", Side.BEYOND: "above"}.get(side, "not shown within")
+        yield CheckResult(
+            check=CHECK, outcome=_OUTCOME[side], value=product.value, relation=product.relation,
+            limit=touch_v, limit_kind="max", unit="V", method="ra_x_idn", basis=basis,
+            inputs={**inputs, "rcd_residual_ma": idn_ma},
+            detail=f"RA {ra.display('Ω')} × IΔn {idn_ma:g} mA = {product.display('V')}, {words} "
+                   f"the {touch_v:g} V limit")
+    stable = float(rules.value(SECTION, "stable_max_ohm"))
+    side = compare_max(ra, stable)
+    yield CheckResult(
+        check=CHECK, outcome=Outcome.PASS if side is Side.WITHIN else Outcome.INVESTIGATE,
+        value=ra.value, relation=ra.relation, limit=stable, limit_kind="max", unit="Ω",
+        method="electrode_stability", basis=rules.basis(SECTION, "stable_max_ohm"),
+        inputs={"ra": ra.to_json()},
+        detail=f"RA {ra.display('Ω')} is within {stable:g} Ω" if side is Side.WITHIN
+        else f"RA {ra.display('Ω')} is not shown within {stable:g} Ω: such an electrode may not be "
+             "stable (soil drying or freezing); consider improving it")

@@ -1,14 +1,72 @@
-"""Placeholder: the external_impedance check is being written (see the open issues)."""
+"""External earth fault loop impedance Ze against the typical declared maxima (OSG).
+
+Invariants:
+- Applies where ``ze_ohm`` is recorded and the ruleset has declared maxima
+  (``external_impedance.applies``); the iec-60364 ruleset has none — declared
+  values are national — so there the check is left out.
+- A declared maximum is the network operator's statement of what its network
+  gives, not a limit of BS 7671: above it → ``investigate`` (confirm with the
+  operator; a high Ze may mean a deteriorated supply earth, and the design
+  figures of every circuit rest on it), never ``fail``. The circuits' own
+  ``loop_impedance`` checks carry the regulation limit.
+- TT: the 21 Ω figure is the operator's own part; a measured Ze runs through the
+  installation's electrode too. Where ``ra_ohm`` is recorded (exact readings),
+  Ze − RA is compared; otherwise Ze above 21 Ω → investigate, asking for RA.
+- Earthing unknown → incomplete; IT (no declared figure) → left out.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Iterator
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..readings import Reading
+from ..results import CheckResult, Outcome
+from ._compare import Side, compare_max, incomplete
 
 __all__ = ["run"]
 
+CHECK = "external_impedance"
+SECTION = "external_impedance"
+
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    yield from ()
+    rules = ctx.ruleset
+    ze = view.reading("ze_ohm")
+    if ze is None or not rules.get(SECTION, "applies", False):
+        return
+    basis = rules.basis(SECTION, "typical_max_ohm")
+    earthing = view.raw("earthing")
+    if earthing is None:
+        yield incomplete(CHECK, ["earthing"], basis=basis,
+                         detail="the typical declared Ze depends on the earthing arrangement")
+        return
+    maxima: dict[str, float] = rules.value(SECTION, "typical_max_ohm")
+    if earthing not in maxima:
+        return
+    limit = float(maxima[earthing])
+    side = compare_max(ze, limit)
+    method = "declared_maximum"
+    value, relation = ze.value, ze.relation
+    ra = view.reading("ra_ohm")
+    note = ""
+    if earthing == "TT" and side is not Side.WITHIN and ra is not None and ze.exact and ra.exact:
+        assert ze.value is not None and ra.value is not None
+        value = ze.value - ra.value
+        side = compare_max(Reading(value=max(value, 0.0)), limit)
+        method, note = "operator_part_ze_minus_ra", f" (Ze − RA = {value:.4g} Ω)"
+    inputs = {"earthing": earthing, "typical_max_ohm": limit, "ze": ze.to_json()}
+    if side is Side.WITHIN:
+        outcome = Outcome.PASS
+        text = f"Ze {ze.display('Ω')}{note} is within the {limit:g} Ω typically declared for {earthing}"
+    else:
+        outcome = Outcome.INVESTIGATE
+        text = (f"Ze {ze.display('Ω')}{note} is above the {limit:g} Ω typically declared for "
+                f"{earthing}: not a regulation limit, but confirm the supply with the network "
+                "operator and check that the design used this Ze")
+        if earthing == "TT" and method == "declared_maximum":
+            text += "; for TT the figure excludes the installation's electrode (record ra_ohm)"
+            inputs["missing"] = ["ra_ohm"] if ra is None else []
+    yield CheckResult(check=CHECK, outcome=outcome, value=value, relation=relation, limit=limit,
+                      limit_kind="max", unit="Ω", method=method, basis=basis, inputs=inputs,
+                      detail=text)

@@ -1,14 +1,131 @@
-"""Placeholder: the insulation check is being written (see the open issues)."""
+"""Insulation resistance: minimum by circuit voltage band and test voltage (Table 64 / Table 6.1).
+
+Invariants:
+- One result per reading: ``ir_ll_mohm`` (between live conductors) and
+  ``ir_le_mohm`` (live conductors to earth), so a person sees which one is low.
+  Both missing → one ``incomplete`` naming both; one missing → ``incomplete`` for it.
+- Band by circuit nominal voltage: U0 for single-phase, √3 × U0 (line to line)
+  for three-phase. At or below ELV → SELV/PELV (250 V, 0.5 MΩ); up to 500 V →
+  500 V, 1.0 MΩ; above → 1000 V, 1.0 MΩ.
+- Below the minimum → fail, whatever the test voltage.
+- Test voltage below the band's → investigate, except the live-to-earth test
+  at the reduced voltage the ruleset allows (643.3.3: 250 V where equipment may
+  be affected), which is judged against the same minimum and says so. The
+  allowance does not cover the test between live conductors.
+- No test voltage recorded → incomplete (a pass needs the test voltage).
+- Within the minimum but below the attention level (2 MΩ) → investigate.
+- Bounded readings: ``> 999 MΩ`` and ``OL`` pass; a bound that settles nothing
+  (``< 5 MΩ`` against 1 MΩ) → investigate.
+"""
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..readings import Reading
+from ..results import CheckResult, Outcome
+from ..ruleset import Ruleset
+from ._compare import Side, compare_min, incomplete
 
-__all__ = ["run"]
+__all__ = ["Band", "band_for", "run"]
+
+CHECK = "insulation"
+SECTION = "insulation"
+_READINGS = (("ir_ll_mohm", "between live conductors"), ("ir_le_mohm", "live conductors to earth"))
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Band:
+    name: str
+    test_v: float
+    min_mohm: float
+    basis: str
+
+
+def band_for(rules: Ruleset, circuit_v: float) -> Band:
+    """Table 64 row for a circuit of nominal voltage ``circuit_v``."""
+    if circuit_v <= float(rules.value(SECTION, "elv_max_v")):
+        key = "selv_pelv"
+        name = "SELV/PELV"
+    elif circuit_v <= float(rules.value(SECTION, "lv_band_max_v")):
+        key, name = "lv", f"up to {rules.value(SECTION, 'lv_band_max_v'):g} V"
+    else:
+        key, name = "above_lv", f"above {rules.value(SECTION, 'lv_band_max_v'):g} V"
+    return Band(name=name, test_v=float(rules.value(SECTION, f"{key}_test_v")),
+                min_mohm=float(rules.value(SECTION, f"{key}_min_mohm")),
+                basis=rules.basis(SECTION, f"{key}_min_mohm"))
+
+
+def _circuit_voltage(view: CircuitView) -> float | None:
+    u0 = view.get("nominal_voltage_v")
+    if u0 is None:
+        return None
+    # Table 64 bands by the circuit's nominal voltage: line to line on a three-phase circuit
+    return float(u0) * math.sqrt(3) if view.get("phases") == 3 else float(u0)
 
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    yield from ()
+    rules = ctx.ruleset
+    readings = [(name, where, view.reading(name)) for name, where in _READINGS]
+    if all(r is None for _, _, r in readings):
+        yield incomplete(CHECK, [name for name, _ in _READINGS], basis=rules.basis(SECTION, "lv_min_mohm"))
+        return
+    circuit_v = _circuit_voltage(view)
+    if circuit_v is None:
+        yield incomplete(CHECK, ["nominal_voltage_v"], detail="the minimum depends on the circuit voltage")
+        return
+    band = band_for(rules, circuit_v)
+    test_v = view.raw("ir_test_v")
+    for name, where, reading in readings:
+        if reading is None:
+            yield incomplete(CHECK, [name], basis=band.basis, inputs={"conductors": where})
+        else:
+            yield _judge(rules, band, circuit_v, test_v, name, where, reading)
+
+
+def _test_voltage_note(rules: Ruleset, band: Band, test_v: float | None,
+                       name: str) -> tuple[Outcome | None, str]:
+    """What the test voltage allows: (``None`` = fine, else the outcome it forces), and a note."""
+    if test_v is None:
+        return Outcome.INCOMPLETE, "no test voltage recorded (ir_test_v)"
+    if test_v >= band.test_v:
+        return None, f"tested at {test_v:g} V"
+    reduced = rules.get(SECTION, "reduced_le_test_v")
+    if (name == "ir_le_mohm" and reduced is not None and band.test_v > float(reduced)
+            and test_v >= float(reduced)):
+        return None, (f"tested at {test_v:g} V, the reduced live-to-earth voltage allowed where "
+                      f"equipment may be affected ({rules.basis(SECTION, 'reduced_le_test_v')})")
+    return Outcome.INVESTIGATE, f"tested at {test_v:g} V, below the {band.test_v:g} V the band requires"
+
+
+def _judge(rules: Ruleset, band: Band, circuit_v: float, test_v: float | None, name: str,
+           where: str, reading: Reading) -> CheckResult:
+    attention = float(rules.value(SECTION, "attention_mohm"))
+    forced, note = _test_voltage_note(rules, band, test_v, name)
+    side = compare_min(reading, band.min_mohm)
+    inputs = {"conductors": where, "field": name, "circuit_voltage_v": circuit_v, "band": band.name,
+              "required_test_v": band.test_v, "test_v": test_v, "attention_mohm": attention}
+    if forced is Outcome.INCOMPLETE:
+        inputs["missing"] = ["ir_test_v"]
+    shown = reading.display("MΩ")
+    if side is Side.BEYOND:
+        outcome, text = Outcome.FAIL, f"{shown} is below the {band.min_mohm:g} MΩ minimum"
+    elif side is Side.UNKNOWN:
+        outcome, text = Outcome.INVESTIGATE, f"the bounded reading {shown} does not show the " \
+                                             f"{band.min_mohm:g} MΩ minimum met"
+    elif forced is not None:
+        outcome, text = forced, f"{shown} meets the {band.min_mohm:g} MΩ minimum"
+    elif compare_min(reading, attention) is not Side.WITHIN:
+        outcome = Outcome.INVESTIGATE
+        text = (f"{shown} meets the {band.min_mohm:g} MΩ minimum but is below {attention:g} MΩ, "
+                "which may point to a latent defect (test the circuits separately)")
+    else:
+        outcome, text = Outcome.PASS, f"{shown} meets the {band.min_mohm:g} MΩ minimum"
+    return CheckResult(
+        check=CHECK, outcome=outcome, value=reading.value, relation=reading.relation,
+        limit=band.min_mohm, limit_kind="min", unit="MΩ", method="table_minimum",
+        basis=band.basis, inputs=inputs, detail=f"{where}: {text}; {note}",
+    )

@@ -1,14 +1,92 @@
-"""Placeholder: the rcd_time check is being written (see the open issues)."""
+"""RCD operating times against the product standard (BS EN / IEC 61008-1, 61009-1 Table 1).
+
+Invariants:
+- Applies where ``rcd_residual_ma`` is recorded or the device is an RCBO.
+- At IΔn (``rcd_trip_ms``): general type ≤ 300 ms; type S (``rcd_delayed``)
+  130–500 ms. Missing → incomplete: BS 7671:2018+A2:2022 643.8 requires this test.
+- At 5 IΔn (``rcd_trip_5x_ms``), when given: general ≤ 40 ms, type S 50–150 ms.
+  Its absence is incomplete only where the ruleset says the test is required
+  (``require_5idn_test``; false under A2:2022, which dropped it).
+- ``rcd_half_no_trip`` false (tripped at ½ IΔn) → fail; true → pass; absent → left out.
+- An RCD not recorded as delayed is judged as a general type (the ruleset's
+  ``delayed_when_unrecorded``), reported in ``defaults_applied``: its 300 ms
+  maximum is the stricter upper limit, so the assumption cannot hide a slow device.
+- Bounded readings: ``> 300 ms`` or ``OL`` (did not trip) fail a 300 ms maximum.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Iterator
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..readings import Reading
+from ..results import CheckResult, LimitKind, Outcome
+from ..ruleset import Ruleset
+from ._compare import Side, compare_max, compare_min, incomplete
 
 __all__ = ["run"]
 
+CHECK = "rcd_time"
+SECTION = "rcd"
+
+
+def _is_delayed(view: CircuitView, rules: Ruleset) -> bool:
+    recorded = view.raw("rcd_delayed")
+    if recorded is not None:
+        return bool(recorded)
+    assumed = bool(rules.value(SECTION, "delayed_when_unrecorded"))
+    view.defaults_applied["rcd_delayed"] = assumed  # reported like any other default
+    return assumed
+
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    yield from ()
+    rules = ctx.ruleset
+    if view.raw("rcd_residual_ma") is None and view.raw("device_kind") != "rcbo":
+        return
+    delayed = _is_delayed(view, rules)
+    kind = "S" if delayed else "general"
+    for multiple, field, suffix in (("IΔn", "rcd_trip_ms", "at_idn"), ("5 IΔn", "rcd_trip_5x_ms", "at_5idn")):
+        low_key = f"delayed_min_ms_{suffix}" if delayed else None
+        high_key = f"{'delayed' if delayed else 'general'}_max_ms_{suffix}"
+        reading = view.reading(field)
+        if reading is None:
+            if suffix == "at_idn" or rules.get(SECTION, "require_5idn_test", False):
+                yield incomplete(CHECK, [field], basis=rules.basis(SECTION, high_key),
+                                 inputs={"test": multiple, "rcd_kind": kind})
+            continue
+        yield _window(rules, reading, multiple, kind, low_key, high_key, f"trip_time_{suffix}")
+    half = view.raw("rcd_half_no_trip")
+    if half is not None:
+        yield CheckResult(
+            check=CHECK, outcome=Outcome.PASS if half else Outcome.FAIL, method="half_idn_no_trip",
+            basis=rules.basis(SECTION, "half_idn_must_not_trip"), inputs={"test": "½ IΔn"},
+            detail="did not trip at ½ IΔn, as required" if half
+            else "tripped at ½ IΔn: the device must not operate at half its rated residual current")
+
+
+def _window(rules: Ruleset, reading: Reading, multiple: str, kind: str, low_key: str | None,
+            high_key: str, method: str) -> CheckResult:
+    high = float(rules.value(SECTION, high_key))
+    low = float(rules.value(SECTION, low_key)) if low_key else None
+    shown = reading.display("ms")
+    limit, basis = high, rules.basis(SECTION, high_key)
+    limit_kind: LimitKind = "max"
+    side_high = compare_max(reading, high)
+    side_low = compare_min(reading, low) if low is not None else Side.WITHIN
+    if side_high is Side.BEYOND:
+        outcome, text = Outcome.FAIL, f"{shown} at {multiple} is above the {high:g} ms maximum"
+    elif side_low is Side.BEYOND:
+        assert low is not None and low_key is not None
+        limit, limit_kind, basis = low, "min", rules.basis(SECTION, low_key)
+        outcome, text = Outcome.FAIL, (f"{shown} at {multiple} is below the {low:g} ms a type S "
+                                       "device must not trip within (loss of discrimination)")
+    elif side_high is Side.UNKNOWN or side_low is Side.UNKNOWN:
+        outcome, text = Outcome.INVESTIGATE, f"the bounded reading {shown} at {multiple} settles nothing"
+    else:
+        window = f"{low:g}–{high:g} ms" if low is not None else f"≤ {high:g} ms"
+        outcome, text = Outcome.PASS, f"{shown} at {multiple} is within {window}"
+    return CheckResult(
+        check=CHECK, outcome=outcome, value=reading.value, relation=reading.relation, limit=limit,
+        limit_kind=limit_kind, unit="ms", method=method,
+        basis=basis, inputs={"test": multiple, "rcd_kind": kind, "max_ms": high, "min_ms": low},
+        detail=f"{kind} RCD: {text}")
