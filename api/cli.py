@@ -19,6 +19,7 @@ EXIT_OK, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_USAGE = 0, 1, 2, 3
 # Sub-command modules, in the order `ohmtally --help` lists them.
 COMMAND_MODULES: tuple[str, ...] = (
     "api.cli_verify",
+    "api.cli_capture",
 )
 
 

@@ -75,13 +75,13 @@ class Backoff:
         # "Equal jitter": never less than half the step, so the wait still grows.
         jittered = exponential * (0.5 + 0.5 * draw())
         if retry_after_s is not None:
-            return min(retry_after_s, self.retry_after_cap_s)
-        return jittered
+            return float(min(retry_after_s, self.retry_after_cap_s))
+        return float(jittered)
 
 
 def linger_wait(*, pending: int, oldest_read_at: float | None, now: float,
                 max_lines: int, linger_s: float) -> float:
-    """Seconds to wait for more lines before sending: 0 once the batch is full or the oldest line has waited."""
+    """Seconds to wait for more lines before sending: 0 once the batch is full or its oldest line waited."""
     if pending <= 0 or oldest_read_at is None:
         return linger_s
     if pending >= max_lines:

@@ -30,11 +30,11 @@ from typing import Any
 
 __all__ = [
     "BatchRows",
+    "Spool",
     "SpoolCounts",
     "SpoolError",
     "SpoolMismatch",
     "SpoolRow",
-    "Spool",
     "batch_key",
 ]
 

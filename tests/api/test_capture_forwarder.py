@@ -69,7 +69,7 @@ def _forwarder(tmp_path: Path, clock: Clock, script: list, lines: int = 3,  # ty
     (413, Disposition.REJECT), (401, Disposition.REJECT_AND_HALT), (404, Disposition.REJECT_AND_HALT),
 ])
 def test_classify_statuses(status: int, expected: Disposition) -> None:
-    """Each status class gets the treatment its RFC meaning implies (transient → retry, client error → keep)."""
+    """Each status gets the treatment its RFC meaning implies (transient → retry, client error → keep)."""
     assert classify(status) is expected
 
 
@@ -94,7 +94,8 @@ def test_backoff_doubles_with_jitter_and_cap() -> None:
 
 def test_linger_waits_for_more_lines_unless_full() -> None:
     """A batch goes when full or when its oldest line has waited the linger time."""
-    assert linger_wait(pending=1, oldest_read_at=10.0, now=10.2, max_lines=50, linger_s=0.5) == pytest.approx(0.3)
+    wait = linger_wait(pending=1, oldest_read_at=10.0, now=10.2, max_lines=50, linger_s=0.5)
+    assert wait == pytest.approx(0.3)
     assert linger_wait(pending=50, oldest_read_at=10.0, now=10.0, max_lines=50, linger_s=0.5) == 0.0
     assert linger_wait(pending=2, oldest_read_at=10.0, now=11.0, max_lines=50, linger_s=0.5) == 0.0
 
@@ -128,7 +129,7 @@ def test_400_marks_batch_rejected_and_moves_on(tmp_path: Path, clock: Clock) -> 
     """A 400 keeps the batch's lines in the spool, marked rejected with the problem's code, and the
     next batch still goes."""
     problem = {"code": "bad_body", "detail": "body is not text", "status": 400}
-    fwd, transport, spool = _forwarder(tmp_path, clock, [Reply(status=400, body=problem)],
+    fwd, _, spool = _forwarder(tmp_path, clock, [Reply(status=400, body=problem)],
                                        lines=4, max_lines=2)
     clock.now += 1
     first, second = fwd.step(), fwd.step()

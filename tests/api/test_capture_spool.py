@@ -28,9 +28,9 @@ def test_appended_line_survives_a_killed_process(tmp_path: Path) -> None:
     """A line whose append returned is on disk even when the process dies at once without closing
     (os._exit skips every clean-up)."""
     path = tmp_path / "s.sqlite"
-    code = ("import os,sys; sys.path.insert(0, %r); from api.capture.spool import Spool; "
-            "s = Spool(%r, job='J1'); s.append('board=DB1 circuit=1 zs=0.4'); os._exit(9)"
-            % (str(Path(__file__).resolve().parents[2]), str(path)))
+    root = str(Path(__file__).resolve().parents[2])
+    code = (f"import os,sys; sys.path.insert(0, {root!r}); from api.capture.spool import Spool; "
+            f"s = Spool({str(path)!r}, job='J1'); s.append('board=DB1 circuit=1 zs=0.4'); os._exit(9)")
     assert subprocess.run([sys.executable, "-c", code], timeout=30).returncode == 9
     rows = sqlite3.connect(path).execute("SELECT text, state FROM lines").fetchall()
     assert rows == [("board=DB1 circuit=1 zs=0.4", "unsent")]
