@@ -67,10 +67,11 @@ class LineError:
     field: str | None = None
     column: str | None = None
     text: str | None = None
+    pointer: str | None = None  # JSON Pointer into a JSON input (``/3/zs_ohm``)
 
     def as_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {"line": self.line, "code": self.code, "reason": self.reason}
-        for name in ("field", "column", "text"):
+        for name in ("field", "column", "text", "pointer"):
             value = getattr(self, name)
             if value is not None:
                 out[name] = value

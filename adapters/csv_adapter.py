@@ -1,0 +1,237 @@
+"""The ``csv`` adapter: wide or long CSV from a meter's export → record fragments.
+
+Invariants (beyond those of :mod:`adapters.base`):
+- One physical line is one row: a quoted cell may hold the delimiter but not a
+  line break (meters do not write them), so a stray quote costs one line, not
+  the rest of the file.
+- The header is the first line that is not blank or a comment, or one of the
+  few after it (a title line before the header is skipped as preamble). No
+  recognisable header in the first ``_HEADER_SEARCH`` such lines →
+  ``unrecognised_header`` on the first of them, and the rest are skipped.
+- Detection (encoding, delimiter, decimal comma) looks at a bounded sample; a
+  profile or an option that states one wins over detection.
+- Rows are parsed with the header's plan and cached cell parses: no
+  per-value library calls once a value has been seen.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from itertools import chain
+from typing import IO, Any, ClassVar
+
+from engine import EngineError, coerce_field
+
+from .base import AdapterError, AdapterOptions, Fragment, LineError, Result, Skipped
+from .cells import CellParser, CellProblem
+from .csv_layout import Layout, detect_decimal_comma, long_test, plan_layout, sniff_delimiter, split_cells
+from .encoding import DecodedLine, checked_encoding, detect_encoding, iter_decoded_lines, read_sample
+from .profiles import CsvProfile, get_profile
+
+__all__ = ["CsvAdapter"]
+
+_HEADER_SEARCH = 5
+_SAMPLE_LINES = 25
+
+
+class CsvAdapter:
+    name: ClassVar[str] = "csv"
+    description: ClassVar[str] = ("CSV exports, wide (a column per field) or long (board, circuit, "
+                                  "test, value, unit), with mapping profiles and trade-label aliases")
+    media_types: ClassVar[tuple[str, ...]] = ("text/csv", "application/csv",
+                                              "text/tab-separated-values")
+    extensions: ClassVar[tuple[str, ...]] = (".csv", ".tsv")
+
+    def read(self, stream: IO[bytes], options: AdapterOptions) -> Iterator[Result]:
+        profile = None
+        if options.profile:
+            found = get_profile(options.profile, kind="csv", profile_dir=options.profile_dir)
+            assert isinstance(found, CsvProfile)
+            profile = found
+        defaults = _coerced_defaults(profile)
+        sample, replay = read_sample(stream)
+        encoding = (checked_encoding(options.encoding) or (profile.encoding if profile else None)
+                    or detect_encoding(sample))
+        del sample
+        lines = iter_decoded_lines(replay, encoding, options.max_line_length)
+        head: list[tuple[DecodedLine, bool]] = []
+        for item in lines:
+            head.append(item)
+            if len(head) >= _SAMPLE_LINES:
+                break
+        yield from _Reader(options, profile, defaults).run(head, chain(head, lines))
+
+
+def _coerced_defaults(profile: CsvProfile | None) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for name, text in (profile.defaults.items() if profile else ()):
+        try:
+            value = coerce_field(name, text)
+        except EngineError as exc:
+            raise AdapterError(f"profile {profile.name if profile else ''}: {exc.message}",
+                               code="bad_profile", details={"pointer": f"/defaults/{name}"}) from exc
+        if value is not None:
+            out[name] = value
+    return out
+
+
+class _Reader:
+    def __init__(self, options: AdapterOptions, profile: CsvProfile | None,
+                 defaults: dict[str, Any]) -> None:
+        self.options = options
+        self.profile = profile
+        self.comment = profile.comment if profile else "#"
+        self.default_board: str | None = defaults.pop("board", None)
+        self.default_circuit: str | None = defaults.pop("circuit", None)
+        self.defaults = defaults
+        self.delimiter = ","
+        self.decimal_comma = False
+        self.layout: Layout | None = None
+        self.header: list[str] = []
+        self.header_line = 0
+        self.long_parsers: dict[tuple[str, float], CellParser] = {}
+
+    def _is_content(self, text: str) -> bool:
+        stripped = text.strip()
+        return bool(stripped) and not (self.comment and stripped.startswith(self.comment))
+
+    def _decide(self, head: list[tuple[DecodedLine, bool]]) -> tuple[int, str]:
+        """Settle delimiter, decimal and layout; returns (header line, reason if none)."""
+        content = [line for line, overlong in head if not line.problem and not overlong
+                   and self._is_content(line.text)]
+        if not content:
+            return 0, "the input has no header line"
+        declared = self.options.extra.get("delimiter") or (self.profile.delimiter if self.profile else None)
+        self.delimiter = sniff_delimiter([c.text for c in content], declared)
+        rows = [split_cells(c.text, self.delimiter) for c in content]
+        if self.options.decimal_comma is not None:
+            self.decimal_comma = self.options.decimal_comma
+        elif self.profile and self.profile.decimal:
+            self.decimal_comma = self.profile.decimal == ","
+        else:
+            self.decimal_comma = detect_decimal_comma(rows[1:], self.delimiter)
+        first_reason = ""
+        for candidate, cells in list(zip(content, rows, strict=True))[:_HEADER_SEARCH]:
+            if len(cells) > self.options.max_columns:
+                continue
+            layout, reason = plan_layout([c.strip() for c in cells], self.profile, self.decimal_comma)
+            if layout is not None:
+                self.layout, self.header = layout, [c.strip() for c in cells]
+                return candidate.number, ""
+            first_reason = first_reason or reason
+        return content[0].number, first_reason
+
+    def run(self, head: list[tuple[DecodedLine, bool]],
+            lines: Iterator[tuple[DecodedLine, bool]]) -> Iterator[Result]:
+        self.header_line, reason = self._decide(head)
+        first_content = next((line.number for line, overlong in head if not line.problem
+                              and not overlong and self._is_content(line.text)), 0)
+        for line, overlong in lines:
+            number = line.number
+            if line.problem:
+                yield LineError(line=number, code=line.code or "bad_line", reason=line.problem)
+            elif overlong:
+                yield LineError(line=number, code="line_too_long",
+                                reason=f"the line is longer than {self.options.max_line_length} characters")
+            elif not self._is_content(line.text):
+                yield Skipped(line=number, reason="blank" if not line.text.strip() else "comment")
+            elif self.layout is None:
+                if number == self.header_line:
+                    cells = [c.strip() for c in split_cells(line.text, self.delimiter)]
+                    yield LineError(line=number, code="unrecognised_header", text=",".join(cells)[:1000],
+                                    reason=f"no recognisable header: {reason}")
+                else:
+                    yield Skipped(line=number, reason="not read: the input has no recognisable header")
+            elif number < self.header_line and number >= first_content:
+                yield Skipped(line=number, reason="preamble before the header")
+            elif number == self.header_line:
+                ignored = ", ".join(self.layout.ignored)
+                note = f"; ignored columns: {ignored}" if ignored else ""
+                yield Skipped(line=number, reason="header" + note)
+            else:
+                yield from self._row(number, line.text)
+
+    def _row(self, number: int, text: str) -> Iterator[Result]:
+        layout = self.layout
+        assert layout is not None
+        cells = split_cells(text, self.delimiter)
+        if len(cells) > self.options.max_columns:
+            yield LineError(line=number, code="too_many_columns",
+                            reason=f"the row has {len(cells)} cells, more than {self.options.max_columns}")
+            return
+        if [c.strip() for c in cells] == self.header:
+            yield Skipped(line=number, reason="repeated header")
+            return
+        if not any(c.strip() for c in cells):
+            yield Skipped(line=number, reason="blank row")
+            return
+        count = len(cells)
+        board = cells[layout.board].strip() if layout.board is not None and layout.board < count else ""
+        board = board or self.default_board or ""
+        circuit = cells[layout.circuit].strip() if layout.circuit < count else ""
+        circuit = circuit or self.default_circuit or ""
+        if not board or not circuit:
+            missing = "board" if not board else "circuit"
+            yield LineError(line=number, code="missing_key", field=missing,
+                            column=self.header[layout.board if missing == "board" and layout.board
+                                               is not None else layout.circuit],
+                            reason=f"the row has no {missing}, which keys the circuit record")
+            return
+        fields: dict[str, Any] = dict(self.defaults)
+        errors: list[LineError] = []
+        if layout.kind == "wide":
+            for index, name, parser in layout.columns:
+                if index >= count:
+                    continue
+                raw = cells[index].strip()
+                if not raw:
+                    continue
+                value = parser.parse(raw)
+                if value is None:
+                    continue
+                if type(value) is CellProblem:
+                    errors.append(LineError(line=number, code="bad_value", field=name,
+                                            column=self.header[index], text=value.text, reason=value.reason))
+                else:
+                    fields[name] = value
+            extra = [c for c in cells[layout.width:] if c.strip()]
+            if extra:
+                errors.append(LineError(
+                    line=number, code="extra_cells", text=self.delimiter.join(extra)[:200],
+                    reason=f"{len(extra)} cell(s) beyond the header's {layout.width} columns"))
+        else:
+            outcome = self._long(number, cells, fields)
+            if isinstance(outcome, LineError):
+                errors.append(outcome)
+            elif outcome == "no reading" and not errors:
+                yield Skipped(line=number, reason="no reading")
+                return
+        if fields or not errors:
+            yield Fragment(board=board, circuit=circuit, fields=fields, line=number)
+        yield from errors
+
+    def _long(self, number: int, cells: list[str], fields: dict[str, Any]) -> LineError | str:
+        layout = self.layout
+        assert layout is not None
+        count = len(cells)
+        label = cells[layout.test].strip() if layout.test < count else ""
+        test = long_test(layout, label) if label else None
+        if test is None:
+            return LineError(line=number, code="unknown_test", column=self.header[layout.test],
+                             text=label, reason=f"{label!r} names no test we know" if label
+                             else "the row names no test")
+        raw = cells[layout.value].strip() if layout.value < count else ""
+        unit = cells[layout.unit].strip() if layout.unit is not None and layout.unit < count else ""
+        key = (test.field, test.scale)
+        parser = self.long_parsers.get(key)
+        if parser is None:
+            parser = CellParser(test.field, decimal_comma=self.decimal_comma, scale=test.scale)
+            self.long_parsers[key] = parser
+        value = parser.parse(raw, unit=unit or test.unit) if raw else None
+        if value is None:
+            return "no reading"
+        if type(value) is CellProblem:
+            return LineError(line=number, code="bad_value", field=test.field,
+                             column=self.header[layout.value], text=value.text, reason=value.reason)
+        fields[test.field] = value
+        return "ok"

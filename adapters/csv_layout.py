@@ -1,0 +1,179 @@
+"""Reading a CSV header: delimiter, decimal convention, and which column is which field.
+
+Invariants:
+- A header is recognised when it names the circuit (and the board, unless a
+  profile gives a default board) and is either wide (other columns are fields)
+  or long (a test column and a value column). Anything else is ``None`` plus a
+  reason, which the adapter turns into ``unrecognised_header`` for that line.
+- A profile's column names are matched folded (case, spacing, punctuation
+  insensitive) and win over the alias table; with ``only_mapped`` the alias
+  table is not consulted at all.
+- The layout is decided once, from the header; rows then cost list indexing and
+  cached cell parses (:class:`adapters.cells.CellParser`).
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+
+from .aliases import field_for_label, fold, split_header
+from .cells import CellParser
+from .profiles import ColumnSpec, CsvProfile
+
+__all__ = [
+    "Layout",
+    "LongTest",
+    "detect_decimal_comma",
+    "long_test",
+    "plan_layout",
+    "sniff_delimiter",
+    "split_cells",
+]
+
+_CANDIDATES = ",;\t|"
+_ROLE_LABELS = {
+    "test": {"test", "measurement", "quantity", "parameter", "testname", "readingtype"},
+    "value": {"value", "reading", "result", "measured", "measuredvalue"},
+    "unit": {"unit", "units", "uom"},
+}
+_COMMA_NUMBER = re.compile(r"^\s*[<>≤≥]?\s*\d+,\d+(?:\s*\D.*)?$")
+_POINT_NUMBER = re.compile(r"^\s*[<>≤≥]?\s*\d+\.\d+(?:\s*\D.*)?$")
+
+
+@dataclass(frozen=True, slots=True)
+class LongTest:
+    field: str
+    unit: str | None
+    scale: float
+
+
+@dataclass(slots=True)
+class Layout:
+    kind: str  # "wide" or "long"
+    board: int | None
+    circuit: int
+    columns: list[tuple[int, str, CellParser]] = field(default_factory=list)  # wide
+    test: int = -1  # long
+    value: int = -1
+    unit: int | None = None
+    tests: dict[str, LongTest] = field(default_factory=dict)
+    width: int = 0
+    ignored: list[str] = field(default_factory=list)
+
+
+def sniff_delimiter(sample_lines: list[str], declared: str | None) -> str:
+    """The declared delimiter, else csv.Sniffer's pick among , ; TAB |, else the most frequent."""
+    if declared:
+        return declared
+    text = "\n".join(sample_lines[:20])
+    try:
+        return csv.Sniffer().sniff(text, delimiters=_CANDIDATES).delimiter
+    except csv.Error:
+        head = sample_lines[0] if sample_lines else ""
+        counts = {d: head.count(d) for d in _CANDIDATES}
+        best = max(counts, key=lambda d: counts[d])
+        return best if counts[best] else ","
+
+
+def split_cells(line: str, delimiter: str) -> list[str]:
+    """One physical line's cells; quoted cells go through the csv module."""
+    if '"' not in line:
+        return line.split(delimiter)
+    return next(csv.reader([line], delimiter=delimiter, strict=False), [])
+
+
+def detect_decimal_comma(rows: list[list[str]], delimiter: str) -> bool:
+    """Decimal commas when the delimiter is not a comma and numbers are written 0,82 (none 0.82)."""
+    if delimiter == ",":
+        return False
+    comma = point = 0
+    for row in rows:
+        for cell in row:
+            if _COMMA_NUMBER.match(cell):
+                comma += 1
+            elif _POINT_NUMBER.match(cell):
+                point += 1
+    return comma > 0 and point == 0
+
+
+def _profile_columns(profile: CsvProfile | None) -> dict[str, ColumnSpec]:
+    return {fold(c.source): c for c in profile.columns} if profile else {}
+
+
+def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bool
+                ) -> tuple[Layout | None, str]:
+    """The layout a header describes, or ``None`` and why it is not recognised."""
+    mapped = _profile_columns(profile)
+    only_mapped = bool(profile and profile.only_mapped)
+    roles: dict[str, int] = {}
+    wide: list[tuple[int, str, CellParser]] = []
+    keys: dict[str, int] = {}
+    ignored: list[str] = []
+    for index, cell in enumerate(header):
+        bare, header_unit = split_header(cell)
+        spec = mapped.get(fold(cell)) or mapped.get(fold(bare))
+        if spec is not None:
+            # the profile's unit, else the one written in the header ("Earth Loop (Ω)")
+            name, scale = spec.field, spec.scale
+            unit = spec.unit or (header_unit if fold(cell) not in mapped else None)
+        elif only_mapped:
+            name, unit, scale = None, None, 1.0
+        else:
+            folded = fold(cell)
+            role = next((r for r, labels in _ROLE_LABELS.items() if folded in labels), None)
+            if role is not None:
+                roles.setdefault(role, index)
+                continue
+            name, unit = field_for_label(cell)
+            scale = 1.0
+        if name is None:
+            if cell.strip():
+                ignored.append(cell.strip())
+            continue
+        if name in ("test", "value", "unit"):
+            roles.setdefault(name, index)
+        elif name in ("board", "circuit"):
+            keys.setdefault(name, index)
+        elif all(existing != name for _, existing, _ in wide):
+            wide.append((index, name, CellParser(name, unit=unit, decimal_comma=decimal_comma,
+                                                 scale=scale)))
+        else:
+            ignored.append(cell.strip())
+    default_board = profile.defaults.get("board") if profile else None
+    if "circuit" not in keys:
+        return None, "no column names the circuit (Circuit, Cct, Way …)"
+    if "board" not in keys and not default_board:
+        return None, "no column names the board (DB, Board …) and the profile gives no default board"
+    layout = Layout(kind="wide", board=keys.get("board"), circuit=keys["circuit"], width=len(header),
+                    ignored=ignored)
+    wants_long = (profile.layout == "long") if profile and profile.layout else (
+        "test" in roles and "value" in roles and not wide)
+    if wants_long:
+        if "test" not in roles or "value" not in roles:
+            return None, "a long layout needs a test column and a value column"
+        layout.kind = "long"
+        layout.test, layout.value, layout.unit = roles["test"], roles["value"], roles.get("unit")
+        if profile:
+            layout.tests = {fold(t.source): LongTest(t.field, t.unit, t.scale) for t in profile.tests}
+        layout.ignored += [header[i].strip() for i, _, _ in wide]
+        return layout, ""
+    if not wide and profile is None:
+        return None, "no column names a reading or design value"
+    layout.columns = wide
+    return layout, ""
+
+
+def long_test(layout: Layout, label: str) -> LongTest | None:
+    """A long-layout test label → its field, unit and scale (profile first, then aliases)."""
+    key = fold(label)
+    hit = layout.tests.get(key)
+    if hit is None:
+        name, unit = field_for_label(label)
+        if name is None or name in ("board", "circuit"):
+            return None
+        hit = LongTest(name, unit, 1.0)
+        if len(layout.tests) < 4096:
+            layout.tests[key] = hit
+    return hit

@@ -1,0 +1,123 @@
+"""The ``json`` adapter: circuit records as JSON → record fragments, streamed.
+
+Accepts a list of records, an object ``{"circuits": [...]}`` (other members,
+such as ``ruleset``, are left to the caller), or newline-delimited JSON (one
+record per line). Field names are the record's own (DESIGN.md, "Circuit
+record"); aliases are accepted too, as in the other adapters.
+
+Invariants (beyond those of :mod:`adapters.base`):
+- A record that is not an object, or lacks ``board``/``circuit``, is one
+  :class:`LineError` with its line and pointer (``/circuits/3``); a bad field is
+  a :class:`LineError` with the field's pointer (``/circuits/3/zs_ohm``) beside
+  the fragment of the good fields.
+- Line accounting is per record, not per physical line (a pretty-printed
+  record spans many lines): the ``line`` is where the record starts.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from typing import IO, Any, ClassVar
+
+from .aliases import field_for_label
+from .base import AdapterOptions, Fragment, LineError, Result
+from .cells import CellParser, CellProblem
+from .encoding import checked_encoding, read_sample
+from .json_stream import iter_json_records
+
+__all__ = ["JsonAdapter"]
+
+
+def _escape(token: str) -> str:
+    return token.replace("~", "~0").replace("/", "~1")
+
+
+class JsonAdapter:
+    name: ClassVar[str] = "json"
+    description: ClassVar[str] = ("Circuit records as JSON: a list, an object with 'circuits', "
+                                  "or one record per line (NDJSON), streamed")
+    media_types: ClassVar[tuple[str, ...]] = ("application/json", "application/x-ndjson",
+                                              "application/ndjson", "application/jsonl")
+    extensions: ClassVar[tuple[str, ...]] = (".json", ".ndjson", ".jsonl")
+
+    def read(self, stream: IO[bytes], options: AdapterOptions) -> Iterator[Result]:
+        sample, replay = read_sample(stream)
+        # RFC 8259 §8.1: JSON is UTF-8; a BOM'd UTF-16 file from an old tool is still read
+        if options.encoding:
+            encoding = checked_encoding(options.encoding) or "utf-8"
+        elif sample[:2] in (b"\xff\xfe", b"\xfe\xff"):
+            encoding = "utf-16"
+        else:
+            encoding = "utf-8"  # a UTF-8 BOM is skipped by the scanner
+        del sample
+        parsers: dict[str, CellParser] = {}
+        decimal_comma = bool(options.decimal_comma)
+        for item in iter_json_records(replay, encoding, options.max_line_length):
+            if item.problem is not None:
+                yield LineError(line=item.line, code=item.code, pointer=item.pointer, reason=item.problem)
+                continue
+            yield from _record(item.line, item.pointer, item.value, parsers, decimal_comma,
+                               options.max_columns)
+
+
+def _key(value: Any) -> str | None:
+    if isinstance(value, str) and value.strip():
+        return value.strip()
+    if isinstance(value, int) and not isinstance(value, bool):
+        return str(value)
+    return None
+
+
+def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser], decimal_comma: bool,
+            max_columns: int) -> Iterator[Result]:
+    if not isinstance(value, dict):
+        yield LineError(line=line, pointer=pointer, code="bad_record",
+                        reason=f"a circuit record must be an object, not {type(value).__name__}")
+        return
+    if len(value) > max_columns:
+        yield LineError(line=line, pointer=pointer, code="too_many_columns",
+                        reason=f"the record has {len(value)} members, more than {max_columns}")
+        return
+    fields: dict[str, Any] = {}
+    errors: list[LineError] = []
+    board = circuit = None
+    for key, raw in value.items():
+        where = f"{pointer}/{_escape(key)}"
+        name, unit = field_for_label(key)
+        if name is None:
+            errors.append(LineError(line=line, pointer=where, code="unknown_field", column=key,
+                                    reason=f"{key!r} is not a circuit record field"))
+            continue
+        if name in ("board", "circuit"):
+            text = _key(raw)
+            if text is None:
+                errors.append(LineError(line=line, pointer=where, field=name, code="bad_value",
+                                        reason=f"{name} must be a non-empty string"))
+            elif name == "board":
+                board = text
+            else:
+                circuit = text
+            continue
+        cache_key = f"{name}\x00{unit or ''}"
+        parser = parsers.get(cache_key)
+        if parser is None:
+            parser = CellParser(name, unit=unit, decimal_comma=decimal_comma)
+            if len(parsers) < 1024:
+                parsers[cache_key] = parser
+        typed = parser.parse(raw)
+        if typed is None:
+            continue
+        if type(typed) is CellProblem:
+            errors.append(LineError(line=line, pointer=where, field=name, code="bad_value",
+                                    text=typed.text, reason=typed.reason))
+        else:
+            fields[name] = typed
+    if board is None or circuit is None:
+        missing = "board" if board is None else "circuit"
+        yield LineError(line=line, pointer=f"{pointer}/{missing}", field=missing, code="missing_key",
+                        reason=f"{missing} is required to key the circuit record")
+        yield from errors
+        return
+    if fields or not errors:
+        yield Fragment(board=board, circuit=circuit, fields=fields, line=line)
+    yield from errors
