@@ -30,7 +30,7 @@ from .schemas import json_types_attribute
 from .schemas.errors import ProblemSchema
 from .settings import Settings, load_settings
 
-__all__ = ["OhmtallyApi", "create_app"]
+__all__ = ["OhmtallyApi", "create_app", "default_instance_path"]
 
 
 class OhmtallyApi(Api):  # type: ignore[misc]
@@ -127,6 +127,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     _init_auth(app, settings)
 
     api = OhmtallyApi(app)
+    app.extensions["ohmtally.openapi"] = api
     api.ma_plugin.converter.add_attribute_function(json_types_attribute)
     app.register_error_handler(ApiError, _api_error)
     from .routes import BLUEPRINTS
@@ -134,3 +135,8 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     for blueprint in BLUEPRINTS:
         api.register_blueprint(blueprint)
     return app
+
+
+def default_instance_path() -> str:
+    """Flask's instance folder for this package (``instance/`` beside a checkout)."""
+    return str(Flask("api").instance_path)

@@ -142,12 +142,15 @@ def _pick_adapter(media_type: str, adapter_name: str | None) -> Any:
 
     from adapters import AdapterError
 
-    try:
-        if adapter_name:
+    if adapter_name:
+        try:
             return get_adapter(adapter_name)
-        found = adapter_for_media_type(media_type)
-    except AdapterError as exc:
-        raise adapter_problem(exc, parameter="adapter") from None
+        except AdapterError as exc:
+            raise adapter_problem(exc, parameter="adapter") from None
+    try:
+        found = adapter_for_media_type(media_type) if media_type else None
+    except AdapterError:
+        found = None
     if found is None:
         types = sorted({t for a in list_adapters() for t in a.get("media_types", ())} | {JSON_MEDIA_TYPE})
         raise ApiError(415, "unsupported_media_type",

@@ -20,6 +20,9 @@ EXIT_OK, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_USAGE = 0, 1, 2, 3
 COMMAND_MODULES: tuple[str, ...] = (
     "api.cli_verify",
     "api.cli_capture",
+    "api.cli_serve",
+    "api.cli_demo",
+    "api.cli_db",
 )
 
 

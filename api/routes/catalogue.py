@@ -51,5 +51,5 @@ class Adapters(MethodView):
 
         from adapters.profiles import list_profiles
 
-        return json_response({"adapters": list_adapters(),
+        return json_response({"adapters": list_adapters(settings().profile_dir),
                               "profiles": list_profiles(settings().profile_dir)})

@@ -102,7 +102,7 @@ class JobUploads(MethodView):
 
 @blp.route("/jobs/<int:job_id>/uploads/<int:upload_id>")
 class JobUpload(MethodView):
-    @blp.response(200, {"type": "string", "format": "binary"}, content_type="application/octet-stream",
+    @blp.response(200, {"type": "string", "format": "binary"}, content_type="*/*",
                   description="the body exactly as received, with its content type")
     def get(self, job_id: int, upload_id: int) -> Any:
         """The raw bytes of one upload, as received."""

@@ -1,0 +1,171 @@
+"""``ohmtally demo``: the demo site into a running server, in one command.
+
+Steps: migrate the SQLite database in the instance folder; start ``ohmtally
+serve`` as a child process on 127.0.0.1 (a free port unless ``--port``), with
+``OHMTALLY_AUTH=off`` (allowed on loopback only); create the manifest's job;
+post its files; print the verdicts a person can read; leave the server
+running with its URL printed until Ctrl-C (``--no-wait``: stop and exit).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+
+__all__ = ["format_report", "free_port", "register", "run", "wait_healthy"]
+
+
+def register(sub: Any) -> None:
+    p = sub.add_parser("demo", help="start a local server and post the demo site to it")
+    p.add_argument("--port", type=int, default=0, help="port on 127.0.0.1 (default: a free one)")
+    p.add_argument("--manifest", type=Path, default=None,
+                   help="demo manifest (default: examples/demo/manifest.json)")
+    p.add_argument("--database-url", default=None,
+                   help="database (default: the SQLite file in the instance folder)")
+    p.add_argument("--no-wait", action="store_true", help="stop the server and exit after printing")
+    p.set_defaults(func=run)
+
+
+def free_port() -> int:
+    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as probe:
+        probe.bind(("127.0.0.1", 0))
+        port: int = probe.getsockname()[1]
+        return port
+
+
+def wait_healthy(base: str, child: subprocess.Popen[bytes], timeout: float = 30.0) -> bool:
+    import httpx
+
+    deadline = time.monotonic() + timeout
+    while time.monotonic() < deadline:
+        if child.poll() is not None:
+            return False
+        try:
+            if httpx.get(f"{base}/v1/health", timeout=1.0).status_code == 200:
+                return True
+        except httpx.HTTPError:
+            pass
+        time.sleep(0.1)
+    return False
+
+
+def start_server(port: int, database_url: str) -> subprocess.Popen[bytes]:
+    env = {**os.environ, "OHMTALLY_AUTH": "off", "OHMTALLY_DATABASE_URL": database_url,
+           "OHMTALLY_LOG_LEVEL": os.environ.get("OHMTALLY_LOG_LEVEL", "WARNING")}
+    command = [sys.executable, "-c", "from api.cli import main; raise SystemExit(main())",
+               "serve", "--bind", f"127.0.0.1:{port}", "--workers", "1"]
+    return subprocess.Popen(command, env=env)
+
+
+def _check_line(check: dict[str, Any]) -> str:
+    value, limit = check.get("value"), check.get("limit")
+    figures = ""
+    if value is not None:
+        rel = "" if check.get("relation", "=") == "=" else check["relation"]
+        unit = f" {check['unit']}" if check.get("unit") else ""
+        figures = f" ({rel}{value:g}{unit}"
+        figures += f", limit {limit:g}{unit})" if limit is not None else ")"
+    return f"      {check['outcome'].upper():<11} {check['check']}{figures}: {check['detail']}"
+
+
+def format_report(job: dict[str, Any], posts: list[tuple[str, int, dict[str, Any]]],
+                  verdicts: dict[str, Any]) -> str:
+    """The job, what each upload gave, and per board/circuit the outcome with its findings."""
+    lines = [f"job {job['id']}: {job['reference']} — {job['site']}",
+             f"ruleset: {verdicts['ruleset']['id']} — {verdicts['ruleset']['title']}", ""]
+    for name, status, body in posts:
+        if status == 200:
+            lines.append(f"posted {name}: {body['accepted']} value(s) merged, "
+                         f"{len(body['rejected'])} rejected (upload {body['upload']['id']})")
+            for bad in body["rejected"]:
+                where = f"line {bad['line']}" if "line" in bad else bad.get("pointer", "")
+                lines.append(f"    rejected {where}: {bad['reason']}")
+        else:
+            lines.append(f"posted {name}: HTTP {status} {body.get('code')}: {body.get('detail')}")
+    lines.append("")
+    board = None
+    for verdict in verdicts["verdicts"]:
+        if verdict["board"] != board:
+            board = verdict["board"]
+            lines.append(f"board {board}")
+        lines.append(f"  circuit {verdict['circuit']:<6} {verdict['outcome'].upper()}")
+        for check in verdict["checks"]:
+            if check["outcome"] in ("fail", "investigate"):
+                lines.append(_check_line(check))
+    summary = verdicts["summary"]
+    lines += ["", "summary: " + ", ".join(f"{k} {v}" for k, v in summary.items()), "",
+              "CAUTION: " + verdicts["notice"]]
+    return "\n".join(lines) + "\n"
+
+
+def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str, int, dict[str, Any]]],
+                                                dict[str, Any]]:
+    import httpx
+
+    with httpx.Client(base_url=base, timeout=30.0) as client:
+        created = client.post("/v1/jobs", json=manifest.job)
+        created.raise_for_status()
+        job = created.json()
+        posts = []
+        for spec in manifest.uploads:
+            response = client.post(f"/v1/jobs/{job['id']}/readings", content=spec.path.read_bytes(),
+                                   headers={"Content-Type": spec.content_type}, params=spec.params())
+            posts.append((spec.path.name, response.status_code, response.json()))
+        verdicts = client.get(f"/v1/jobs/{job['id']}/verdicts")
+        verdicts.raise_for_status()
+        return job, posts, verdicts.json()
+
+
+def run(args: argparse.Namespace) -> int:
+    from .cli_db import resolve_database_url
+    from .db import default_sqlite_url, upgrade
+    from .demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+
+    try:
+        manifest = load_manifest(args.manifest or DEFAULT_MANIFEST)
+    except ManifestError as exc:
+        print(f"ohmtally demo: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    if args.database_url:
+        url = args.database_url
+    else:  # the demo never writes into a configured production database
+        from .app import default_instance_path
+        from .settings import load_settings
+
+        url = default_sqlite_url(load_settings().instance_path or default_instance_path())
+    upgrade(resolve_database_url(url))
+    port = args.port or free_port()
+    base = f"http://127.0.0.1:{port}"
+    child = start_server(port, url)
+    try:
+        if not wait_healthy(base, child):
+            print(f"ohmtally demo: the server did not come up on {base}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+        job, posts, verdicts = post_demo(base, manifest)
+        sys.stdout.write(format_report(job, posts, verdicts))
+        print(f"\nAPI running at {base}/v1 — job {job['id']}: {base}/v1/jobs/{job['id']}/verdicts"
+              f"\nOpenAPI: {base}/v1/openapi.json")
+        status = EXIT_OK if all(code == 200 for _n, code, _b in posts) else EXIT_BAD_INPUT
+        if args.no_wait:
+            return status
+        print("Ctrl-C stops the server.", flush=True)
+        try:
+            child.wait()
+        except KeyboardInterrupt:
+            print("\nstopping the server")
+        return status
+    finally:
+        if child.poll() is None:
+            child.terminate()
+            try:
+                child.wait(timeout=15)
+            except subprocess.TimeoutExpired:
+                child.kill()

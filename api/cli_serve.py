@@ -1,0 +1,91 @@
+"""``ohmtally serve``: the API under gunicorn, started in code with the app factory.
+
+Invariants:
+- Default bind 127.0.0.1:8000. ``OHMTALLY_AUTH=off`` is refused on any bind
+  that is not loopback (or a Unix socket): without keys, anyone who can reach
+  the port could write to every job.
+- The app is built once in the master before any worker starts, so an
+  unmigrated database or a bad setting stops the server with its message
+  (naming ``ohmtally db upgrade``) instead of a crash loop of workers.
+"""
+
+from __future__ import annotations
+
+import argparse
+import ipaddress
+import sys
+from collections.abc import Callable, Mapping
+from typing import Any
+
+from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+
+__all__ = ["is_loopback_bind", "register", "run"]
+
+DEFAULT_BIND = "127.0.0.1:8000"
+
+
+def register(sub: Any) -> None:
+    p = sub.add_parser("serve", help="run the API under gunicorn")
+    p.add_argument("--bind", default=DEFAULT_BIND, metavar="HOST:PORT",
+                   help=f"address to listen on (default {DEFAULT_BIND}; unix:PATH for a socket)")
+    p.add_argument("--workers", type=int, default=2, metavar="N", help="worker processes (default 2)")
+    p.add_argument("--timeout", type=int, default=60, metavar="S",
+                   help="seconds before a silent worker is restarted (default 60)")
+    p.set_defaults(func=run)
+
+
+def is_loopback_bind(bind: str) -> bool:
+    if bind.startswith("unix:"):
+        return True
+    host = bind.rsplit(":", 1)[0] if ":" in bind else bind
+    host = host.strip("[]")
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False
+
+
+def _application(factory: Callable[[], Any], options: Mapping[str, Any]) -> Any:
+    from gunicorn.app.base import BaseApplication
+
+    class _Server(BaseApplication):  # type: ignore[misc]
+        def load_config(self) -> None:
+            for key, value in options.items():
+                self.cfg.set(key, value)
+
+        def load(self) -> Any:
+            return factory()
+
+    return _Server()
+
+
+def run(args: argparse.Namespace) -> int:
+    from .app import create_app
+    from .db import SchemaNotCurrent
+    from .settings import SettingsError, load_settings
+
+    if args.workers < 1 or args.timeout < 1:
+        print("ohmtally serve: --workers and --timeout must be at least 1", file=sys.stderr)
+        return EXIT_USAGE
+    try:
+        settings = load_settings()
+    except SettingsError as exc:
+        print(f"ohmtally serve: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    if not settings.auth and not is_loopback_bind(args.bind):
+        print(f"ohmtally serve: refusing OHMTALLY_AUTH=off on {args.bind}: without API keys the "
+              "server may only listen on a loopback address (127.0.0.1, ::1, localhost)",
+              file=sys.stderr)
+        return EXIT_USAGE
+    try:
+        create_app()  # fail here, once, with the message, rather than in every worker
+    except SchemaNotCurrent as exc:
+        print(f"ohmtally serve: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    options = {"bind": [args.bind], "workers": args.workers, "timeout": args.timeout,
+               "accesslog": None, "errorlog": "-", "loglevel": settings.log_level.lower(),
+               "proc_name": "ohmtally", "graceful_timeout": 10}
+    _application(create_app, options).run()
+    return EXIT_OK
