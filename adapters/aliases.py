@@ -123,11 +123,15 @@ def split_header(cell: str) -> tuple[str, str | None]:
 def field_for_label(label: str) -> tuple[str | None, str | None]:
     """A header cell or key → ``(field, unit from the header)``; ``(None, None)`` if unknown.
 
-    A label that folds to a known alias as a whole wins over a unit split (so
-    ``mV/A/m`` stays a label); otherwise the bracketed unit is split off.
+    A bracketed unit is split off when the rest is a known label (``PFC (kA)``);
+    otherwise the label is looked up whole (so ``mV/A/m`` stays a label).
     """
+    bare, unit = split_header(label)
+    if unit is not None:
+        named = ALIASES.get(fold(bare))
+        if named is not None:
+            return named, unit
     whole = ALIASES.get(fold(label))
     if whole is not None:
         return whole, None
-    bare, unit = split_header(label)
     return ALIASES.get(fold(bare)), unit

@@ -4,8 +4,9 @@ Invariants:
 - Detection looks at a bounded sample (``SAMPLE_BYTES``), never the whole input.
   Order: a byte-order mark (UTF-8, UTF-16 LE/BE); else UTF-8 if the sample
   decodes as UTF-8; else charset-normalizer's best guess among the single-byte
-  encodings meters and spreadsheets in our market write (cp1252 first);
-  else cp1252, which decodes nearly every byte.
+  encodings meters and spreadsheets in our market write (cp1252, ISO 8859-15);
+  else cp1252, which decodes nearly every byte. UTF-8 with a few bad bytes
+  among many good multi-byte characters stays UTF-8 (a damaged line).
 - UTF-16 is taken only with its byte-order mark: guessing it from bytes turns
   noise into plausible-looking text.
 - Lines are split on CR, LF or CRLF before decoding wherever the encoding is
@@ -35,7 +36,7 @@ __all__ = [
 
 SAMPLE_BYTES = 64 * 1024
 _CHUNK = 1 << 16
-_SINGLE_BYTE_CANDIDATES = ["cp1252", "iso8859_15", "cp1250"]
+_SINGLE_BYTE_CANDIDATES = ["cp1252", "iso8859_15"]
 _BOMS: tuple[tuple[bytes, str], ...] = (
     (codecs.BOM_UTF8, "utf-8-sig"),
     (codecs.BOM_UTF16_LE, "utf-16"),
@@ -75,7 +76,7 @@ def detect_encoding(sample: bytes) -> str:
     for bom, name in _BOMS:
         if sample.startswith(bom):
             return name
-    if _is_utf8(sample):
+    if _is_utf8(sample) or _mostly_utf8(sample):
         return "utf-8"
     from charset_normalizer import from_bytes  # imported on use: most inputs are UTF-8
 
@@ -96,6 +97,14 @@ def _is_utf8(sample: bytes) -> bool:
             if exc.end < len(sample) - cut or exc.reason != "unexpected end of data":
                 return False
     return False
+
+
+def _mostly_utf8(sample: bytes) -> bool:
+    """UTF-8 text with a few bad bytes (a damaged line): keep UTF-8, reject those lines alone."""
+    text = sample.decode("utf-8", "replace")
+    bad = text.count("\ufffd")
+    good = sum(1 for ch in text if ch > "\x7f" and ch != "\ufffd")
+    return good > 0 and good >= 4 * bad
 
 
 def _ascii_compatible(encoding: str) -> bool:
