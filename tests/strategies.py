@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 from engine import FIELDS, CircuitRecord, Reading
 
-__all__ = ["readings", "record_inputs", "records", "reading_texts"]
+__all__ = ["reading_texts", "readings", "record_inputs", "records"]
 
 _HUGE = 1e300
 

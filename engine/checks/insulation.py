@@ -9,9 +9,10 @@ Invariants:
   500 V, 1.0 MΩ; above → 1000 V, 1.0 MΩ.
 - Below the minimum → fail, whatever the test voltage.
 - Test voltage below the band's → investigate, except the live-to-earth test
-  at the reduced voltage the ruleset allows (643.3.3: 250 V where equipment may
-  be affected), which is judged against the same minimum and says so. The
-  allowance does not cover the test between live conductors.
+  of a circuit in the ≤ 500 V band at the reduced voltage the ruleset allows
+  (643.3.3: 250 V where equipment may be affected), which is judged against the
+  same minimum and says so. The allowance does not cover the test between live
+  conductors, nor circuits above 500 V.
 - No test voltage recorded → incomplete (a pass needs the test voltage).
 - Within the minimum but below the attention level (2 MΩ) → investigate.
 - Bounded readings: ``> 999 MΩ`` and ``OL`` pass; a bound that settles nothing
@@ -39,6 +40,7 @@ _READINGS = (("ir_ll_mohm", "between live conductors"), ("ir_le_mohm", "live con
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Band:
+    key: str  # "selv_pelv", "lv" or "above_lv": the ruleset's key prefix
     name: str
     test_v: float
     min_mohm: float
@@ -54,7 +56,7 @@ def band_for(rules: Ruleset, circuit_v: float) -> Band:
         key, name = "lv", f"up to {rules.value(SECTION, 'lv_band_max_v'):g} V"
     else:
         key, name = "above_lv", f"above {rules.value(SECTION, 'lv_band_max_v'):g} V"
-    return Band(name=name, test_v=float(rules.value(SECTION, f"{key}_test_v")),
+    return Band(key=key, name=name, test_v=float(rules.value(SECTION, f"{key}_test_v")),
                 min_mohm=float(rules.value(SECTION, f"{key}_min_mohm")),
                 basis=rules.basis(SECTION, f"{key}_min_mohm"))
 
@@ -94,8 +96,9 @@ def _test_voltage_note(rules: Ruleset, band: Band, test_v: float | None,
     if test_v >= band.test_v:
         return None, f"tested at {test_v:g} V"
     reduced = rules.get(SECTION, "reduced_le_test_v")
-    if (name == "ir_le_mohm" and reduced is not None and band.test_v > float(reduced)
-            and test_v >= float(reduced)):
+    # 643.3.3: the reduced voltage is an allowance for the live-to-earth test of a
+    # low-voltage circuit (≤ 500 V band) only; it never covers the 1000 V band.
+    if name == "ir_le_mohm" and reduced is not None and band.key == "lv" and test_v >= float(reduced):
         return None, (f"tested at {test_v:g} V, the reduced live-to-earth voltage allowed where "
                       f"equipment may be affected ({rules.basis(SECTION, 'reduced_le_test_v')})")
     return Outcome.INVESTIGATE, f"tested at {test_v:g} V, below the {band.test_v:g} V the band requires"

@@ -1,0 +1,198 @@
+"""Loop impedance check and disconnection times (BS 7671 Ch. 41; REFERENCE-VALUES.md §1, §3, §9, E10)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+
+from engine import CheckResult, Outcome, build_record, load_builtin, verify
+from engine.context import CircuitView
+from engine.protection import Disconnection, Missing, disconnection_time
+
+BS = load_builtin("bs7671-2018-a2")
+B32 = {"earthing": "TN-C-S", "device_kind": "breaker", "device_curve": "B", "device_rating_a": 32}
+
+
+def _record(**fields: Any) -> Any:
+    record, errors = build_record({"board": "DB1", "circuit": "1", **fields})
+    assert record is not None and not errors, errors
+    return record
+
+
+def _loop(ruleset: str | None = None, **fields: Any) -> CheckResult:
+    found = [c for c in verify([_record(**fields)], ruleset)[0].checks if c.check == "loop_impedance"]
+    assert len(found) == 1, found
+    return found[0]
+
+
+def _time(**fields: Any) -> Disconnection | Missing:
+    return disconnection_time(CircuitView(_record(**fields), BS), BS)
+
+
+def _seconds(**fields: Any) -> float:
+    found = _time(**fields)
+    assert isinstance(found, Disconnection), found
+    return found.seconds
+
+
+# --- disconnection time: BS 7671:2018 Table 41.1 and its scope (411.3.2.2–411.3.2.4) [C2] ---
+
+@pytest.mark.parametrize(("u0", "tn", "tt"), [(51, 0.8, 0.3), (120, 0.8, 0.3), (121, 0.4, 0.2),
+                                              (230, 0.4, 0.2), (231, 0.2, 0.07), (400, 0.2, 0.07),
+                                              (401, 0.1, 0.04)])
+def test_table_41_1_bands(u0: float, tn: float, tt: float) -> None:
+    """Table 41.1 a.c. times by U0 band, each band edge on both sides (BS 7671:2018 Table 41.1) [C2]."""
+    common = {"nominal_voltage_v": u0, "device_rating_a": 16}
+    assert _seconds(earthing="TN-S", **common) == tn
+    assert _seconds(earthing="TT", **common) == tt
+
+
+@pytest.mark.parametrize(("rating", "sockets", "expected"),
+                         [(63, True, 0.4), (64, True, 5), (32, False, 0.4), (33, False, 5), (40, False, 5)])
+def test_table_41_1_scope_of_2018(rating: float, sockets: bool, expected: float) -> None:
+    """BS 7671:2018 411.3.2.2: ≤ 63 A with socket-outlets, ≤ 32 A fixed; else TN 5 s (411.3.2.3) [C2]."""
+    assert _seconds(earthing="TN-C-S", device_rating_a=rating, socket_outlets=sockets) == expected
+
+
+def test_ring_counts_as_having_socket_outlets() -> None:
+    """DESIGN.md: a ring has socket-outlets, so a 40 A ring takes the 0.4 s of Table 41.1 [C2]."""
+    assert _seconds(earthing="TN-S", device_rating_a=40, circuit_form="ring") == 0.4
+
+
+def test_between_32_and_63_a_without_socket_outlet_flag_is_missing() -> None:
+    """A 40 A radial with socket_outlets unrecorded cannot be placed in or out of scope: missing."""
+    found = _time(earthing="TN-S", device_rating_a=40)
+    assert isinstance(found, Missing) and found.fields == ("socket_outlets",)
+
+
+@pytest.mark.parametrize(("earthing", "expected"), [("TN-S", 5), ("TN-C-S", 5), ("TT", 1)])
+def test_distribution_circuits(earthing: str, expected: float) -> None:
+    """Distribution circuits: TN 5 s (411.3.2.3), TT 1 s (411.3.2.4) [C2]."""
+    assert _seconds(earthing=earthing, circuit_role="distribution", device_rating_a=100) == expected
+
+
+def test_record_disconnection_time_overrides_and_it_is_missing() -> None:
+    """max_disconnection_s wins; IT has no table time (411.6.4) and ELV (U0 ≤ 50 V) is outside Table 41.1."""
+    assert _seconds(earthing="TN-S", device_rating_a=16, max_disconnection_s=1.0) == 1.0
+    assert isinstance(_time(earthing="IT", device_rating_a=16), Missing)
+    assert isinstance(_time(earthing="TN-S", device_rating_a=16, nominal_voltage_v=50), Missing)
+    assert isinstance(_time(device_rating_a=16), Missing)  # no earthing recorded
+
+
+# --- the check ---
+
+def test_e10_rule_of_thumb_fails_but_exact_check_passes() -> None:
+    """E10: Ze 0.35 + 0.780 = 1.130 Ω > 0.8 × 1.37; Ze + 0.780 × 1.20 = 1.286 ≤ 1.37 passes [D]."""
+    without_ze = _loop(zs_ohm=1.130, **B32)
+    assert without_ze.outcome is Outcome.INVESTIGATE and without_ze.method == "rule_of_thumb_0.8"
+    exact = _loop(zs_ohm=1.130, ze_ohm=0.35, **B32)
+    assert exact.outcome is Outcome.PASS and exact.method == "temperature_corrected"
+    assert exact.value == pytest.approx(1.286)
+    assert exact.limit == 1.37
+    assert exact.inputs["factor"] == pytest.approx(1.20)  # derived from (1 + 0.004 × 50) / 1
+
+
+@pytest.mark.parametrize(("zs", "outcome"), [(1.08, Outcome.PASS), (1.09, Outcome.PASS),
+                                             (1.10, Outcome.INVESTIGATE), (1.37, Outcome.INVESTIGATE),
+                                             (1.38, Outcome.FAIL)])
+def test_b32_boundaries(zs: float, outcome: Outcome) -> None:
+    """B32: 0.8 rule limit 1.09 Ω (0.8 × 1.37 rounded down) and max 1.37 Ω (Table 41.3) [C2], no Ze."""
+    assert _loop(zs_ohm=zs, **B32).outcome is outcome
+
+
+@pytest.mark.parametrize(("zs", "outcome"), [(1.19, Outcome.PASS), (1.21, Outcome.FAIL)])
+def test_temperature_corrected_boundary(zs: float, outcome: Outcome) -> None:
+    """Ze 0.35: Zs_hot = 0.35 + (Zs − 0.35) × 1.2 crosses 1.37 Ω at Zs = 1.20 Ω (derived, E10 formula)."""
+    assert _loop(zs_ohm=zs, ze_ohm=0.35, **B32).outcome is outcome
+
+
+def test_test_temperature_and_insulation_change_the_factor() -> None:
+    """F = (1 + α(θmax − 20)) / (1 + α(θtest − 20)): 1.25 at 10 °C, 1.28 at 90 °C (derived, α = 0.004)."""
+    cold = _loop(zs_ohm=1.2, ze_ohm=0.35, test_temp_c=10, **B32)
+    assert cold.inputs["factor"] == pytest.approx(1.20 / 0.96)
+    hot = _loop(zs_ohm=1.2, ze_ohm=0.35, insulation_temp_c=90, **B32)
+    assert hot.inputs["factor"] == pytest.approx(1.28)
+    assert hot.outcome is Outcome.FAIL  # 0.35 + 0.85 × 1.28 = 1.438 > 1.37
+
+
+@pytest.mark.parametrize(("zs", "outcome"), [("< 0.5", Outcome.PASS), ("> 2000", Outcome.FAIL),
+                                             ("OL", Outcome.FAIL), ("> 0.5", Outcome.INVESTIGATE),
+                                             ("> 1.37", Outcome.FAIL)])
+def test_bounded_readings(zs: str, outcome: Outcome) -> None:
+    """Bounded Zs keeps its bound: < 0.5 passes, > 2000 and OL fail, > 0.5 settles nothing (B32, 1.37 Ω)."""
+    assert _loop(zs_ohm=zs, **B32).outcome is outcome
+
+
+@pytest.mark.parametrize(("idn", "limit"), [(30, 1667), (100, 500), (300, 167), (500, 100)])
+def test_rcd_fault_protection_limits_table_41_5(idn: float, limit: float) -> None:
+    """Above the breaker's max with an RCD: Zs ≤ 50 V / IΔn, Table 41.5 (to its whole ohms) [C2]."""
+    found = _loop(zs_ohm=50, rcd_residual_ma=idn, **B32)
+    assert found.method == "rcd_fault_protection"
+    assert found.limit == pytest.approx(limit, abs=0.5)
+    assert found.outcome is Outcome.PASS
+    assert "RCD" in found.detail
+
+
+def test_rcd_fault_protection_fails_above_table_41_5() -> None:
+    """30 mA: 1667 Ω is the Table 41.5 limit [C2]; 1700 Ω fails even with the RCD."""
+    assert _loop(zs_ohm=1700, rcd_residual_ma=30, **B32).outcome is Outcome.FAIL
+    assert _loop(zs_ohm=1666, rcd_residual_ma=30, **B32).outcome is Outcome.PASS
+
+
+def test_tt_with_rcd_is_judged_by_the_rcd_condition() -> None:
+    """TT + 30 mA RCD: Zs 120 Ω is judged against 50 V / IΔn (Table 41.5 1667 Ω) [C2], not Table 41.3."""
+    found = _loop(earthing="TT", rcd_residual_ma=30, zs_ohm=120, device_kind="breaker", device_curve="B",
+                  device_rating_a=32)
+    assert found.outcome is Outcome.PASS and found.method == "rcd_fault_protection"
+
+
+def test_tt_without_rcd_uses_the_breaker_at_0_2_s() -> None:
+    """TT without RCD: Table 41.1 0.2 s [C2]; a B32 still gives 1.37 Ω (instantaneous trip, from memory)."""
+    found = _loop(zs_ohm=1.5, **{**B32, "earthing": "TT"})
+    assert found.outcome is Outcome.FAIL and found.limit == 1.37
+    assert found.inputs["disconnection_s"] == 0.2
+
+
+def test_device_max_zs_overrides_the_tables() -> None:
+    """device_max_zs_ohm replaces the table: 0.9 Ω against 2.0 passes the 0.8 rule; against 0.85 fails."""
+    assert _loop(zs_ohm=0.9, device_max_zs_ohm=2.0).outcome is Outcome.PASS
+    assert _loop(zs_ohm=0.9, device_max_zs_ohm=0.85).outcome is Outcome.FAIL
+
+
+def test_d_curve_takes_the_time_the_rules_give() -> None:
+    """D32: 0.34 Ω at 0.4 s and 0.68 Ω at 5 s (Table 41.3) [C2]; a distribution circuit takes 5 s."""
+    d32 = {**B32, "device_curve": "D"}
+    assert _loop(zs_ohm=0.5, **d32).limit == 0.34
+    assert _loop(zs_ohm=0.5, circuit_role="distribution", **d32).inputs["max_zs"] == 0.68
+
+
+def test_fuse_distribution_circuit_uses_table_41_4() -> None:
+    """100 A BS 88-2 distribution circuit, TN: 5 s, 0.42 Ω (Table 41.4) [C2]; 0.30 Ω passes the 0.8 rule."""
+    found = _loop(earthing="TN-S", circuit_role="distribution", device_kind="fuse", device_standard="BS 88-2",
+                  device_rating_a=100, zs_ohm=0.30)
+    assert found.outcome is Outcome.PASS and found.inputs["max_zs"] == 0.42
+
+
+def test_missing_device_data_is_incomplete_naming_fields() -> None:
+    """No device, no curve or no Zs: incomplete, naming what would allow the check."""
+    nothing = _loop(zs_ohm=0.5, earthing="TN-S")
+    assert nothing.outcome is Outcome.INCOMPLETE
+    assert {"device_kind", "device_max_zs_ohm"} <= set(nothing.inputs["missing"])
+    no_curve = _loop(zs_ohm=0.5, earthing="TN-S", device_kind="breaker", device_rating_a=32)
+    assert "device_curve" in no_curve.inputs["missing"]
+    no_zs = _loop(**B32)
+    assert no_zs.outcome is Outcome.INCOMPLETE and no_zs.inputs["missing"] == ["zs_ohm"]
+    assert no_zs.inputs["max_zs"] == 1.37
+
+
+def test_iec_ruleset_has_no_cmin() -> None:
+    """IEC: B32 max = 230/160 = 1.4375 Ω (Zs × Ia ≤ U0, from memory): 1.40 Ω within it, above BS's 1.37."""
+    assert _loop("iec-60364", zs_ohm=1.40, **B32).outcome is Outcome.INVESTIGATE
+    assert _loop(zs_ohm=1.40, **B32).outcome is Outcome.FAIL
+
+
+def test_defaults_used_are_reported() -> None:
+    """U0 and the temperatures the check assumed appear in defaults_applied."""
+    verdict = verify([_record(zs_ohm=1.13, ze_ohm=0.35, **B32)])[0]
+    assert {"nominal_voltage_v", "insulation_temp_c", "test_temp_c"} <= set(verdict.defaults_applied)
