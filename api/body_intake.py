@@ -138,9 +138,8 @@ def _read_json(body: bytes) -> Intake:
 
 
 def _pick_adapter(media_type: str, adapter_name: str | None) -> Any:
-    from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
-
     from adapters import AdapterError
+    from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
 
     if adapter_name:
         try:
@@ -213,7 +212,7 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
     if header_errors and not intake.items:
         seen = header_errors[0].text or ""
         raise ApiError(422, "unrecognised_header",
-                       f"no column of the header names a circuit field; columns seen: {seen}",
+                       f"{header_errors[0].reason}; columns seen: {seen}",
                        errors=[e.as_dict() for e in header_errors], extra={"columns_seen": seen})
     return intake
 

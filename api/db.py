@@ -114,7 +114,11 @@ def check_schema(engine: Engine, url: str) -> None:
 
 def init_app(app: Flask, url: str) -> None:
     engine = make_engine(url)
-    check_schema(engine, url)
+    try:
+        check_schema(engine, url)
+    except Exception:
+        engine.dispose()
+        raise
     app.extensions["ohmtally.db"] = sessionmaker(engine, expire_on_commit=False)
     app.extensions["ohmtally.engine"] = engine
 

@@ -47,9 +47,8 @@ class Adapters(MethodView):
     @blp.response(200, AdapterListSchema)
     def get(self) -> Any:
         """Input adapters (with the media types they read) and mapping profiles."""
-        from adapters.registry import list_adapters
-
         from adapters.profiles import list_profiles
+        from adapters.registry import list_adapters
 
         return json_response({"adapters": list_adapters(settings().profile_dir),
                               "profiles": list_profiles(settings().profile_dir)})

@@ -6,7 +6,7 @@ from typing import Any
 
 from flask.views import MethodView
 from flask_smorest import Blueprint
-from marshmallow import ValidationError
+from marshmallow import RAISE, ValidationError
 
 from engine import record_to_dict, verify
 
@@ -66,7 +66,7 @@ class Jobs(MethodView):
         session.commit()
         return json_response(job_dict(job), 201, {"Location": f"/v1/jobs/{job.id}"})
 
-    @blp.arguments(JobListQuerySchema, location="query", as_kwargs=True)
+    @blp.arguments(JobListQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.response(200, JobListSchema)
     def get(self, **query: Any) -> Any:
         """Jobs in creation order, a page at a time (`next_cursor` → `?cursor=`)."""
@@ -86,7 +86,7 @@ class JobDetail(MethodView):
 
 @blp.route("/jobs/<int:job_id>/circuits")
 class JobCircuits(MethodView):
-    @blp.arguments(CircuitsQuerySchema, location="query", as_kwargs=True)
+    @blp.arguments(CircuitsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.response(200, CircuitsResponseSchema)
     def get(self, job_id: int, history: bool = False) -> Any:
         """The job's merged circuit records; `?history=true` adds every value of each field."""

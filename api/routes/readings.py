@@ -18,6 +18,7 @@ from typing import Any
 from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
+from marshmallow import RAISE
 
 from engine import NOTICE, verify
 
@@ -45,7 +46,7 @@ def upload_dict(upload: Upload) -> dict[str, Any]:
 
 @blp.route("/jobs/<int:job_id>/readings")
 class JobReadings(MethodView):
-    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True)
+    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.doc(requestBody=READINGS_BODY_DOC)
     @blp.response(200, ReadingsResponseSchema)
     def post(self, job_id: int, **query: Any) -> Any:

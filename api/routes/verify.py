@@ -44,7 +44,7 @@ def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | 
 
 @blp.route("/verify")
 class Verify(MethodView):
-    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True)
+    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.doc(requestBody=READINGS_BODY_DOC)
     @blp.response(200, VerifyResponseSchema)
     def post(self, **query: Any) -> Any:
@@ -53,6 +53,8 @@ class Verify(MethodView):
         JSON bodies are all or nothing (422 with a pointer per bad field); CSV,
         lines and NDJSON take the good rows and list the bad ones in `rejected`.
         """
+        if query.get("ruleset"):  # a bad name is reported before the body is read
+            resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
         intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
                            profile=query.get("profile"), profile_dir=settings().profile_dir)

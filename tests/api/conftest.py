@@ -113,10 +113,22 @@ def make_app(url: str, tmp_path: Path, **extra: Any) -> Flask:
 
 
 @pytest.fixture
-def app(db_url: str, tmp_path: Path) -> Iterator[Flask]:
-    application = make_app(db_url, tmp_path)
-    yield application
-    application.extensions["ohmtally.engine"].dispose()
+def app_factory(tmp_path: Path) -> Iterator[Callable[..., Flask]]:
+    """``app_factory(url, **settings)``: apps whose connection pools are closed after the test."""
+    made: list[Flask] = []
+
+    def factory(url: str, **extra: Any) -> Flask:
+        made.append(make_app(url, tmp_path, **extra))
+        return made[-1]
+
+    yield factory
+    for application in made:
+        application.extensions["ohmtally.engine"].dispose()
+
+
+@pytest.fixture
+def app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
+    return app_factory(db_url)
 
 
 @pytest.fixture
