@@ -30,6 +30,7 @@ from .temperature import resistance_ratio
 __all__ = [
     "MATERIALS",
     "alpha_iec60228",
+    "area",
     "operating_ohm_per_m",
     "resistance_at_test_temp",
     "resistance_ohm_per_m_20c",
@@ -59,6 +60,13 @@ def _table(ruleset: Ruleset, material: str) -> Mapping[float, float]:
         return {float(size): float(ohm) for size, ohm in raw.items()}
     except (TypeError, ValueError) as exc:
         raise RulesetError(f"conductors.{key}: {exc}", field=f"conductors.{key}") from exc
+
+
+def area(value: object) -> float | None:
+    """A usable cross-section: a positive number, else ``None`` (0 mm² is bad data, not a size)."""
+    if isinstance(value, int | float) and not isinstance(value, bool) and value > 0:
+        return float(value)
+    return None
 
 
 def table_sizes(ruleset: Ruleset, material: str) -> tuple[float, ...]:

@@ -24,7 +24,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from .conductors import operating_ohm_per_m
+from .conductors import area, operating_ohm_per_m
 from .context import CircuitView
 from .readings import Reading
 from .temperature import temperature_factor
@@ -137,7 +137,7 @@ def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, no
     """R1 from R1+R2 − R2 (measured) or by the area split; Rn = R1 × A_line / A_neutral."""
     if r1r2 is None:
         return None
-    line, cpc = view.raw("line_mm2"), view.raw("cpc_mm2")
+    line, cpc = area(view.raw("line_mm2")), area(view.raw("cpc_mm2"))
     r1: float | None = None
     r1_basis = ""
     r2 = view.reading("r2_ohm")
@@ -157,7 +157,7 @@ def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, no
         inputs["rn_ohm"] = 0.0
         return Drop(volts=r1 * factor * amps, method="three_phase_split",
                     explanation="balanced three-phase, per-phase R1 × F × I", inputs=inputs)
-    neutral = view.raw("neutral_mm2")
+    neutral = area(view.raw("neutral_mm2"))
     if neutral is not None and line is None:
         notes.append("neutral_mm2 given without line_mm2: the neutral/line ratio is unknown")
         return None
@@ -188,14 +188,14 @@ def _tabulated(view: CircuitView, amps: float) -> Drop | None:
     else:
         material = str(view.get("conductor_material"))
         theta = float(view.get("insulation_temp_c"))
-        r_line = operating_ohm_per_m(view.ruleset, material, view.raw("line_mm2"), theta)
+        r_line = operating_ohm_per_m(view.ruleset, material, area(view.raw("line_mm2")), theta)
         if r_line is None:
             return None
         if three_phase:
             per_phase_mv = r_line * 1000.0
             mv = per_phase_mv * math.sqrt(3)
         else:
-            neutral = view.raw("neutral_mm2") or view.raw("line_mm2")
+            neutral = area(view.raw("neutral_mm2")) or area(view.raw("line_mm2"))
             r_neutral = operating_ohm_per_m(view.ruleset, material, neutral, theta)
             if r_neutral is None:
                 return None

@@ -27,7 +27,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import Any
 
-from ..conductors import resistance_at_test_temp
+from ..conductors import area, resistance_at_test_temp
 from ..context import CircuitView, Context
 from ..readings import Reading
 from ..results import CheckResult, Outcome
@@ -42,7 +42,7 @@ def expected_resistance(view: CircuitView, *,
                         include_line: bool = True) -> tuple[float, dict[str, Any]] | None:
     """Expected R1+R2 (or R2 alone) at the test temperature, with how it was found."""
     length = view.raw("length_m")
-    line, cpc = view.raw("line_mm2"), view.raw("cpc_mm2")
+    line, cpc = area(view.raw("line_mm2")), area(view.raw("cpc_mm2"))
     if length is None or cpc is None or (include_line and line is None):
         return None
     material = str(view.get("conductor_material"))

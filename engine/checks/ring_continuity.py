@@ -30,7 +30,7 @@ import math
 from collections.abc import Iterator
 from typing import Any
 
-from ..conductors import resistance_ohm_per_m_20c
+from ..conductors import area, resistance_ohm_per_m_20c
 from ..context import CircuitView, Context
 from ..readings import Reading
 from ..results import CheckResult, Outcome
@@ -45,7 +45,7 @@ _NAMES = {"ring_r1_ohm": "r1", "ring_rn_ohm": "rn", "ring_r2_ohm": "r2"}
 
 def cpc_to_line_ratio(view: CircuitView) -> tuple[float, str] | None:
     """r_cpc / r_line: IEC 60228 resistance ratio if tabulated, else the area ratio."""
-    line, cpc = view.raw("line_mm2"), view.raw("cpc_mm2")
+    line, cpc = area(view.raw("line_mm2")), area(view.raw("cpc_mm2"))
     if line is None or cpc is None:
         return None
     material = str(view.get("conductor_material"))
@@ -53,7 +53,7 @@ def cpc_to_line_ratio(view: CircuitView) -> tuple[float, str] | None:
     r_cpc = resistance_ohm_per_m_20c(view.ruleset, material, cpc)
     if r_line and r_cpc:
         return r_cpc / r_line, "iec60228_resistance"
-    return float(line) / float(cpc), "area"
+    return line / cpc, "area"
 
 
 def _bounds(reading: Reading) -> tuple[float, float]:

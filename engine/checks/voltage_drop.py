@@ -71,6 +71,10 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     route = (float(own_length) if own_length is not None else 0.0) + upstream.length_m
     base, allowance, words = limit_pct(view, route)
     u0 = float(view.get("nominal_voltage_v"))
+    if u0 <= 0:
+        yield incomplete(CHECK, ["nominal_voltage_v"], basis=basis, inputs=inputs,
+                         detail=f"nominal_voltage_v {u0:g} V is not a usable U0 for the limit")
+        return
     limit = u0 * (base + allowance) / 100.0
     inputs.update(upstream_v=upstream.volts,
                   upstream=[p.feeder for p in upstream.parts],
@@ -78,7 +82,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
                                   for p in upstream.parts],
                   u0_v=u0, limit_pct=base + allowance, limit_basis=words,
                   route_length_m=route)
-    percent = 100.0 * total / u0 if u0 else float("nan")
+    percent = 100.0 * total / u0
     split = (f"{own.volts:.3g} V here + {upstream.volts:.3g} V upstream "
              f"({', '.join(p.feeder for p in upstream.parts)}) = " if upstream.parts else "")
     figure = f"{split}{total:.3g} V ({percent:.2f} % of {u0:g} V) by {own.explanation}"
