@@ -199,3 +199,12 @@ def test_bounded_r1r2_is_not_read_as_its_bound() -> None:
     """R1+R2 '>2' (bounded) is not used as 2 Ω: with nothing else, the drop is incomplete."""
     check = vd(r1_r2_ohm=">2", device_rating_a=20)
     assert check.outcome == "incomplete"
+
+
+def test_zero_cross_section_and_zero_u0_are_unusable_not_divided_by() -> None:
+    """0 mm² sizes fall back to the quick method; U0 = 0 makes the check incomplete, never a crash."""
+    zero_sizes = vd(r1_r2_ohm=0.5, line_mm2=0, cpc_mm2=0, neutral_mm2=0, device_rating_a=10)
+    zero_u0 = vd(r1_r2_ohm=0.5, device_rating_a=10, nominal_voltage_v=0)
+    assert zero_sizes.method == "r1r2_quick"
+    assert zero_u0.outcome == "incomplete"
+    assert zero_u0.inputs["missing"] == ["nominal_voltage_v"]
