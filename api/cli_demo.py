@@ -100,6 +100,9 @@ def format_report(job: dict[str, Any], posts: list[tuple[str, int, dict[str, Any
         for check in verdict["checks"]:
             if check["outcome"] in ("fail", "investigate"):
                 lines.append(_check_line(check))
+        wanting = sorted({c["check"] for c in verdict["checks"] if c["outcome"] == "incomplete"})
+        if wanting:
+            lines.append(f"      {'INCOMPLETE':<11} not enough data for: {', '.join(wanting)}")
     summary = verdicts["summary"]
     lines += ["", "summary: " + ", ".join(f"{k} {v}" for k, v in summary.items()), "",
               "CAUTION: " + verdicts["notice"]]

@@ -1,0 +1,160 @@
+"""The server commands: ``db upgrade``, ``serve`` (a real gunicorn process), ``demo``.
+
+The end-to-end test posts the demo files to a real ``ohmtally serve`` on a
+free loopback port with httpx, checks every response against the served
+OpenAPI document, and compares the job's verdicts with the offline path
+(adapters + ``engine.verify``) over the same files.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import subprocess
+import sys
+from collections.abc import Callable, Iterator
+from pathlib import Path
+from typing import Any
+
+import httpx
+import pytest
+
+from adapters import AdapterOptions, Fragment
+from adapters.registry import get_adapter
+from api.cli_demo import free_port, wait_healthy
+from api.cli_serve import is_loopback_bind
+from api.db import upgrade
+from api.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+from engine import CircuitRecord, verify
+from tests.api.openapi_check import check_response
+
+ROOT = Path(__file__).resolve().parents[2]
+Runner = Callable[..., tuple[int, str, str]]
+
+
+@pytest.mark.parametrize(("bind", "loopback"), [
+    ("127.0.0.1:8000", True), ("127.5.0.1:80", True), ("[::1]:8000", True), ("localhost:9", True),
+    ("unix:/tmp/ohmtally.sock", True), ("0.0.0.0:8000", False), ("192.168.1.20:8000", False),
+    ("[::]:8000", False), ("example.org:80", False),
+])
+def test_loopback_binds(bind: str, loopback: bool) -> None:
+    """Only loopback addresses (RFC 5735 127/8, RFC 4291 ::1) and Unix sockets count as loopback binds."""
+    assert is_loopback_bind(bind) is loopback
+
+
+def test_serve_refuses_auth_off_off_loopback(runner: Runner, monkeypatch: pytest.MonkeyPatch) -> None:
+    """`ohmtally serve --bind 0.0.0.0:…` with OHMTALLY_AUTH=off exits 3 with a message, serving nothing."""
+    monkeypatch.setenv("OHMTALLY_AUTH", "off")
+    status, _out, err = runner("serve", "--bind", "0.0.0.0:8999")
+    assert status == 3 and "refusing OHMTALLY_AUTH=off" in err
+
+
+def test_serve_refuses_unmigrated_database(runner: Runner, monkeypatch: pytest.MonkeyPatch,
+                                           tmp_path: Path) -> None:
+    """`ohmtally serve` on an empty database exits 2 naming `ohmtally db upgrade`."""
+    monkeypatch.setenv("OHMTALLY_DATABASE_URL", f"sqlite:///{tmp_path / 'empty.sqlite3'}")
+    monkeypatch.setenv("OHMTALLY_AUTH", "off")
+    status, _out, err = runner("serve", "--bind", "127.0.0.1:8999")
+    assert status == 2 and "ohmtally db upgrade" in err
+
+
+def test_db_upgrade_creates_the_schema(runner: Runner, tmp_path: Path) -> None:
+    """`ohmtally db upgrade --database-url` migrates an empty file; a bad URL is exit 2 with a message."""
+    url = f"sqlite:///{tmp_path / 'new.sqlite3'}"
+    status, out, _err = runner("db", "upgrade", "--database-url", url)
+    assert status == 0 and "newest revision" in out
+    from api.app import create_app
+
+    app = create_app({"OHMTALLY_DATABASE_URL": url, "OHMTALLY_AUTH": "off", "OHMTALLY_LOG_LEVEL": "ERROR"})
+    assert app.test_client().get("/v1/jobs").status_code == 200
+    app.extensions["ohmtally.engine"].dispose()
+    bad, _out, err = runner("db", "upgrade", "--database-url", f"sqlite:///{tmp_path}/no/such/dir/x.db")
+    assert bad == 2 and "cannot migrate" in err
+
+
+def test_manifest_errors_name_the_member(tmp_path: Path) -> None:
+    """A manifest with a bad member or a missing file is refused naming the JSON pointer."""
+    bad = tmp_path / "manifest.json"
+    bad.write_text('{"job": {"site": "S"}, "uploads": [{"file": "x.csv", "content_type": "text/csv"}]}')
+    with pytest.raises(ManifestError, match="/job/reference"):
+        load_manifest(bad)
+    bad.write_text('{"job": {"reference": "R", "site": "S"}, '
+                   '"uploads": [{"file": "x.csv", "content_type": "text/csv"}]}')
+    with pytest.raises(ManifestError, match="/uploads/0/file"):
+        load_manifest(bad)
+
+
+def _env(**extra: str) -> dict[str, str]:
+    return {**os.environ, "OHMTALLY_AUTH": "off", "OHMTALLY_LOG_LEVEL": "WARNING", **extra}
+
+
+@pytest.fixture
+def server(tmp_path: Path) -> Iterator[str]:
+    url = f"sqlite:///{tmp_path / 'served.sqlite3'}"
+    upgrade(url)
+    port = free_port()
+    child = subprocess.Popen([sys.executable, "-m", "api.cli", "serve", "--bind", f"127.0.0.1:{port}",
+                              "--workers", "2"], cwd=ROOT, env=_env(OHMTALLY_DATABASE_URL=url))
+    base = f"http://127.0.0.1:{port}"
+    try:
+        assert wait_healthy(base, child), "ohmtally serve did not come up"
+        yield base
+    finally:
+        child.terminate()
+        child.wait(timeout=20)
+
+
+def _offline_records() -> list[CircuitRecord]:
+    """The demo files read offline, merged per circuit and field in upload order (later wins)."""
+    merged: dict[tuple[str, str], dict[str, Any]] = {}
+    for spec in load_manifest().uploads:
+        options = AdapterOptions(profile=spec.profile)
+        for result in get_adapter(spec.adapter or "csv").read(io.BytesIO(spec.path.read_bytes()), options):
+            if isinstance(result, Fragment):
+                merged.setdefault(result.key, {}).update(result.fields)
+    return [CircuitRecord(board=b, circuit=c, **values) for (b, c), values in merged.items()]
+
+
+def test_demo_files_through_a_real_server(server: str) -> None:
+    """The demo files posted to a real `ohmtally serve` give the offline verdicts; responses fit the spec."""
+    with httpx.Client(base_url=server, timeout=30) as client:
+        spec = client.get("/v1/openapi.json").json()
+
+        def checked(response: httpx.Response) -> Any:
+            assert check_response(spec, response.request.method, response.request.url.path,
+                                  response.status_code, response.headers.get("content-type"),
+                                  response.content)
+            return response.json() if "json" in response.headers.get("content-type", "") else response
+
+        manifest = load_manifest()
+        job = checked(client.post("/v1/jobs", json=manifest.job))
+        for upload in manifest.uploads:
+            raw = upload.path.read_bytes()
+            body = checked(client.post(f"/v1/jobs/{job['id']}/readings", content=raw,
+                                       headers={"Content-Type": upload.content_type}, params=upload.params()))
+            assert body["accepted"] > 0
+            stored = checked(client.get(f"/v1/jobs/{job['id']}/uploads/{body['upload']['id']}"))
+            assert stored.content == raw
+        verdicts = checked(client.get(f"/v1/jobs/{job['id']}/verdicts"))
+        assert verdicts["verdicts"] == [v.as_dict() for v in verify(_offline_records(), job["ruleset"])]
+        for path in ("/v1/health", "/v1/rulesets", f"/v1/rulesets/{job['ruleset']}", "/v1/adapters",
+                     "/v1/jobs", f"/v1/jobs/{job['id']}", f"/v1/jobs/{job['id']}/circuits?history=true",
+                     f"/v1/jobs/{job['id']}/uploads"):
+            checked(client.get(path))
+        checked(client.post("/v1/verify", content=b"{", headers={"Content-Type": "application/json"}))
+
+
+def test_demo_no_wait_prints_the_report_and_stops(tmp_path: Path) -> None:
+    """`ohmtally demo --no-wait` migrates, serves, posts, prints verdicts and the caution, exits 0."""
+    port = free_port()
+    command = [sys.executable, "-m", "api.cli", "demo", "--no-wait", "--port", str(port)]
+    done = subprocess.run(command, cwd=ROOT, env=_env(OHMTALLY_INSTANCE_PATH=str(tmp_path)),
+                          capture_output=True, text=True, timeout=90)
+    assert done.returncode == 0, done.stderr[-2000:]
+    out = done.stdout
+    manifest = load_manifest(DEFAULT_MANIFEST)
+    assert manifest.job["reference"] in out and f"http://127.0.0.1:{port}/v1" in out
+    assert "board DB1" in out and "CAUTION: Decision aid only" in out
+    assert (tmp_path / "ohmtally.sqlite3").is_file()
+    with pytest.raises(httpx.ConnectError):
+        httpx.get(f"http://127.0.0.1:{port}/v1/health", timeout=2)
