@@ -39,7 +39,7 @@ class OhmtallyApi(Api):  # type: ignore[misc]
     ERROR_SCHEMA = ProblemSchema
 
     def _register_responses(self) -> None:
-        default = self.DEFAULT_RESPONSE_CONTENT_TYPE
+        default: str = getattr(self, "DEFAULT_RESPONSE_CONTENT_TYPE")  # noqa: B009 (untyped base)
         self.DEFAULT_RESPONSE_CONTENT_TYPE = PROBLEM_MEDIA_TYPE
         try:
             super()._register_responses()
