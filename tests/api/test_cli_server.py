@@ -158,3 +158,22 @@ def test_demo_no_wait_prints_the_report_and_stops(tmp_path: Path) -> None:
     assert (tmp_path / "ohmtally.sqlite3").is_file()
     with pytest.raises(httpx.ConnectError):
         httpx.get(f"http://127.0.0.1:{port}/v1/health", timeout=2)
+
+
+def test_examples_run_against_a_real_server(server: str) -> None:
+    """examples/api/client.py and every curl script run to completion against a real server."""
+    import shutil
+
+    done = subprocess.run([sys.executable, str(ROOT / "examples/api/client.py"), "--url", server],
+                          capture_output=True, text=True, timeout=60)
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert "--- verdicts: HTTP 200" in done.stdout and "HTTP 422 application/problem+json" in done.stdout
+    if shutil.which("curl") is None:
+        pytest.skip("curl is not installed")
+    env = {**os.environ, "OHMTALLY_URL": server, "JOB_ID": "1", "UPLOAD_ID": "1"}
+    for name in ("health", "rulesets", "adapters", "verify", "jobs", "readings", "circuits", "uploads",
+                 "openapi", "errors"):
+        script = subprocess.run(["bash", str(ROOT / f"examples/api/{name}.sh")], env=env, capture_output=True,
+                                text=True, timeout=30)
+        assert script.returncode == 0, f"{name}.sh: {script.stderr[-1000:]}"
+        assert '"status":500' not in script.stdout.replace(" ", ""), name

@@ -13,6 +13,8 @@ from typing import Any
 
 import pytest
 from flask.testing import FlaskClient
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from engine import build_record, verify
 
@@ -162,3 +164,18 @@ def test_readings_to_missing_job_or_upload(client: FlaskClient) -> None:
     other = _job(client, reference="other")["id"]
     upload = _post(client, other, "board,circuit,zs_ohm\nA,1,0.3\n", "text/csv").get_json()["upload"]["id"]
     assert client.get(f"/v1/jobs/{job}/uploads/{upload}").status_code == 404  # not across jobs
+
+
+_BODIES = st.sampled_from(["application/json", "text/csv", "text/plain", "application/x-ndjson"])
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.binary(max_size=200), content_type=_BODIES)
+def test_no_readings_body_yields_a_500_and_every_body_is_kept(client: FlaskClient, data: bytes,
+                                                               content_type: str) -> None:
+    """Arbitrary bytes posted to a job never give a 5xx, and each one is stored as an upload."""
+    job = _job(client)["id"]
+    response = _post(client, job, data, content_type)
+    assert response.status_code < 500, response.get_data()[:300]
+    uploads = client.get(f"/v1/jobs/{job}/uploads").get_json()["uploads"]
+    assert [u["sha256"] for u in uploads] == [hashlib.sha256(data).hexdigest()]
