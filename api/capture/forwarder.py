@@ -146,19 +146,21 @@ class Forwarder:
                              code=code, reason=reason)
 
 
-def run_forwarder(forwarder: Forwarder, *, wait: Callable[[float], bool],
+def run_forwarder(forwarder: Forwarder, *, wait: Callable[[float, bool], bool],
                   on_event: Callable[[ForwardEvent], None],
                   draining: Callable[[], bool] = lambda: False) -> None:
-    """Step until ``wait`` reports a stop. ``wait(s)`` sleeps up to s seconds (woken early by new
-    lines) and returns True when the forwarder should stop."""
+    """Step until ``wait`` reports a stop. ``wait(s, wakeable)`` sleeps up to s seconds and returns
+    True when the forwarder should stop; a wakeable wait (idle, linger) ends early when a new line
+    is spooled, a backoff does not, or a meter sending steadily would defeat the backoff."""
     while True:
         event = forwarder.step(flush=draining())
         if not isinstance(event, Idle):
             on_event(event)
         if isinstance(event, BatchSent | BatchRejected):
-            if wait(0.0):
-                return
-            continue
-        delay = event.wait_s if isinstance(event, Idle | BatchRetrying) else 1.0
-        if wait(delay):
+            stop = wait(0.0, True)
+        elif isinstance(event, BatchRetrying):
+            stop = wait(event.wait_s, False)
+        else:
+            stop = wait(event.wait_s if isinstance(event, Idle) else 1.0, True)
+        if stop:
             return

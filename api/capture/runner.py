@@ -72,10 +72,14 @@ class Session:
         self._wake.set()
 
     # -- the forwarder thread -------------------------------------------------
-    def _wait(self, seconds: float) -> bool:
-        if not self.stop_all.is_set() and seconds > 0:
+    def _wait(self, seconds: float, wakeable: bool) -> bool:
+        if self.stop_all.is_set() or seconds <= 0:
+            return self.stop_all.is_set()
+        if wakeable:
             self._wake.wait(seconds)
             self._wake.clear()
+        else:
+            self.stop_all.wait(seconds)
         return self.stop_all.is_set()
 
     def _on_forward(self, event: ForwardEvent) -> None:

@@ -11,8 +11,9 @@ Invariants:
   committed before the first send, so a resend after a crash or restart sends
   the same lines under the same key; the server's idempotency then makes the
   resend harmless.
-- A spool belongs to one job on one API: opening it for another is refused
-  (:class:`SpoolMismatch`), so lines never drift to the wrong job.
+- A spool belongs to one job: opening it for another is refused
+  (:class:`SpoolMismatch`), so lines never drift to the wrong job. The API URL
+  is kept as the last one used (``--replay`` without ``--api`` uses it).
 - Nothing is deleted. Rejected lines stay, with the server's code and reason,
   until a person replays them (``--replay``).
 """
@@ -70,7 +71,7 @@ class SpoolError(Exception):
 
 
 class SpoolMismatch(SpoolError):
-    """The spool file was made for another job or another API."""
+    """The spool file was made for another job."""
 
     code = "spool_mismatch"
 
@@ -152,18 +153,17 @@ class Spool:
 
     # -- set-up -------------------------------------------------------------
     def _bind(self, job: str | None, api: str | None, read_only: bool) -> str:
-        meta = self.meta()
-        for name, wanted in (("job", job), ("api", api)):
-            have = meta.get(name)
-            if wanted is not None and have is not None and have != wanted:
-                raise SpoolMismatch(f"spool {self.path} belongs to {name} {have!r}, not {wanted!r}")
+        have = self.meta().get("job")
+        if job is not None and have is not None and have != job:
+            raise SpoolMismatch(f"spool {self.path} belongs to job {have!r}, not {job!r}")
         if not read_only:
             with self._tx() as db:
                 db.execute("INSERT OR IGNORE INTO meta VALUES ('spool_id', ?)", (uuid.uuid4().hex[:12],))
                 db.execute("INSERT OR IGNORE INTO meta VALUES ('round', '0')")
-                for name, wanted in (("job", job), ("api", api)):
-                    if wanted is not None:
-                        db.execute("INSERT OR IGNORE INTO meta VALUES (?, ?)", (name, wanted))
+                if job is not None:
+                    db.execute("INSERT OR IGNORE INTO meta VALUES ('job', ?)", (job,))
+                if api is not None:  # the API last used: a server may move, the job stays
+                    db.execute("INSERT OR REPLACE INTO meta VALUES ('api', ?)", (api,))
         return self.meta().get("spool_id", "")
 
     def meta(self) -> dict[str, str]:

@@ -19,7 +19,7 @@ import sys
 import threading
 import time
 from collections.abc import Mapping
-from dataclasses import asdict, dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from typing import IO, Any, Protocol
 
 from .forwarder import BatchRejected, BatchRetrying, BatchSent, ForwardEvent, Halted
@@ -57,9 +57,8 @@ class Tally:
             return replace(self, _lock=threading.Lock())
 
     def as_dict(self) -> dict[str, Any]:
-        out = asdict(self.snapshot())
-        out.pop("_lock", None)
-        return out
+        with self._lock:
+            return {f.name: getattr(self, f.name) for f in fields(self) if not f.name.startswith("_")}
 
 
 def verdict_line(verdict: Mapping[str, Any]) -> str:

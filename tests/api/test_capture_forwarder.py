@@ -162,16 +162,17 @@ def test_line_rejections_and_verdicts_come_back(tmp_path: Path, clock: Clock) ->
 
 
 def test_run_forwarder_loop_sleeps_backoff_and_stops(tmp_path: Path, clock: Clock) -> None:
-    """The loop sleeps the backoff the step asked for and returns when told to stop (no threads)."""
+    """The loop sleeps the backoff the step asked for, unwakeable, and returns when told to stop."""
     fwd, _, spool = _forwarder(tmp_path, clock, [Reply(status=503), Reply(status=200, body={})])
-    waits: list[float] = []
+    waits: list[tuple[float, bool]] = []
 
-    def wait(seconds: float) -> bool:
-        waits.append(seconds)
+    def wait(seconds: float, wakeable: bool) -> bool:
+        waits.append((seconds, wakeable))
         clock.now += max(seconds, 0.6)
         return spool.counts().unsent == 0
 
     seen: list[object] = []
     run_forwarder(fwd, wait=wait, on_event=seen.append)
     assert [type(e) for e in seen] == [BatchRetrying, BatchSent]
-    assert waits[-2] == pytest.approx(0.25)  # first retry: base 0.5 × 2⁰ × ½ (draw 0)
+    # first retry: base 0.5 × 2⁰ × ½ (draw 0), and not cut short by newly spooled lines
+    assert waits[-2][0] == pytest.approx(0.25) and waits[-2][1] is False

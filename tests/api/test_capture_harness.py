@@ -91,7 +91,9 @@ class FakeApi:
             if first_body != body:
                 return 422, b'{"code": "idempotency_key_reused", "detail": "different body"}'
             return status, payload
-        accepted, rejected, verdicts = 0, [], []
+        accepted = 0
+        rejected: list[dict[str, Any]] = []
+        verdicts: list[dict[str, Any]] = []
         for number, text in enumerate(body.decode("utf-8").splitlines(), start=1):
             pairs = dict(p.split("=", 1) for p in text.split() if "=" in p)
             if "board" not in pairs or "circuit" not in pairs:
@@ -136,16 +138,19 @@ class FakeApi:
 class FaultProxy:
     """Forwards every request to ``upstream`` unless the next scripted fault says otherwise.
 
-    A fault is ``{"status": 500}``, ``{"status": 429, "retry_after": "1"}``,
+    ``refuse_with = 503`` answers every POST so until cleared. A fault is ``{"status": 500}``,
+    ``{"status": 429, "retry_after": "1"}``,
     ``{"status": 400, "code": "..."}`` (answered without forwarding), or
     ``{"after": 500}`` (forwarded, so the server did store it, then answered 500:
-    the lost-answer case the Idempotency-Key exists for).
+    the lost-answer case the Idempotency-Key exists for), or ``{}`` (forwarded as is).
     """
 
     upstream: str
     port: int = field(default_factory=free_port)
     faults: list[dict[str, Any]] = field(default_factory=list)
     injected: list[dict[str, Any]] = field(default_factory=list)
+    answered: list[tuple[str | None, int]] = field(default_factory=list)  # (Idempotency-Key, status)
+    refuse_with: int | None = None  # answer every POST with this status (a server that is down)
     _stack: Any = None
 
     @property
@@ -172,6 +177,8 @@ class FaultProxy:
             def _relay(self, method: str) -> None:
                 body = self.rfile.read(int(self.headers.get("Content-Length") or 0))
                 fault = proxy.faults.pop(0) if (method == "POST" and proxy.faults) else None
+                if method == "POST" and proxy.refuse_with and fault is None:
+                    fault = {"status": proxy.refuse_with}
                 if fault is not None:
                     proxy.injected.append(fault)
                 if fault is not None and "status" in fault:
@@ -187,10 +194,12 @@ class FaultProxy:
                 except httpx.HTTPError:
                     self._send(502, b'{"code": "upstream_down"}', {})
                     return
-                status = fault["after"] if fault else resp.status_code
+                status = fault.get("after", resp.status_code) if fault else resp.status_code
                 self._send(status, resp.content, {"Content-Type": resp.headers.get("content-type")})
 
             def _send(self, status: int, payload: bytes, headers: dict[str, str | None]) -> None:
+                if self.command == "POST":
+                    proxy.answered.append((self.headers.get("Idempotency-Key"), status))
                 self.send_response(status)
                 for name, value in headers.items():
                     if value:
