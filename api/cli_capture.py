@@ -25,7 +25,9 @@ __all__ = ["default_spool_path", "read_api_key", "register", "run"]
 
 
 def register(sub: Any) -> None:
-    p = sub.add_parser("capture", help="read a meter's serial port and forward readings to a job",
+    # allow_abbrev off: "--key SECRET" must be an error, not an abbreviation of --key-file.
+    p = sub.add_parser("capture", allow_abbrev=False,
+                       help="read a meter's serial port and forward readings to a job",
                        description="Read lines from a serial port (or socket://, rfc2217:// URL), "
                        "keep each one in a local spool, and forward them to a job on the API.")
     p.add_argument("--port", help="device path (/dev/ttyUSB0, COM3) or pyserial URL (socket://host:port)")
