@@ -9,6 +9,7 @@ Invariants:
   latest row of a field equals the current value), each with its upload.
 - ``uploads.body`` is the request body exactly as received; it is never
   changed or deleted, so nothing a client sent is lost, even rejected rows.
+  ``(job_id, idempotency_key)`` is unique: a resent body is found, not stored twice.
 - The schema is owned by the Alembic migrations in ``api/migrations``; these
   classes must match them (a test compares them).
 """
@@ -74,6 +75,7 @@ class Job(Base):
 
 class Upload(Base):
     __tablename__ = "uploads"
+    __table_args__ = (UniqueConstraint("job_id", "idempotency_key", name="uq_uploads_job_idempotency_key"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
     job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
@@ -87,6 +89,7 @@ class Upload(Base):
     status: Mapped[str] = mapped_column(String(20))  # merged | rejected
     accepted: Mapped[int] = mapped_column(default=0)
     rejected: Mapped[list[dict[str, Any]]] = mapped_column(JSON, default=list)
+    idempotency_key: Mapped[str | None] = mapped_column(String(200), default=None)  # the client's, if sent
 
 
 class Circuit(Base):

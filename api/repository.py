@@ -33,6 +33,7 @@ __all__ = [
     "create_job",
     "decode_cursor",
     "encode_cursor",
+    "find_upload_by_key",
     "get_job",
     "get_upload",
     "job_circuits",
@@ -44,6 +45,7 @@ __all__ = [
     "merge_items",
     "records_of",
     "store_upload",
+    "upload_circuit_keys",
 ]
 
 LOCAL_ORGANISATION = "local"
@@ -118,12 +120,24 @@ def lock_job(session: Session, job_id: int) -> Job:
     return job
 
 
+def find_upload_by_key(session: Session, job: Job, idempotency_key: str) -> Upload | None:
+    query = select(Upload).where(Upload.job_id == job.id, Upload.idempotency_key == idempotency_key)
+    return session.scalars(query).first()
+
+
+def upload_circuit_keys(session: Session, upload: Upload) -> set[tuple[str, str]]:
+    """The circuits an upload wrote a value to (from its history rows)."""
+    query = (select(Circuit.board, Circuit.circuit).join(FieldHistory, FieldHistory.circuit_id == Circuit.id)
+             .where(FieldHistory.upload_id == upload.id).distinct())
+    return {(board, circuit) for board, circuit in session.execute(query)}
+
+
 def store_upload(session: Session, job: Job, *, body: bytes, content_type: str,
-                 adapter: str | None, profile: str | None) -> Upload:
+                 adapter: str | None, profile: str | None, idempotency_key: str | None = None) -> Upload:
     upload = Upload(job_id=job.id, content_type=content_type or "application/octet-stream",
                     adapter=adapter, profile=profile, sha256=hashlib.sha256(body).hexdigest(),
                     size=len(body), body=body, received_at=utcnow(), status="rejected",
-                    accepted=0, rejected=[])
+                    accepted=0, rejected=[], idempotency_key=idempotency_key)
     session.add(upload)
     session.flush()
     return upload

@@ -9,13 +9,19 @@ Invariants:
   concurrent posts to one job apply in turn.
 - The verdicts returned are those of the circuits this upload touched,
   computed over all the job's records (board-level checks need the board).
+- A post with an ``Idempotency-Key`` the job has seen is answered from the
+  first upload (``Idempotent-Replayed: true``), never merged or stored twice;
+  the same key with a different body is a 422 (the IETF httpapi draft on the
+  Idempotency-Key header). A logger that lost an answer can resend safely.
 """
 
 from __future__ import annotations
 
+import hashlib
+import re
 from typing import Any
 
-from flask import Response
+from flask import Response, request
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
@@ -25,8 +31,18 @@ from engine import NOTICE, verify
 from ..body_intake import read_body
 from ..db import get_session
 from ..errors import ApiError
-from ..models import Upload
-from ..repository import get_job, get_upload, job_records, list_uploads, lock_job, merge_items, store_upload
+from ..models import Job, Upload
+from ..repository import (
+    find_upload_by_key,
+    get_job,
+    get_upload,
+    job_records,
+    list_uploads,
+    lock_job,
+    merge_items,
+    store_upload,
+    upload_circuit_keys,
+)
 from ..schemas.jobs import ReadingsResponseSchema, UploadListSchema
 from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
 from .verify import ReadingsQuerySchema
@@ -44,19 +60,65 @@ def upload_dict(upload: Upload) -> dict[str, Any]:
             "href": f"/v1/jobs/{upload.job_id}/uploads/{upload.id}"}
 
 
+IDEMPOTENCY_HEADER = "Idempotency-Key"
+_KEY = re.compile(r"^[\x21-\x7e]{1,200}$")  # visible ASCII, as a header value can carry safely
+_KEY_DOC = {"in": "header", "name": IDEMPOTENCY_HEADER, "required": False,
+            "schema": {"type": "string", "maxLength": 200},
+            "description": "resending the same body with the same key is answered from the first "
+                           "upload, not merged twice"}
+
+
+def _idempotency_key() -> str | None:
+    key = request.headers.get(IDEMPOTENCY_HEADER)
+    if key is None:
+        return None
+    if not _KEY.match(key):
+        raise ApiError(400, "bad_idempotency_key",
+                       "the Idempotency-Key must be 1–200 visible ASCII characters",
+                       errors=[{"parameter": IDEMPOTENCY_HEADER, "code": "bad_idempotency_key",
+                                "reason": "1–200 visible ASCII characters"}])
+    return key
+
+
+def _replay(job: Job, earlier: Upload, body: bytes) -> Response:
+    session = get_session()
+    ref = {"id": earlier.id, "sha256": earlier.sha256, "size": earlier.size}
+    if hashlib.sha256(body).hexdigest() != earlier.sha256:
+        raise ApiError(422, "idempotency_key_reused",
+                       f"upload {earlier.id} of job {job.id} used this Idempotency-Key with another body",
+                       errors=[{"parameter": IDEMPOTENCY_HEADER, "code": "idempotency_key_reused",
+                                "reason": "a key names one body"}], extra={"upload": ref})
+    if earlier.status != "merged":
+        raise ApiError(422, "rejected_earlier", f"upload {earlier.id} with this key was refused: "
+                       "nothing in it was taken", errors=earlier.rejected, extra={"upload": ref},
+                       headers={"Idempotent-Replayed": "true"})
+    touched = upload_circuit_keys(session, earlier)
+    all_verdicts = verify(job_records(session, job), resolve_ruleset(job.ruleset))
+    verdicts = [v for v in all_verdicts if v.key in touched]
+    return json_response({"accepted": earlier.accepted, "rejected": earlier.rejected, "upload": ref,
+                          "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE},
+                         headers={"Idempotent-Replayed": "true"})
+
+
 @blp.route("/jobs/<int:job_id>/readings")
 class JobReadings(MethodView):
     @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
-    @blp.doc(requestBody=READINGS_BODY_DOC)
+    @blp.doc(requestBody=READINGS_BODY_DOC, parameters=[_KEY_DOC])
     @blp.response(200, ReadingsResponseSchema)
     def post(self, job_id: int, **query: Any) -> Any:
         """Merge readings into the job (per circuit and field, later wins; history kept)."""
         body, media_type, charset = raw_body()
+        key = _idempotency_key()
         session = get_session()
         job = lock_job(session, job_id)
+        if key is not None:
+            earlier = find_upload_by_key(session, job, key)
+            if earlier is not None:
+                return _replay(job, earlier, body)
         upload = store_upload(session, job, body=body,
                               content_type=_full_content_type(media_type, charset),
-                              adapter=query.get("adapter"), profile=query.get("profile"))
+                              adapter=query.get("adapter"), profile=query.get("profile"),
+                              idempotency_key=key)
         try:
             intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
                                profile=query.get("profile"), profile_dir=settings().profile_dir)

@@ -179,3 +179,35 @@ def test_no_readings_body_yields_a_500_and_every_body_is_kept(client: FlaskClien
     assert response.status_code < 500, response.get_data()[:300]
     uploads = client.get(f"/v1/jobs/{job}/uploads").get_json()["uploads"]
     assert [u["sha256"] for u in uploads] == [hashlib.sha256(data).hexdigest()]
+
+
+def test_idempotency_key_resend_is_answered_not_merged_twice(client: FlaskClient) -> None:
+    """A resend with the same Idempotency-Key gets the first answer and adds no upload or history row.
+
+    Reference: the IETF httpapi Idempotency-Key header draft (same key + same body → the
+    first result; same key + another body → 422).
+    """
+    job = _job(client)["id"]
+    raw = b"board=DB1 circuit=1 zs=0.61\xce\xa9 r1r2=0.32\n"
+    headers = {"Idempotency-Key": "batch-0001"}
+    first = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data=raw, content_type="text/plain",
+                        headers=headers)
+    again = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data=raw, content_type="text/plain",
+                        headers=headers)
+    assert first.status_code == again.status_code == 200
+    assert again.headers["Idempotent-Replayed"] == "true" and "Idempotent-Replayed" not in first.headers
+    assert again.get_json() == first.get_json()
+    assert len(client.get(f"/v1/jobs/{job}/uploads").get_json()["uploads"]) == 1
+    history = client.get(f"/v1/jobs/{job}/circuits?history=true").get_json()["circuits"][0]["history"]
+    assert len(history["zs_ohm"]) == 1
+    other = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data=raw + b"board=DB1 circuit=2 zs=1\n",
+                        content_type="text/plain", headers=headers)
+    assert other.status_code == 422 and other.get_json()["code"] == "idempotency_key_reused"
+    bad = client.post(f"/v1/jobs/{job}/readings", data=raw, content_type="text/plain",
+                      headers={"Idempotency-Key": "has space"})
+    assert bad.status_code == 400 and bad.get_json()["code"] == "bad_idempotency_key"
+    refused = {"Idempotency-Key": "batch-0002"}
+    for _ in range(2):
+        answer = client.post(f"/v1/jobs/{job}/readings", data=b"", content_type="text/plain", headers=refused)
+        assert answer.status_code in (400, 422)
+    assert len(client.get(f"/v1/jobs/{job}/uploads").get_json()["uploads"]) == 2  # refused body kept once
