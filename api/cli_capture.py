@@ -40,7 +40,7 @@ def register(sub: Any) -> None:
     p.add_argument("--batch-lines", type=int, default=50, help="most lines per POST (default 50)")
     p.add_argument("--linger", type=float, default=0.5, help="seconds a line waits for others (default 0.5)")
     p.add_argument("--drain", type=float, default=10.0,
-                   help="seconds to keep sending after Ctrl-C (default 10)")
+                   help="after Ctrl-C, send until this many seconds pass without progress (default 10)")
     mode = p.add_mutually_exclusive_group()
     mode.add_argument("--quiet", action="store_true", help="no status line; findings and faults only")
     mode.add_argument("--json-log", action="store_true", help="one JSON object per event on stdout")

@@ -5,7 +5,8 @@ Invariants:
 - The reader never waits on the network: it only appends to the spool and
   wakes the forwarder, so a slow or absent API never slows reading the port.
 - First Ctrl-C (or SIGTERM): stop reading, close the port, then forward what
-  is spooled for at most ``drain_s`` seconds, skipping the batching linger.
+  is spooled, skipping the batching linger, until it is sent or ``drain_s``
+  seconds pass without a batch settling.
   Second Ctrl-C: stop at once. Either way every line read is already in the
   spool; whatever was not sent goes at the next start (same keys).
 - Exit status (as ``ohmtally verify``): 1 if a circuit failed this session;
@@ -59,6 +60,7 @@ class Session:
         self._wake = threading.Event()
         self._interrupts = 0
         self._outcomes: dict[tuple[str, str], str] = {}
+        self._last_progress = 0.0  # monotonic time of the last settled batch
 
     # -- signals ------------------------------------------------------------
     def interrupt(self, signum: int | None = None, frame: FrameType | None = None) -> None:
@@ -83,6 +85,8 @@ class Session:
         return self.stop_all.is_set()
 
     def _on_forward(self, event: ForwardEvent) -> None:
+        if isinstance(event, BatchSent | BatchRejected):
+            self._last_progress = time.monotonic()
         if isinstance(event, BatchSent):
             self.tally.update(api="ok")
             for verdict in event.verdicts:
@@ -105,7 +109,7 @@ class Session:
         self.tally.update(unsent=c.unsent, sent=c.sent, rejected=c.rejected + c.line_rejected)
 
     def wake(self) -> None:
-        self._count()
+        # Called per line read: only a flag, the counts are refreshed by the main loop.
         self._wake.set()
 
     # -- the whole session ----------------------------------------------------
@@ -138,18 +142,22 @@ class Session:
         return SessionResult(status=self._status(), tally=self.tally.as_dict())
 
     def _main_loop(self, reader: threading.Thread | None) -> None:
-        deadline: float | None = None
+        drain_from: float | None = None
         while not self.stop_all.is_set():
+            self._count()
             self.reporter.refresh(self.tally)
             if self.draining.is_set():
-                if deadline is None:
-                    deadline = time.monotonic() + self.drain_s
+                if drain_from is None:
+                    drain_from = time.monotonic()
                     if self._interrupts:
-                        self.reporter.event("draining", f"stopping: sending what is spooled "
-                                            f"(up to {self.drain_s:.0f} s; Ctrl-C again to quit now)")
+                        self.reporter.event("draining", f"stopping: sending what is spooled (until "
+                                            f"{self.drain_s:.0f} s pass without progress; Ctrl-C again "
+                                            "to quit now)")
+                # Bounded: drain_s without a settled batch ends it; a working API may finish a backlog.
+                stalled = time.monotonic() > max(drain_from, self._last_progress) + self.drain_s
                 reader_done = reader is None or not reader.is_alive()
                 pending, _ = self.spool.pending()
-                if reader_done and (pending == 0 or self.forwarder.halted or time.monotonic() > deadline):
+                if reader_done and (pending == 0 or self.forwarder.halted or stalled):
                     return
             time.sleep(self.refresh_s)
 

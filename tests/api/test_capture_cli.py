@@ -136,3 +136,18 @@ def test_list_ports_runs(capsys: pytest.CaptureFixture[str]) -> None:
     """--list-ports asks pyserial's list_ports and prints JSON a script can read."""
     assert main(["capture", "--list-ports", "--json-log"]) == EXIT_OK
     assert isinstance(json.loads(capsys.readouterr().out), list)
+
+
+def test_live_status_line_shows_counts_and_the_failing_circuit(capsys: pytest.CaptureFixture[str]) -> None:
+    """The default status line carries port state, the counts and the last verdict; a failing
+    circuit is also printed on its own line above it."""
+    from api.capture.status import LiveReporter
+
+    reporter = LiveReporter()
+    tally = Tally(port="open", read=5, unsent=1, sent=4, last_verdict=verdict_line(FAIL_VERDICT))
+    reporter.forward(BatchSent(key="k", lines=1, verdicts=(FAIL_VERDICT,)), tally)
+    reporter.refresh(tally)
+    reporter.close(tally)
+    err = capsys.readouterr().err
+    assert "DB1/3 FAIL: loop_impedance 1.92 vs limit 1.37 Ω" in err
+    assert "port open  read 5  spooled 1  sent 4  rejected 0" in err

@@ -309,24 +309,13 @@ def test_500_429_400_and_bad_lines_are_retried_kept_and_replayed(
     assert real_api.job_circuits(job) == {("DB2", "1"), ("DB2", "2"), ("DB2", "3")}
 
 
-def _honours_idempotency(url: str) -> bool:
-    """Probe: does the server answer a repeated Idempotency-Key without storing a second upload?"""
-    job = httpx.post(url + "/v1/jobs", json={"reference": "probe", "site": "probe"}).json()["id"]
-    for _ in range(2):
-        httpx.post(f"{url}/v1/jobs/{job}/readings", content=b"board=P circuit=1 zs_ohm=0.1\n",
-                   headers={"Content-Type": "text/plain", "Idempotency-Key": "probe-key"})
-    return len(httpx.get(f"{url}/v1/jobs/{job}/uploads").json()["uploads"]) == 1
-
-
 @pytest.mark.parametrize("upstream", ["fake", "real"])
 def test_answer_lost_after_the_server_stored_it_is_not_duplicated(
         upstream: str, real_api: RealApi, meter: tuple[PtyMeter, str], tmp_path: Path) -> None:
     """When the server stored a batch but its answer was lost (here: replaced by a 500), the resend
-    carries the same key, so a server that honours Idempotency-Key stores the lines once."""
+    carries the same key and body, so the API (which honours Idempotency-Key) stores the lines once."""
     fake = FakeApi().start() if upstream == "fake" else None
     url = fake.url if fake else real_api.url
-    if fake is None and not _honours_idempotency(url):
-        pytest.skip("the API does not honour Idempotency-Key yet (another helper adds it)")
     job = real_api.new_job() if fake is None else "7"
     pty, link = meter
     proxy = FaultProxy(url, faults=[{"after": 500}]).start()
@@ -343,3 +332,24 @@ def test_answer_lost_after_the_server_stored_it_is_not_duplicated(
     assert [s for _, s in proxy.answered] == [500, 200] and len({k for k, _ in proxy.answered}) == 1
     stored = fake.lines[job] if fake else real_api.job_lines(job)
     assert stored == [_line(1)]
+
+
+def test_ctrl_c_drains_and_a_second_ctrl_c_quits_keeping_the_spool(
+        meter: tuple[PtyMeter, str], tmp_path: Path) -> None:
+    """With the API unreachable, the first Ctrl-C stops reading and keeps trying to send; the
+    second quits at once (exit 2: lines unsent), and the lines stay in the spool for next time."""
+    pty, link = meter
+    spool = tmp_path / "spool.sqlite"
+    cap = Capture(port=link, job="7", api=f"http://127.0.0.1:{free_port()}", spool=spool,
+                  extra=("--drain", "30"))
+    cap.wait_open()
+    pty.send(f"{_line(1)}\n{_line(2)}\n")
+    assert wait_until(lambda: _counts(spool).unsent == 2 and cap.count("retrying") >= 1, 10)
+    cap.proc.send_signal(signal.SIGINT)
+    assert wait_until(lambda: cap.count("draining") == 1, 10), cap.events
+    assert wait_until(lambda: cap.count("port", "port closed") == 1, 5), cap.events
+    assert cap.proc.poll() is None  # still draining: the 30 s bound has not passed
+    started = time.monotonic()
+    assert cap.stop() == 2
+    assert time.monotonic() - started < 5
+    assert [r.text for r in Spool(spool, read_only=True).rows(states=["unsent"])] == [_line(1), _line(2)]
