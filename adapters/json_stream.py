@@ -6,9 +6,9 @@ Invariants:
   characters) and one chunk are held, so memory is constant in the number of
   records.
 - A record that does not parse is one :class:`JsonItem` with ``problem`` set;
-  reading resumes at the next record (in a list: after the next ``,`` that is
-  followed by ``{``; in NDJSON: at the next line), so good records after a bad
-  one still come through.
+  reading resumes at the next record (in a list: after the next ``}`` that is
+  followed by ``,``; in NDJSON: at the next line), so good records after a bad
+  one still come through. Records are flat objects, so ``},`` ends one.
 - Line numbers count from 1 at the start of the input and name the line where
   a record (or a problem) starts. Pointers follow RFC 6901 (``/circuits/3``).
 """
@@ -28,7 +28,7 @@ __all__ = ["JsonItem", "iter_json_records"]
 
 _CHUNK = 1 << 16
 _WS = re.compile(r"[ \t\r\n]*")
-_RESYNC_LIST = re.compile(r",[ \t\r\n]*(?=\{)")
+_RESYNC_LIST = re.compile(r"\}[ \t\r\n]*,")  # the end of a (flat) record and its comma
 _DECODER = json.JSONDecoder()
 _RECORD_KEYS = frozenset(FIELDS)  # a top-level object starting with one of these is a record
 
