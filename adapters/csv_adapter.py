@@ -159,10 +159,10 @@ class _Reader:
             yield LineError(line=number, code="too_many_columns",
                             reason=f"the row has {len(cells)} cells, more than {self.options.max_columns}")
             return
-        if [c.strip() for c in cells] == self.header:
+        if cells[0].strip() == self.header[0] and [c.strip() for c in cells] == self.header:
             yield Skipped(line=number, reason="repeated header")
             return
-        if not any(c.strip() for c in cells):
+        if not text.replace(self.delimiter, "").replace('"', "").strip():
             yield Skipped(line=number, reason="blank row")
             return
         count = len(cells)

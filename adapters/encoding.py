@@ -57,7 +57,7 @@ class DecodedLine:
 def read_sample(stream: IO[bytes]) -> tuple[bytes, IO[bytes]]:
     """The first ``SAMPLE_BYTES`` and a stream that replays them before the rest."""
     sample = stream.read(SAMPLE_BYTES) or b""
-    return sample, _Replay(sample, stream)
+    return sample, io.BufferedReader(_Replay(sample, stream))
 
 
 def checked_encoding(name: str | None) -> str | None:

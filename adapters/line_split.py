@@ -66,9 +66,12 @@ class _Splitter(Generic[AnyStr]):
                     return out
         pieces = self._eol.split(data)
         tail = pieces.pop()
-        for piece in pieces:
-            self._hold(piece)
+        if pieces:
+            self._hold(pieces[0])
             out.append(self._take())
+            limit = self.max_line_length
+            # later pieces start a fresh line: no join needed (the hot path for files)
+            out.extend(SplitLine(p) if len(p) <= limit else SplitLine(p[:limit], True) for p in pieces[1:])
         self._hold(tail)
         if not tail and data[-1:] == self._cr:
             self._skip_lf = True

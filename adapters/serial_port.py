@@ -24,7 +24,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any, Literal
 
-import serial
+import serial  # type: ignore[import-untyped]  # pyserial ships no type hints
 
 from .line_split import LineSplitter
 

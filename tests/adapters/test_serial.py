@@ -19,7 +19,7 @@ def _split_all(data: bytes, cuts: list[int], max_len: int = 1 << 20) -> list[byt
     splitter = LineSplitter(max_len)
     out: list[bytes] = []
     last = 0
-    for cut in sorted({c % (len(data) + 1) for c in cuts}) + [len(data)]:
+    for cut in [*sorted({c % (len(data) + 1) for c in cuts}), len(data)]:
         out += [line.data for line in splitter.feed(data[last:cut])]
         last = cut
     tail = splitter.flush()
@@ -46,7 +46,8 @@ def _noisy_stream(seed: int) -> tuple[bytes, list[bytes]]:
     lines: list[bytes] = []
     for n in range(60):
         if rng.random() < 0.2:
-            lines.append(bytes(rng.choice([0, 7, 0x11, 0x13, 0xFF, 0x41, 0x20]) for _ in range(rng.randint(1, 9))))
+            noise = [0, 7, 0x11, 0x13, 0xFF, 0x41, 0x20]
+            lines.append(bytes(rng.choice(noise) for _ in range(rng.randint(1, 9))))
         else:
             lines.append(f"board=DB1 circuit={n} zs=0.{n:02d}".encode())
     data = b"".join(line + rng.choice([b"\n", b"\r\n", b"\r\n"]) for line in lines)
@@ -107,7 +108,7 @@ def test_pty_disconnect_is_an_event() -> None:
     data, expected = _noisy_stream(7)
     master, slave = os.openpty()
     reader = SerialLineReader(os.ttyname(slave), timeout=0.02, idle_events=True)
-    reader.port  # open (pyserial puts the tty in raw mode) before writing
+    assert reader.port.is_open  # opened (pyserial puts the tty in raw mode) before writing
     os.close(slave)
     events: list[LineEvent | PortEvent] = []
 
