@@ -98,3 +98,14 @@ def test_units_in_values() -> None:
     got = collect(_read("board=DB1 circuit=1 zs=350mΩ ir_le=2GΩ pfc=980A".encode()))
     assert record_to_dict(got.records[0]) == {"board": "DB1", "circuit": "1", "zs_ohm": 0.35,
                                               "ir_le_mohm": 2000.0, "pfc_ka": 0.98}
+
+
+def test_readme_example_line_verifies() -> None:
+    """The checksummed example line in adapters/README.md really verifies (so the recipe is right)."""
+    from pathlib import Path
+
+    readme = (Path(__file__).parents[2] / "adapters" / "README.md").read_text(encoding="utf-8")
+    line = next(x for x in readme.splitlines() if x.startswith("board=DB1 circuit=3") and "*" in x)
+    result = check_suffix(line.encode())
+    assert result.present and result.ok
+    assert collect(_read(line.encode())).errors == []
