@@ -4,19 +4,21 @@ from __future__ import annotations
 
 from typing import Any
 
+from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
-from marshmallow import RAISE, Schema, fields
+from marshmallow import RAISE, Schema, fields, validate
 
 from engine import verify
 
 from ..bodies import verify_body
 from ..body_intake import read_body
 from ..errors import ApiError
+from ..render import FAIL_ON_CHOICES, FORMATS, MEDIA_TYPES, WARN_ON_CHOICES, policy_from_names, render
 from ..schemas.verdicts import VerifyResponseSchema
 from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
 
-__all__ = ["ReadingsQuerySchema", "blp"]
+__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp"]
 
 blp = Blueprint("verify", __name__, url_prefix="/v1", description="Stateless verification")
 
@@ -28,6 +30,26 @@ class ReadingsQuerySchema(Schema):
     adapter = fields.String(metadata={"description": "adapter name (default: from the Content-Type)"})
     profile = fields.String(metadata={"description": "mapping or line profile for the adapter"})
     ruleset = fields.String(metadata={"description": "ruleset id (JSON bodies may name it instead)"})
+
+
+class VerifyQuerySchema(ReadingsQuerySchema):
+    """/verify only: the output format and the pipeline policy (the renderers of api.render)."""
+
+    format = fields.String(validate=validate.OneOf(FORMATS),
+                           metadata={"description": "json (default), junit, csv or table: the bytes "
+                                                    "`ohmtally verify --format` prints"})
+    fail_on = fields.String(validate=validate.OneOf(FAIL_ON_CHOICES),
+                            metadata={"description": "least severe outcome that fails (default fail)"})
+    warn_on = fields.String(validate=validate.OneOf(WARN_ON_CHOICES),
+                            metadata={"description": "least severe outcome that warns (default incomplete)"})
+
+
+_TEXT = {"schema": {"type": "string"}}
+FAILING_HEADER = "Ohmtally-Failing-Circuits"
+_FORMATS_DOC: dict[int, Any] = {200: {
+    "content": {media.split(";")[0]: _TEXT for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
+    "headers": {FAILING_HEADER: {"schema": {"type": "integer"},
+                                 "description": "circuits failing under fail_on (so a curl step can gate)"}}}}
 
 
 def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | None, dict[str, str]]:
@@ -44,14 +66,15 @@ def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | 
 
 @blp.route("/verify")
 class Verify(MethodView):
-    @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
-    @blp.doc(requestBody=READINGS_BODY_DOC)
+    @blp.arguments(VerifyQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
+    @blp.doc(requestBody=READINGS_BODY_DOC, responses=_FORMATS_DOC)
     @blp.response(200, VerifyResponseSchema)
     def post(self, **query: Any) -> Any:
         """Verify circuits: `{ruleset, summary, verdicts, rejected, notice}`.
 
         JSON bodies are all or nothing (422 with a pointer per bad field); CSV,
         lines and NDJSON take the good rows and list the bad ones in `rejected`.
+        `?format=junit|csv|table` renders the same body for a pipeline or a person.
         """
         if query.get("ruleset"):  # a bad name is reported before the body is read
             resolve_ruleset(query["ruleset"])
@@ -61,4 +84,10 @@ class Verify(MethodView):
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
         records = intake.records()
-        return json_response(verify_body(ruleset, verify(records, ruleset), intake.rejected))
+        body = verify_body(ruleset, verify(records, ruleset), intake.rejected)
+        policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
+        failing = {FAILING_HEADER: str(policy.failing_circuits(body["verdicts"]))}
+        if query.get("format") is None:
+            return json_response(body, headers=failing)
+        text, media_type = render(body, query["format"], policy)
+        return Response(text, status=200, content_type=media_type, headers=failing)
