@@ -61,12 +61,15 @@ def band_for(rules: Ruleset, circuit_v: float) -> Band:
                 basis=rules.basis(SECTION, f"{key}_min_mohm"))
 
 
-def _circuit_voltage(view: CircuitView) -> float | None:
+def _circuit_voltage(view: CircuitView, rules: Ruleset) -> float | None:
     u0 = view.get("nominal_voltage_v")
     if u0 is None:
         return None
     # Table 64 bands by the circuit's nominal voltage: line to line on a three-phase circuit
-    return float(u0) * math.sqrt(3) if view.get("phases") == 3 else float(u0)
+    line_to_line = float(u0) * math.sqrt(3)
+    if view.raw("phases") is None and band_for(rules, float(u0)) == band_for(rules, line_to_line):
+        return float(u0)  # same band either way: no need to assume (and report) a phase count
+    return line_to_line if view.get("phases") == 3 else float(u0)
 
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
@@ -75,7 +78,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     if all(r is None for _, _, r in readings):
         yield incomplete(CHECK, [name for name, _ in _READINGS], basis=rules.basis(SECTION, "lv_min_mohm"))
         return
-    circuit_v = _circuit_voltage(view)
+    circuit_v = _circuit_voltage(view, rules)
     if circuit_v is None:
         yield incomplete(CHECK, ["nominal_voltage_v"], detail="the minimum depends on the circuit voltage")
         return
