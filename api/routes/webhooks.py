@@ -1,0 +1,154 @@
+"""``/v1/webhooks``: an organisation's subscriptions and the deliveries made to each.
+
+Invariants:
+- Every subscription belongs to the request's organisation (the API key's;
+  ``local`` with auth off); another organisation's is a 404 like a missing one.
+- The secret is returned once, in the 201 of the POST, never again.
+- A URL is checked against the target policy (``api.webhooks.targets``) when
+  the subscription is made; it is checked again at every send.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask import Response
+from flask.views import MethodView
+from flask_smorest import Blueprint
+from marshmallow import RAISE, ValidationError
+from sqlalchemy import delete, select
+from sqlalchemy.orm import Session
+
+from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from ..db import get_session
+from ..errors import ApiError
+from ..repository import decode_cursor, encode_cursor, local_organisation
+from ..schemas.webhooks import (
+    DeliveryListSchema,
+    DeliveryQuerySchema,
+    SubscriptionCreatedSchema,
+    SubscriptionCreateSchema,
+    SubscriptionListSchema,
+    SubscriptionSchema,
+)
+from ..webhooks.models import WebhookDelivery, WebhookEvent, WebhookSubscription
+from ..webhooks.signing import new_secret
+from ..webhooks.targets import TargetRefused, resolve_target
+from .common import json_response, raw_body, settings
+
+__all__ = ["blp", "organisation_id"]
+
+blp = Blueprint("webhooks", __name__, url_prefix="/v1", description="Webhook subscriptions and deliveries")
+
+
+def organisation_id(session: Session) -> int:
+    """The request's organisation: the API key's (api.auth), else the seeded ``local`` one."""
+    try:
+        from ..auth import current_organisation_id
+    except ImportError:  # a build without the key module: one organisation
+        return local_organisation(session).id
+    found = current_organisation_id()
+    return found if found is not None else local_organisation(session).id
+
+
+def _subscription_dict(row: WebhookSubscription) -> dict[str, Any]:
+    return {"id": row.id, "url": row.url, "events": list(row.events), "description": row.description,
+            "created_at": row.created_at.isoformat(), "deliveries_href": f"/v1/webhooks/{row.id}/deliveries"}
+
+
+def _get(session: Session, subscription_id: int) -> WebhookSubscription:
+    row = session.get(WebhookSubscription, subscription_id)
+    if row is None or row.organisation_id != organisation_id(session):
+        raise ApiError(404, "webhook_not_found", f"there is no webhook subscription {subscription_id}",
+                       errors=[{"parameter": "webhook_id", "code": "webhook_not_found",
+                                "reason": f"no subscription with id {subscription_id}"}])
+    return row
+
+
+def _create_body() -> dict[str, Any]:
+    body, media_type, _charset = raw_body()
+    if media_type != JSON_MEDIA_TYPE:
+        raise ApiError(415, "unsupported_media_type", "send application/json",
+                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
+                                "reason": "expected application/json"}], extra={"choices": [JSON_MEDIA_TYPE]})
+    try:
+        loaded: dict[str, Any] = SubscriptionCreateSchema().load(read_json_document(body))
+    except ValidationError as exc:
+        raise validation_problem(exc) from None
+    return loaded
+
+
+@blp.route("/webhooks")
+class Webhooks(MethodView):
+    @blp.doc(requestBody={"required": True,
+                          "content": {JSON_MEDIA_TYPE: {"schema": SubscriptionCreateSchema}}})
+    @blp.response(201, SubscriptionCreatedSchema)
+    def post(self) -> Any:
+        """Subscribe a URL to events; the answer shows the signing secret, once."""
+        data = _create_body()
+        try:
+            resolve_target(data["url"], allow_private=settings().webhook_allow_private)
+        except TargetRefused as refused:
+            raise ApiError(422, refused.code, f"this URL may not receive webhooks: {refused.reason}",
+                           errors=[{"pointer": "/url", "code": refused.code, "reason": refused.reason}]
+                           ) from None
+        session = get_session()
+        row = WebhookSubscription(organisation_id=organisation_id(session), url=data["url"],
+                                  events=sorted(set(data["events"])),
+                                  secret=data.get("secret") or new_secret(),
+                                  description=data.get("description"))
+        session.add(row)
+        session.commit()
+        return json_response({**_subscription_dict(row), "secret": row.secret}, 201,
+                             {"Location": f"/v1/webhooks/{row.id}"})
+
+    @blp.response(200, SubscriptionListSchema)
+    def get(self) -> Any:
+        """The organisation's subscriptions (without their secrets)."""
+        session = get_session()
+        query = (select(WebhookSubscription)
+                 .where(WebhookSubscription.organisation_id == organisation_id(session))
+                 .order_by(WebhookSubscription.id))
+        return json_response({"items": [_subscription_dict(r) for r in session.scalars(query)]})
+
+
+@blp.route("/webhooks/<int:webhook_id>")
+class Webhook(MethodView):
+    @blp.response(200, SubscriptionSchema)
+    def get(self, webhook_id: int) -> Any:
+        """One subscription (without its secret)."""
+        return json_response(_subscription_dict(_get(get_session(), webhook_id)))
+
+    @blp.response(204)
+    def delete(self, webhook_id: int) -> Any:
+        """Delete the subscription and its deliveries; nothing more is sent to it."""
+        session = get_session()
+        row = _get(session, webhook_id)
+        session.execute(delete(WebhookDelivery).where(WebhookDelivery.subscription_id == row.id))
+        session.delete(row)
+        session.commit()
+        return Response(status=204)
+
+
+@blp.route("/webhooks/<int:webhook_id>/deliveries")
+class WebhookDeliveries(MethodView):
+    @blp.arguments(DeliveryQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
+    @blp.response(200, DeliveryListSchema)
+    def get(self, webhook_id: int, **query: Any) -> Any:
+        """Deliveries to this subscription, oldest first: attempts, status, last error."""
+        session = get_session()
+        row = _get(session, webhook_id)
+        limit = query.get("limit") or settings().page_limit
+        select_rows = (select(WebhookDelivery, WebhookEvent)
+                       .join(WebhookEvent, WebhookEvent.id == WebhookDelivery.event_pk)
+                       .where(WebhookDelivery.subscription_id == row.id)
+                       .order_by(WebhookDelivery.id).limit(limit + 1))
+        if query.get("cursor"):
+            select_rows = select_rows.where(WebhookDelivery.id > decode_cursor(query["cursor"]))
+        if query.get("status"):
+            select_rows = select_rows.where(WebhookDelivery.status == query["status"])
+        found = list(session.execute(select_rows))
+        page = found[:limit]
+        cursor = encode_cursor(page[-1][0].id) if len(found) > limit and page else None
+        return json_response({"items": [d.as_dict(e) for d, e in page], "next_cursor": cursor,
+                              "limit": limit})

@@ -1,0 +1,78 @@
+"""Webhook subscriptions and their deliveries, for validation and the OpenAPI document."""
+
+from __future__ import annotations
+
+from marshmallow import RAISE, Schema, fields, validate
+
+from ..webhooks.models import DELIVERY_STATUSES, EVENT_TYPES
+
+__all__ = [
+    "DeliveryListSchema",
+    "DeliveryQuerySchema",
+    "DeliverySchema",
+    "SubscriptionCreateSchema",
+    "SubscriptionCreatedSchema",
+    "SubscriptionListSchema",
+    "SubscriptionSchema",
+]
+
+
+class _Strict(Schema):
+    class Meta:
+        unknown = RAISE
+
+
+class SubscriptionCreateSchema(_Strict):
+    url = fields.String(required=True, validate=validate.Length(min=1, max=2000),
+                        metadata={"description": "http(s) URL the events are POSTed to"})
+    events = fields.List(fields.String(validate=validate.OneOf(EVENT_TYPES)), required=True,
+                         validate=validate.Length(min=1),
+                         metadata={"description": f"any of {', '.join(EVENT_TYPES)}"})
+    secret = fields.String(validate=validate.Length(min=16, max=200),
+                           metadata={"description": "signing secret; generated when left out"})
+    description = fields.String(allow_none=True, validate=validate.Length(max=200))
+
+
+class SubscriptionSchema(_Strict):
+    id = fields.Integer(required=True)
+    url = fields.String(required=True)
+    events = fields.List(fields.String(), required=True)
+    description = fields.String(required=True, allow_none=True)
+    created_at = fields.DateTime(required=True)
+    deliveries_href = fields.String(required=True)
+
+
+class SubscriptionCreatedSchema(SubscriptionSchema):
+    secret = fields.String(required=True, metadata={"description": "shown in this answer only"})
+
+
+class SubscriptionListSchema(_Strict):
+    items = fields.List(fields.Nested(SubscriptionSchema), required=True)
+
+
+class DeliveryQuerySchema(_Strict):
+    status = fields.String(validate=validate.OneOf(DELIVERY_STATUSES))
+    limit = fields.Integer(validate=validate.Range(min=1, max=500))
+    cursor = fields.String(metadata={"description": "opaque; the next_cursor of the previous page"})
+
+
+class DeliverySchema(_Strict):
+    id = fields.Integer(required=True)
+    subscription_id = fields.Integer(required=True)
+    event_id = fields.String(required=True, metadata={"description": "the Ohmtally-Event-Id header"})
+    event = fields.String(required=True, validate=validate.OneOf(EVENT_TYPES))
+    job_id = fields.Integer(required=True, allow_none=True)
+    status = fields.String(required=True, validate=validate.OneOf(DELIVERY_STATUSES))
+    attempts = fields.Integer(required=True)
+    created_at = fields.DateTime(required=True)
+    last_attempt_at = fields.DateTime(required=True, allow_none=True)
+    next_attempt_at = fields.DateTime(required=True, allow_none=True)
+    last_status_code = fields.Integer(required=True, allow_none=True)
+    last_error = fields.String(required=True, allow_none=True)
+    delivered_at = fields.DateTime(required=True, allow_none=True)
+
+
+class DeliveryListSchema(_Strict):
+    items = fields.List(fields.Nested(DeliverySchema), required=True)
+    next_cursor = fields.String(required=True, allow_none=True)
+    limit = fields.Integer(required=True)
