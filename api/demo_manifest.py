@@ -3,7 +3,7 @@
 ``examples/demo/manifest.json``::
 
     {"job": {"reference": "...", "site": "...", "ruleset": "bs7671-2018-a2"},
-     "uploads": [{"file": "board-db1.csv", "content_type": "text/csv",
+     "uploads": [{"file": "db1-meter-export.csv", "content_type": "text/csv",
                   "adapter": "csv", "profile": null}, ...]}
 
 File paths are relative to the manifest's folder. A bad manifest raises

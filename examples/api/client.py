@@ -16,6 +16,8 @@ from typing import Any
 import httpx
 
 DEMO = Path(__file__).resolve().parent.parent / "demo"
+# The demo meter export is in an invented layout: name its mapping profile.
+METER = {"profile": "example-semicolon-decimal-comma"}
 
 
 def show(title: str, response: httpx.Response) -> Any:
@@ -41,8 +43,8 @@ def main() -> None:
         circuits = [{"board": "DB1", "circuit": "1", "device_kind": "breaker", "device_curve": "B",
                      "device_rating_a": 32, "zs_ohm": "0.62 Ω", "polarity_ok": True}]
         show("verify JSON", api.post("/v1/verify", json={"circuits": circuits}))
-        show("verify CSV", api.post("/v1/verify", content=(DEMO / "board-db1.csv").read_bytes(),
-                                    headers={"Content-Type": "text/csv"}))
+        show("verify CSV", api.post("/v1/verify", content=(DEMO / "db1-meter-export.csv").read_bytes(),
+                                    headers={"Content-Type": "text/csv"}, params=METER))
         show("a bad field (problem+json)", api.post("/v1/verify", json={"circuits": [{"board": "DB1",
                                                                                       "circuit": "1",
                                                                                       "zs_ohm": True}]}))
@@ -54,10 +56,10 @@ def main() -> None:
         show("the job", api.get(f"/v1/jobs/{job['id']}"))
 
         posted = show("readings: CSV", api.post(f"/v1/jobs/{job['id']}/readings",
-                                                content=(DEMO / "board-db1.csv").read_bytes(),
-                                                headers={"Content-Type": "text/csv"}))
+                                                content=(DEMO / "db1-meter-export.csv").read_bytes(),
+                                                headers={"Content-Type": "text/csv"}, params=METER))
         show("readings: lines", api.post(f"/v1/jobs/{job['id']}/readings",
-                                         content=(DEMO / "board-db2.log").read_bytes(),
+                                         content=(DEMO / "db2-db3-logger.log").read_bytes(),
                                          headers={"Content-Type": "text/plain"}, params={"adapter": "lines"}))
         show("circuits with history", api.get(f"/v1/jobs/{job['id']}/circuits", params={"history": "true"}))
         show("verdicts", api.get(f"/v1/jobs/{job['id']}/verdicts"))

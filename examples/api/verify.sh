@@ -9,8 +9,8 @@ curl -sS -X POST "$OHMTALLY_URL/v1/verify" -H "Content-Type: application/json" -
                "ir_le_mohm": "> 299 MΩ", "polarity_ok": true}]}
 JSON
 echo
-curl -sS -X POST "$OHMTALLY_URL/v1/verify?adapter=csv" -H "Content-Type: text/csv" \
-  --data-binary @"$DEMO_DIR/board-db1.csv"
+curl -sS -X POST "$OHMTALLY_URL/v1/verify?adapter=csv&profile=example-semicolon-decimal-comma" -H "Content-Type: text/csv" \
+  --data-binary @"$DEMO_DIR/db1-meter-export.csv"
 echo
 curl -sS -X POST "$OHMTALLY_URL/v1/verify?adapter=lines" -H "Content-Type: text/plain" \
-  --data-binary @"$DEMO_DIR/board-db2.log"
+  --data-binary @"$DEMO_DIR/db2-db3-logger.log"

@@ -161,11 +161,12 @@ def test_demo_csv_through_api_equals_offline_adapter(client: FlaskClient) -> Non
     from adapters import AdapterOptions, collect
     from adapters.registry import get_adapter
 
-    data = (DEMO / "board-db1.csv").read_bytes()
-    body = client.post("/v1/verify", data=data, content_type="text/csv").get_json()
+    data = (DEMO / "db1-meter-export.csv").read_bytes()
+    profile = "example-semicolon-decimal-comma"
+    body = client.post(f"/v1/verify?profile={profile}", data=data, content_type="text/csv").get_json()
     import io
 
-    got = collect(get_adapter("csv").read(io.BytesIO(data), AdapterOptions()))
+    got = collect(get_adapter("csv").read(io.BytesIO(data), AdapterOptions(profile=profile)))
     assert body["verdicts"] == [v.as_dict() for v in verify(got.records)]
 
 
