@@ -100,7 +100,11 @@ class CheckResult:
 
 def _round(value: float | None) -> float | None:
     """Six significant figures: far below any meter's resolution, free of float noise."""
-    return None if value is None else float(f"{value:.6g}")
+    if value is None:
+        return None
+    if abs(value) < 1e-9:  # a difference of two equal readings, not a measurement
+        return 0.0
+    return float(f"{value:.6g}")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

@@ -114,6 +114,14 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
 def _against_ze(view: CircuitView, ctx: Context, zs: Reading, r1r2: float, basis: str, said: str,
                 consensus: float | None) -> Iterator[CheckResult]:
     origin = _origin_ze(view, ctx)
+    if view.raw("earthing") == "TT" and not (
+        isinstance(origin, tuple) and origin[1] in ("record", f"board {view.record.board}")
+    ):
+        # On TT the fault loop returns through this installation's own electrode (RA),
+        # not through the supply's earth: a Ze inherited from an upstream TN board says
+        # nothing about it. Only a Ze measured on this TT board compares; else the check
+        # does not apply (loop_impedance and earth_electrode judge the TT circuit).
+        return
     if isinstance(origin, FeederProblem):
         yield incomplete(CHECK, ["ze_ohm"], basis=basis, inputs={"error": origin.as_dict()},
                          detail=f"Ze at the origin cannot be found: {origin.message}")
