@@ -113,3 +113,17 @@ def test_no_zs_means_not_applicable() -> None:
     """Without Zs there is nothing to cross-check (loop_impedance reports the missing Zs)."""
     [verdict] = run([{"board": "B", "circuit": "1", "r1_r2_ohm": 0.5, "ze_ohm": 0.35}]).values()
     assert loop(verdict) == {}
+
+
+def test_tt_sub_board_does_not_inherit_the_origin_ze() -> None:
+    """A TT board fed from a TN-C-S origin: its loop runs through its own electrode (BS 7671 411.5),
+    so Zs is not compared with the origin's Ze + R1+R2; a Ze measured on the TT board itself is."""
+    rows = [{"board": "DB1", "circuit": "1", "earthing": "TN-C-S", "ze_ohm": 0.22, "r1_r2_ohm": 0.16,
+             "zs_ohm": 0.38, "circuit_role": "distribution"},
+            {"board": "DB3", "circuit": "1", "earthing": "TT", "board_fed_from": "DB1/1",
+             "r1_r2_ohm": 0.24, "zs_ohm": 71.3, "ra_ohm": 68}]
+    assert "ze_plus_r1r2" not in loop(run(rows)[("DB3", "1")])
+    rows[1]["ze_ohm"] = 71.0  # measured on the TT board: now it is the loop's own Ze
+    check = loop(run(rows)[("DB3", "1")])["ze_plus_r1r2"]
+    assert check.outcome == "pass"
+    assert check.inputs["ze_source"] == "record"
