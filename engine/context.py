@@ -8,12 +8,15 @@ Invariants:
   record of the call, indexed by key and by board, plus a cache that board-level
   computations (feeder chains, a board's Ze consensus) fill on first use. It is
   per call: nothing is shared between calls, so ``verify`` stays pure.
+- ``records``, ``by_board`` and ``cache`` are typed as mappings so that
+  :func:`engine.stream.verify_stream` can layer one board's records over the
+  few it keeps from earlier boards (``collections.ChainMap``) without copying.
 """
 
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -65,9 +68,9 @@ class CircuitView:
 @dataclass(slots=True)
 class Context:
     ruleset: Ruleset
-    records: dict[tuple[str, str], CircuitRecord]
-    by_board: dict[str, list[CircuitRecord]]
-    cache: dict[Any, Any] = field(default_factory=dict)
+    records: Mapping[tuple[str, str], CircuitRecord]
+    by_board: Mapping[str, list[CircuitRecord]]
+    cache: MutableMapping[Any, Any] = field(default_factory=dict)
 
     @classmethod
     def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset) -> Context:

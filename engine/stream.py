@@ -1,0 +1,126 @@
+"""``verify_stream(records, ruleset)``: verdicts for inputs too large to hold, one board at a time.
+
+:func:`engine.verify` needs every record of the call, because some checks look
+across a board (the Ze consensus of ``loop_consistency``) or up the feeder
+chain (``voltage_drop`` from the origin, ``loop_consistency``'s origin Ze).
+A year's export does not fit in memory, but it is nearly always grouped by
+board, so this verifies each run of consecutive records of one board as soon
+as the run ends, and keeps from it only what later boards can ask for.
+
+What is kept from a finished board (few records whatever the input's size):
+- its **distribution circuits** (``circuit_role = distribution``): the only
+  records a later board's ``board_fed_from`` is resolved against. DESIGN.md
+  says a circuit that feeds a board is a distribution circuit; mark it so;
+- for a board that has one, the feeder it names itself (one record per
+  distinct ``board_fed_from``, so a chain can be followed through it, and a
+  conflict is still seen), and its Ze summary (the median of its recorded Ze,
+  what a sub-board below takes as the origin's Ze).
+
+Invariants:
+- On input grouped by board, with feeder circuits marked ``distribution``, the
+  verdicts equal ``verify()``'s on the same records (``tests/engine/test_stream.py``).
+- A board whose feeder chain names a record not seen yet (a sub-board listed
+  before the board that feeds it) is held back and verified at the end of the
+  stream, with everything kept by then: its verdicts come after the others.
+  Otherwise verdicts come in input order, board after board.
+- A board that comes back after other boards is verified again as a new run:
+  its board-level checks see only that run. Memory is one board, the boards
+  held back, and the kept records.
+"""
+
+from __future__ import annotations
+
+from collections import ChainMap
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass, field
+from typing import Any
+
+from .board_consistency import BoardZe, board_ze
+from .context import Context
+from .feeders import FeederProblem, feeder_chain
+from .records import CircuitRecord
+from .results import Verdict
+from .ruleset import Ruleset, load_ruleset
+from .verify import verify_one
+
+__all__ = ["verify_stream"]
+
+# The cache key engine.board_consistency fills; kept boards are pre-filled under it.
+_ZE_KEY = "board_consistency.ze"
+
+
+@dataclass(slots=True)
+class _Kept:
+    """What later boards may ask of earlier ones."""
+
+    records: dict[tuple[str, str], CircuitRecord] = field(default_factory=dict)
+    by_board: dict[str, list[CircuitRecord]] = field(default_factory=dict)
+    cache: dict[Any, Any] = field(default_factory=dict)
+
+    def context(self, run: list[CircuitRecord], rules: Ruleset) -> Context:
+        """One board's run layered over the kept records (nothing copied)."""
+        own = Context.build(run, rules)
+        return Context(ruleset=rules, records=ChainMap(dict(own.records), self.records),
+                       by_board=ChainMap(dict(own.by_board), self.by_board),
+                       cache=ChainMap({}, self.cache))
+
+    def keep(self, board: str, ctx: Context) -> None:
+        """Remember the board's distribution circuits, its own feeder and its Ze summary."""
+        own = ctx.by_board.get(board, [])
+        feeders = [r for r in own if r.circuit_role == "distribution"]
+        if not feeders:
+            return
+        stub = list(feeders)
+        named = {r.board_fed_from.strip() for r in feeders if r.board_fed_from}
+        for record in own:
+            text = record.board_fed_from.strip() if record.board_fed_from else ""
+            if text and text not in named:
+                named.add(text)
+                stub.append(record)
+        for record in feeders:
+            self.records[record.key] = record
+        self.by_board[board] = stub
+        full = board_ze(board, ctx)  # per-circuit estimates matter only on the board itself
+        self.cache[(_ZE_KEY, board)] = BoardZe(board=board, consensus_ohm=full.consensus_ohm,
+                                               measured_ze_ohm=full.measured_ze_ohm,
+                                               min_circuits=full.min_circuits)
+
+
+def _runs(records: Iterable[CircuitRecord]) -> Iterator[list[CircuitRecord]]:
+    run: list[CircuitRecord] = []
+    for record in records:
+        if run and record.board != run[0].board:
+            yield run
+            run = []
+        run.append(record)
+    if run:
+        yield run
+
+
+def _waits_for_feeder(board: str, ctx: Context) -> bool:
+    chain = feeder_chain(board, ctx)
+    return isinstance(chain, FeederProblem) and chain.code == "feeder_missing"
+
+
+def _verdicts(ctx: Context) -> Iterator[Verdict]:
+    own = ctx.records.maps[0] if isinstance(ctx.records, ChainMap) else ctx.records
+    for record in own.values():
+        yield verify_one(record, ctx)
+
+
+def verify_stream(records: Iterable[CircuitRecord],
+                  ruleset: Ruleset | str | None = None) -> Iterator[Verdict]:
+    """Verdicts board by board, for records grouped by board (see the module's notes)."""
+    rules = load_ruleset(ruleset)
+    kept = _Kept()
+    held: list[list[CircuitRecord]] = []
+    for run in _runs(records):
+        board = run[0].board
+        ctx = kept.context(run, rules)
+        kept.keep(board, ctx)
+        if _waits_for_feeder(board, ctx):
+            held.append(run)
+            continue
+        yield from _verdicts(ctx)
+    for run in held:
+        yield from _verdicts(kept.context(run, rules))
