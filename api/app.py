@@ -8,7 +8,8 @@ Invariants:
   leaves as ``application/problem+json`` from :meth:`OhmtallyApi.handle_http_exception`
   or :func:`_api_error`; no traceback reaches a client.
 - ``OHMTALLY_AUTH=on`` fails closed: until an API-key module (``api.auth``)
-  is installed every route but ``/v1/health`` answers 401.
+  is installed every route but ``/v1/health`` answers 401. ``api.auth`` also
+  resolves each request's organisation, rate-limits and handles Idempotency-Key.
 """
 
 from __future__ import annotations
@@ -84,12 +85,12 @@ def _api_error(error: ApiError) -> Any:
 
 
 def _init_auth(app: Flask, settings: Settings) -> None:
-    if not settings.auth:
-        return
-    if importlib.util.find_spec("api.auth") is not None:
+    if importlib.util.find_spec("api.auth") is not None:  # it also handles OHMTALLY_AUTH=off
         from importlib import import_module
 
         import_module("api.auth").init_app(app)
+        return
+    if not settings.auth:
         return
 
     @app.before_request

@@ -155,7 +155,10 @@ def run(args: argparse.Namespace) -> int:
         job, posts, verdicts = post_demo(base, manifest)
         sys.stdout.write(format_report(job, posts, verdicts))
         print(f"\nAPI running at {base}/v1 — job {job['id']}: {base}/v1/jobs/{job['id']}/verdicts"
-              f"\nOpenAPI: {base}/v1/openapi.json")
+              f"\nOpenAPI: {base}/v1/openapi.json"
+              "\nThis demo server runs with OHMTALLY_AUTH=off (loopback only). For a server with keys:"
+              "\n  ohmtally keys create --org 'My firm' --name 'field logger' --scope read,write"
+              "\n  then send: Authorization: Bearer <the printed key>")
         status = EXIT_OK if all(code == 200 for _n, code, _b in posts) else EXIT_BAD_INPUT
         if args.no_wait:
             return status

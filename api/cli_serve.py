@@ -29,8 +29,9 @@ def register(sub: Any) -> None:
     p.add_argument("--bind", default=DEFAULT_BIND, metavar="HOST:PORT",
                    help=f"address to listen on (default {DEFAULT_BIND}; unix:PATH for a socket)")
     p.add_argument("--workers", type=int, default=2, metavar="N", help="worker processes (default 2)")
-    p.add_argument("--timeout", type=int, default=60, metavar="S",
-                   help="seconds before a silent worker is restarted (default 60)")
+    p.add_argument("--timeout", type=int, default=None, metavar="S",
+                   help="seconds a request may run before its worker is restarted "
+                        "(default OHMTALLY_REQUEST_TIMEOUT_S, 60)")
     p.set_defaults(func=run)
 
 
@@ -66,13 +67,14 @@ def run(args: argparse.Namespace) -> int:
     from .db import SchemaNotCurrent
     from .settings import SettingsError, load_settings
 
-    if args.workers < 1 or args.timeout < 1:
-        print("ohmtally serve: --workers and --timeout must be at least 1", file=sys.stderr)
-        return EXIT_USAGE
     try:
         settings = load_settings()
     except SettingsError as exc:
         print(f"ohmtally serve: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    timeout = settings.request_timeout_s if args.timeout is None else args.timeout
+    if args.workers < 1 or timeout < 1:
+        print("ohmtally serve: --workers and --timeout must be at least 1", file=sys.stderr)
         return EXIT_USAGE
     if not settings.auth and not is_loopback_bind(args.bind):
         print(f"ohmtally serve: refusing OHMTALLY_AUTH=off on {args.bind}: without API keys the "
@@ -84,7 +86,7 @@ def run(args: argparse.Namespace) -> int:
     except SchemaNotCurrent as exc:
         print(f"ohmtally serve: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
-    options = {"bind": [args.bind], "workers": args.workers, "timeout": args.timeout,
+    options = {"bind": [args.bind], "workers": args.workers, "timeout": timeout,
                "accesslog": None, "errorlog": "-", "loglevel": settings.log_level.lower(),
                "proc_name": "ohmtally", "graceful_timeout": 10}
     _application(create_app, options).run()

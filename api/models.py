@@ -75,7 +75,8 @@ class Job(Base):
 
 class Upload(Base):
     __tablename__ = "uploads"
-    __table_args__ = (UniqueConstraint("job_id", "idempotency_key", name="uq_uploads_job_idempotency_key"),)
+    __table_args__ = (UniqueConstraint("job_id", "idempotency_key", name="uq_uploads_job_idempotency_key"),
+                      Index("ix_uploads_job_sha256", "job_id", "sha256"))  # migration 0003
 
     id: Mapped[int] = mapped_column(primary_key=True)
     job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
@@ -116,3 +117,8 @@ class FieldHistory(Base):
     upload_id: Mapped[int] = mapped_column(ForeignKey("uploads.id"), index=True)
     location: Mapped[str | None] = mapped_column(String(100), default=None)  # "line 12", "/circuits/3"
     recorded_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+# API keys and idempotency records live in their own module on this Base (migration 0003);
+# importing it here puts them in Base.metadata wherever the models are loaded.
+from . import models_auth as _models_auth  # noqa: E402,F401

@@ -8,6 +8,9 @@ Invariants:
   PostgreSQL; SQLite's ``BEGIN IMMEDIATE`` in ``api.db``), so two writers to
   one job apply one after the other and lose nothing.
 - A job's records are loaded in one query (no N+1); its history in one more.
+- Tenancy: inside a request every job query is limited to the request's
+  organisation (``api.auth.current_organisation_id``); another organisation's
+  job is "there is no job N", word for word what a missing job gets.
 """
 
 from __future__ import annotations
@@ -17,6 +20,7 @@ import binascii
 import hashlib
 import json
 from collections.abc import Iterable, Sequence
+from datetime import timedelta
 from typing import Any
 
 from sqlalchemy import select
@@ -33,6 +37,7 @@ __all__ = [
     "create_job",
     "decode_cursor",
     "encode_cursor",
+    "find_recent_duplicate",
     "find_upload_by_key",
     "get_job",
     "get_upload",
@@ -59,11 +64,19 @@ def local_organisation(session: Session) -> Organisation:
     return found
 
 
+def _tenant() -> int | None:
+    from .auth import current_organisation_id
+
+    return current_organisation_id()
+
+
 def create_job(session: Session, *, reference: str, site: str, ruleset: str,
                external_ref: str | None, organisation: Organisation | None = None) -> Job:
-    org = organisation or local_organisation(session)
+    org_id = organisation.id if organisation is not None else _tenant()
+    if org_id is None:
+        org_id = local_organisation(session).id
     now = utcnow()
-    job = Job(organisation_id=org.id, reference=reference, site=site, ruleset=ruleset,
+    job = Job(organisation_id=org_id, reference=reference, site=site, ruleset=ruleset,
               external_ref=external_ref, created_at=now, updated_at=now)
     session.add(job)
     session.flush()
@@ -93,6 +106,9 @@ def list_jobs(session: Session, *, limit: int, cursor: str | None,
               reference: str | None) -> tuple[list[Job], str | None]:
     """One page in creation order, and the cursor of the next page (``None`` at the end)."""
     query = select(Job).order_by(Job.id).limit(limit + 1)
+    tenant = _tenant()
+    if tenant is not None:
+        query = query.where(Job.organisation_id == tenant)
     if cursor:
         query = query.where(Job.id > decode_cursor(cursor))
     if reference is not None:
@@ -105,7 +121,8 @@ def list_jobs(session: Session, *, limit: int, cursor: str | None,
 
 def get_job(session: Session, job_id: int) -> Job:
     job = session.get(Job, job_id)
-    if job is None:
+    tenant = _tenant()
+    if job is None or (tenant is not None and job.organisation_id != tenant):
         raise ApiError(404, "job_not_found", f"there is no job {job_id}",
                        errors=[{"parameter": "job_id", "code": "job_not_found",
                                 "reason": f"no job with id {job_id}"}])
@@ -114,10 +131,30 @@ def get_job(session: Session, job_id: int) -> Job:
 
 def lock_job(session: Session, job_id: int) -> Job:
     """The job, locked for this transaction against other writers."""
-    job = session.scalars(select(Job).where(Job.id == job_id).with_for_update()).first()
+    query = select(Job).where(Job.id == job_id)
+    tenant = _tenant()
+    if tenant is not None:
+        query = query.where(Job.organisation_id == tenant)
+    job = session.scalars(query.with_for_update()).first()
     if job is None:
         return get_job(session, job_id)
     return job
+
+
+def find_recent_duplicate(session: Session, job: Job, *, sha256: str, content_type: str,
+                          window_s: int) -> Upload | None:
+    """The job's latest upload if it is this very body, merged, within ``window_s`` seconds.
+
+    Only the *latest*: re-sending an older body after another upload is a
+    deliberate correction (later wins) and must merge again.
+    """
+    latest = session.scalars(select(Upload).where(Upload.job_id == job.id)
+                             .order_by(Upload.id.desc()).limit(1)).first()
+    if (latest is None or latest.sha256 != sha256 or latest.status != "merged"
+            or latest.content_type != content_type
+            or utcnow() - latest.received_at > timedelta(seconds=window_s)):
+        return None
+    return latest
 
 
 def find_upload_by_key(session: Session, job: Job, idempotency_key: str) -> Upload | None:

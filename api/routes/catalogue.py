@@ -19,6 +19,7 @@ blp = Blueprint("catalogue", __name__, url_prefix="/v1", description="Health, ru
 
 @blp.route("/health")
 class Health(MethodView):
+    @blp.doc(security=[])  # the one route without an API key (api.auth.PUBLIC_PATHS)
     @blp.response(200, HealthSchema)
     def get(self) -> Any:
         """Liveness and version (no auth, no database)."""

@@ -14,6 +14,7 @@ from ..bodies import verify_body
 from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
 from ..db import get_session
 from ..errors import ApiError
+from ..idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with
 from ..models import Job
 from ..repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
 from ..schemas.jobs import (
@@ -54,7 +55,8 @@ def _json_body(schema: Any) -> dict[str, Any]:
 
 @blp.route("/jobs")
 class Jobs(MethodView):
-    @blp.doc(requestBody={"required": True, "content": {JSON_MEDIA_TYPE: {"schema": JobCreateSchema}}})
+    @blp.doc(requestBody={"required": True, "content": {JSON_MEDIA_TYPE: {"schema": JobCreateSchema}}},
+             parameters=[IDEMPOTENCY_PARAMETER_DOC])
     @blp.response(201, JobSchema)
     def post(self) -> Any:
         """Create a job: reference, site, and the ruleset its verdicts use."""
@@ -63,8 +65,7 @@ class Jobs(MethodView):
         session = get_session()
         job = create_job(session, reference=data["reference"], site=data["site"], ruleset=ruleset.id,
                          external_ref=data.get("external_ref"))
-        session.commit()
-        return json_response(job_dict(job), 201, {"Location": f"/v1/jobs/{job.id}"})
+        return commit_with(session, json_response(job_dict(job), 201, {"Location": f"/v1/jobs/{job.id}"}))
 
     @blp.arguments(JobListQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.response(200, JobListSchema)

@@ -9,10 +9,16 @@ Invariants:
   concurrent posts to one job apply in turn.
 - The verdicts returned are those of the circuits this upload touched,
   computed over all the job's records (board-level checks need the board).
-- A post with an ``Idempotency-Key`` the job has seen is answered from the
-  first upload (``Idempotent-Replayed: true``), never merged or stored twice;
-  the same key with a different body is a 422 (the IETF httpapi draft on the
-  Idempotency-Key header). A logger that lost an answer can resend safely.
+- A post with an ``Idempotency-Key`` the organisation has seen is answered
+  with the first response (``Idempotent-Replayed: true``, ``api.idempotency``),
+  never merged or stored twice; the same key with a different body is a 409
+  (as the issue asks; the IETF httpapi draft suggests 422). Uploads from before
+  migration 0003 are still found by their per-job key here.
+- Without a key, an exact re-post of the job's latest upload within
+  ``OHMTALLY_DUPLICATE_WINDOW_S`` is answered 200 with ``duplicate_of`` and
+  merges nothing (a logger's blind resend must not double the history).
+- One transaction: the upload is archived and every accepted value merged,
+  or (on any error or a killed process) nothing changes at all.
 """
 
 from __future__ import annotations
@@ -31,8 +37,11 @@ from engine import NOTICE, verify
 from ..body_intake import read_body
 from ..db import get_session
 from ..errors import ApiError
+from ..idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with, remember_problem
+from ..limits import check_row_count, check_text_limits
 from ..models import Job, Upload
 from ..repository import (
+    find_recent_duplicate,
     find_upload_by_key,
     get_job,
     get_upload,
@@ -62,10 +71,7 @@ def upload_dict(upload: Upload) -> dict[str, Any]:
 
 IDEMPOTENCY_HEADER = "Idempotency-Key"
 _KEY = re.compile(r"^[\x21-\x7e]{1,200}$")  # visible ASCII, as a header value can carry safely
-_KEY_DOC = {"in": "header", "name": IDEMPOTENCY_HEADER, "required": False,
-            "schema": {"type": "string", "maxLength": 200},
-            "description": "resending the same body with the same key is answered from the first "
-                           "upload, not merged twice"}
+_KEY_DOC = IDEMPOTENCY_PARAMETER_DOC
 
 
 def _idempotency_key() -> str | None:
@@ -80,11 +86,11 @@ def _idempotency_key() -> str | None:
     return key
 
 
-def _replay(job: Job, earlier: Upload, body: bytes) -> Response:
+def _replay(job: Job, earlier: Upload, body: bytes, *, duplicate: bool = False) -> Response:
     session = get_session()
     ref = {"id": earlier.id, "sha256": earlier.sha256, "size": earlier.size}
     if hashlib.sha256(body).hexdigest() != earlier.sha256:
-        raise ApiError(422, "idempotency_key_reused",
+        raise ApiError(409, "idempotency_key_reused",
                        f"upload {earlier.id} of job {job.id} used this Idempotency-Key with another body",
                        errors=[{"parameter": IDEMPOTENCY_HEADER, "code": "idempotency_key_reused",
                                 "reason": "a key names one body"}], extra={"upload": ref})
@@ -95,9 +101,11 @@ def _replay(job: Job, earlier: Upload, body: bytes) -> Response:
     touched = upload_circuit_keys(session, earlier)
     all_verdicts = verify(job_records(session, job), resolve_ruleset(job.ruleset))
     verdicts = [v for v in all_verdicts if v.key in touched]
-    return json_response({"accepted": earlier.accepted, "rejected": earlier.rejected, "upload": ref,
-                          "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE},
-                         headers={"Idempotent-Replayed": "true"})
+    out: dict[str, Any] = {"accepted": earlier.accepted, "rejected": earlier.rejected, "upload": ref,
+                           "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}
+    if duplicate:
+        return json_response({**out, "duplicate_of": earlier.id})
+    return json_response(out, headers={"Idempotent-Replayed": "true"})
 
 
 @blp.route("/jobs/<int:job_id>/readings")
@@ -115,11 +123,17 @@ class JobReadings(MethodView):
             earlier = find_upload_by_key(session, job, key)
             if earlier is not None:
                 return _replay(job, earlier, body)
-        upload = store_upload(session, job, body=body,
-                              content_type=_full_content_type(media_type, charset),
+        content_type = _full_content_type(media_type, charset)
+        if key is None:
+            same = find_recent_duplicate(session, job, sha256=hashlib.sha256(body).hexdigest(),
+                                         content_type=content_type, window_s=settings().duplicate_window_s)
+            if same is not None:
+                return _replay(job, same, body, duplicate=True)
+        upload = store_upload(session, job, body=body, content_type=content_type,
                               adapter=query.get("adapter"), profile=query.get("profile"),
                               idempotency_key=key)
         try:
+            check_text_limits(body, media_type)
             intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
                                profile=query.get("profile"), profile_dir=settings().profile_dir)
             if intake.ruleset and intake.ruleset != job.ruleset:
@@ -128,22 +142,23 @@ class JobReadings(MethodView):
                                f"{intake.ruleset!r} (change the job, or leave ruleset out)",
                                errors=[{"pointer": "/ruleset", "code": "ruleset_mismatch",
                                         "reason": f"the job's ruleset is {job.ruleset!r}"}])
+            check_row_count(len(intake.items))
         except ApiError as problem:
             upload.rejected = problem.errors
-            session.commit()  # the body is kept even though nothing in it was taken
             problem.extra["upload"] = {"id": upload.id, "sha256": upload.sha256, "size": upload.size}
+            remember_problem(problem)
+            session.commit()  # the body is kept even though nothing in it was taken
             raise
         upload.adapter = intake.adapter
         accepted, touched = merge_items(session, job, upload, intake.items)
         upload.status, upload.accepted, upload.rejected = "merged", accepted, intake.rejected
         records = job_records(session, job)
-        session.commit()
         wanted = set(touched)
         verdicts = [v for v in verify(records, resolve_ruleset(job.ruleset)) if v.key in wanted]
-        return json_response({
+        return commit_with(session, json_response({  # the answer is committed with the merge
             "accepted": accepted, "rejected": intake.rejected,
             "upload": {"id": upload.id, "sha256": upload.sha256, "size": upload.size},
-            "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE})
+            "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}))
 
 
 def _full_content_type(media_type: str, charset: str | None) -> str:

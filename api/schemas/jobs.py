@@ -120,6 +120,9 @@ class ReadingsResponseSchema(_Strict):
     verdicts = fields.List(fields.Nested(VerdictSchema), required=True,
                            metadata={"description": "verdicts of the circuits this upload touched"})
     notice = fields.String(required=True)
+    duplicate_of = fields.Integer(metadata={
+        "description": "present when this exact body was the job's latest upload moments ago: "
+                       "nothing merged; the answer is that upload's"})
 
 
 class JobVerdictsSchema(_Strict):

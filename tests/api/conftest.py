@@ -29,7 +29,7 @@ from api.db import upgrade
 from tests.api.openapi_check import check_response
 
 POSTGRES_ENV = "OHMTALLY_TEST_POSTGRES_URL"
-_TABLES = ("field_history", "circuits", "uploads", "jobs")
+_TABLES = ("idempotency_records", "api_keys", "field_history", "circuits", "uploads", "jobs")
 
 
 def pytest_generate_tests(metafunc: pytest.Metafunc) -> None:

@@ -202,7 +202,7 @@ def test_idempotency_key_resend_is_answered_not_merged_twice(client: FlaskClient
     assert len(history["zs_ohm"]) == 1
     other = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data=raw + b"board=DB1 circuit=2 zs=1\n",
                         content_type="text/plain", headers=headers)
-    assert other.status_code == 422 and other.get_json()["code"] == "idempotency_key_reused"
+    assert other.status_code == 409 and other.get_json()["code"] == "idempotency_key_reused"
     bad = client.post(f"/v1/jobs/{job}/readings", data=raw, content_type="text/plain",
                       headers={"Idempotency-Key": "has space"})
     assert bad.status_code == 400 and bad.get_json()["code"] == "bad_idempotency_key"

@@ -1,0 +1,143 @@
+"""``ohmtally keys create|list|revoke``: API keys per organisation, administered on the server host.
+
+Invariants:
+- ``create`` prints the secret once, on stdout, and nothing else ever shows
+  it again: the database holds only its SHA-256 (``api.keys``). The
+  organisation is created on first use of its name (slug = lower-case name).
+- ``list`` never prints a secret or a hash: id, organisation, name, display
+  prefix, scopes, created, expires, revoked, last used.
+- ``revoke`` takes effect on the next request; revoking twice is not an error.
+- The database is ``--database-url`` / ``OHMTALLY_DATABASE_URL`` / the
+  instance SQLite file, like ``ohmtally db upgrade``; it must be migrated.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from typing import Any
+
+from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+
+__all__ = ["register"]
+
+
+def register(sub: Any) -> None:
+    p = sub.add_parser("keys", help="API keys: create, list, revoke")
+    inner = p.add_subparsers(dest="keys_command", metavar="ACTION", required=True)
+    create = inner.add_parser("create", help="make a key; its secret is shown once")
+    create.add_argument("--org", required=True, metavar="NAME", help="organisation (created if new)")
+    create.add_argument("--name", required=True, metavar="N",
+                        help="what the key is for (e.g. 'van 3 logger')")
+    create.add_argument("--scope", default="read", metavar="LIST",
+                        help="comma-separated: read, write, admin (default read)")
+    create.add_argument("--expires", default=None, metavar="AGE",
+                        help="12h, 30d, 2w or never (default never)")
+    create.set_defaults(func=_create)
+    listing = inner.add_parser("list", help="every key, without secrets")
+    listing.add_argument("--org", default=None, metavar="NAME", help="only this organisation's keys")
+    listing.set_defaults(func=_list)
+    revoke = inner.add_parser("revoke", help="stop a key working")
+    revoke.add_argument("id", type=int, metavar="ID")
+    revoke.set_defaults(func=_revoke)
+    for action in (create, listing, revoke):
+        action.add_argument("--database-url", help="SQLAlchemy URL (default: OHMTALLY_DATABASE_URL, "
+                            "else the SQLite file in the instance folder)")
+
+
+def _session(args: argparse.Namespace) -> Any:
+    from sqlalchemy.orm import Session
+
+    from .cli_db import resolve_database_url
+    from .db import check_schema, make_engine
+
+    url = resolve_database_url(args.database_url)
+    engine = make_engine(url)
+    check_schema(engine, url)
+    return Session(engine, expire_on_commit=False)
+
+
+def _open(args: argparse.Namespace) -> Any:
+    from .db import SchemaNotCurrent
+
+    try:
+        return _session(args)
+    except SchemaNotCurrent as exc:
+        print(f"ohmtally keys: {exc}", file=sys.stderr)
+        return None
+
+
+def _create(args: argparse.Namespace) -> int:
+    from .keys import KeySpecError, create_key, organisation_named, parse_expiry, parse_scopes
+    from .models import utcnow
+
+    try:
+        scopes = parse_scopes(args.scope)
+        expires_at = parse_expiry(args.expires, utcnow())
+    except KeySpecError as exc:
+        print(f"ohmtally keys create: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    session = _open(args)
+    if session is None:
+        return EXIT_BAD_INPUT
+    with session:
+        try:
+            org = organisation_named(session, args.org, create=True)
+        except KeySpecError as exc:
+            print(f"ohmtally keys create: {exc}", file=sys.stderr)
+            return EXIT_USAGE
+        assert org is not None
+        made = create_key(session, org, name=args.name, scopes=scopes, expires_at=expires_at)
+        session.commit()
+        key = made.key
+        print(made.secret)
+        expiry = key.expires_at.isoformat(timespec="seconds") if key.expires_at else "never"
+        print(f"key {key.id} for organisation {org.slug!r} ({key.name}), scopes {key.scopes}, expires "
+              f"{expiry}. The secret above is shown only now: store it in the client's secret store. "
+              "Use it as: Authorization: Bearer <secret>", file=sys.stderr)
+    return EXIT_OK
+
+
+def _when(value: Any) -> str:
+    return value.isoformat(timespec="seconds") if value is not None else "-"
+
+
+def _list(args: argparse.Namespace) -> int:
+    from sqlalchemy import select
+
+    from .models import Organisation
+    from .models_auth import ApiKey
+
+    session = _open(args)
+    if session is None:
+        return EXIT_BAD_INPUT
+    with session:
+        query = select(ApiKey, Organisation.slug).join(Organisation).order_by(ApiKey.id)
+        if args.org:
+            from .keys import slugify
+
+            query = query.where(Organisation.slug == slugify(args.org))
+        print("id\torganisation\tname\tprefix\tscopes\tcreated\texpires\trevoked\tlast_used")
+        for key, slug in session.execute(query):
+            print("\t".join([str(key.id), slug, key.name, key.prefix + "…", key.scopes, _when(key.created_at),
+                             _when(key.expires_at), _when(key.revoked_at), _when(key.last_used_at)]))
+    return EXIT_OK
+
+
+def _revoke(args: argparse.Namespace) -> int:
+    from .models import utcnow
+    from .models_auth import ApiKey
+
+    session = _open(args)
+    if session is None:
+        return EXIT_BAD_INPUT
+    with session:
+        key = session.get(ApiKey, args.id)
+        if key is None:
+            print(f"ohmtally keys revoke: there is no key {args.id}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+        if key.revoked_at is None:
+            key.revoked_at = utcnow()
+            session.commit()
+        print(f"key {key.id} ({key.name}) revoked at {_when(key.revoked_at)}")
+    return EXIT_OK

@@ -1,0 +1,89 @@
+"""Request limits: rate per API key (429 + Retry-After), rows per body and line length (413).
+
+Invariants:
+- The rate limit counts per API key id (``key:<id>``); with no key (auth off,
+  or a request refused before a key was found) per client address. Health is
+  never counted, so a load balancer's probe cannot lock a client out.
+- A refused request is a problem+json 429 carrying ``Retry-After`` (seconds,
+  RFC 9110 §10.2.3) until the window frees a request.
+- :func:`check_text_limits` and :func:`check_row_count` raise 413 problems
+  naming the limit and where it was broken (line number); the readings view
+  keeps such a body as a rejected upload like any other refused body.
+- The body size limit itself is Flask's ``MAX_CONTENT_LENGTH`` (413 before
+  the body is read), set from ``OHMTALLY_MAX_UPLOAD_BYTES`` in ``create_app``.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from typing import Any
+
+from flask import Flask, current_app, g, request
+
+from .errors import ApiError, problem_response
+
+__all__ = ["check_row_count", "check_text_limits", "init_app", "rate_key"]
+
+_TEXT_TYPES = frozenset({"text/csv", "text/plain", "application/x-ndjson"})
+
+
+def rate_key() -> str:
+    key_id = g.get("api_key_id")
+    if key_id is not None:
+        return f"key:{key_id}"
+    return f"addr:{request.remote_addr or 'unknown'}"
+
+
+def init_app(app: Flask) -> None:
+    from flask_limiter import Limiter
+    from flask_limiter.errors import RateLimitExceeded
+
+    settings = app.extensions["ohmtally.settings"]
+    limiter = Limiter(rate_key, app=app, default_limits=[settings.rate_limit] if settings.rate_limit else [],
+                      storage_uri=settings.rate_limit_storage, headers_enabled=False,
+                      enabled=bool(settings.rate_limit))
+    limiter.request_filter(lambda: request.path.rstrip("/") == "/v1/health")
+    app.extensions["ohmtally.limiter"] = limiter
+
+    @app.errorhandler(RateLimitExceeded)
+    def _too_many(_error: RateLimitExceeded) -> Any:
+        found = limiter.current_limit
+        wait = max(1, math.ceil(found.reset_at - time.time())) if found is not None else 60
+        return problem_response(ApiError(
+            429, "rate_limited", f"too many requests; the limit is {settings.rate_limit} per API key",
+            headers={"Retry-After": str(wait)}, extra={"retry_after_s": wait}))
+
+
+def check_text_limits(body: bytes, media_type: str) -> None:
+    """413 if a text body has a line longer than the limit or more lines than rows allowed."""
+    if media_type not in _TEXT_TYPES:
+        return
+    settings = current_app.extensions["ohmtally.settings"]
+    limit = settings.max_line_bytes
+    start, number = 0, 0
+    while start < len(body):
+        end = body.find(b"\n", start)
+        end = len(body) if end < 0 else end
+        number += 1
+        if end - start > limit:
+            raise ApiError(413, "line_too_long", f"line {number} is {end - start} bytes; the most a line "
+                           f"may hold is {limit} (OHMTALLY_MAX_LINE_BYTES)",
+                           errors=[{"line": number, "code": "line_too_long",
+                                    "reason": f"longer than {limit} bytes"}])
+        if number > settings.max_rows + 1:  # + 1: a CSV header line is not a row
+            raise ApiError(413, "too_many_rows", f"the body has more than {settings.max_rows} rows "
+                           "(OHMTALLY_MAX_ROWS); split it into several posts",
+                           errors=[{"line": number, "code": "too_many_rows",
+                                    "reason": f"more than {settings.max_rows} rows"}])
+        start = end + 1
+
+
+def check_row_count(count: int) -> None:
+    """413 if a (JSON) body carries more circuits than rows allowed."""
+    limit = current_app.extensions["ohmtally.settings"].max_rows
+    if count > limit:
+        raise ApiError(413, "too_many_rows", f"the body has {count} circuits; the most one body may "
+                       f"carry is {limit} (OHMTALLY_MAX_ROWS); split it into several posts",
+                       errors=[{"pointer": f"/circuits/{limit}", "code": "too_many_rows",
+                                "reason": f"more than {limit} circuits"}])
