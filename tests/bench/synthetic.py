@@ -46,12 +46,12 @@ def _common(rng: random.Random, board: str, circuit: int, earthing: str) -> Row:
 
 def _radial(rng: random.Random, row: Row, *, rating: int, curve: str, line: float, cpc: float,
             load: str, ze: float, rcd: bool) -> Row:
-    length = rng.randint(5, 60)
+    length = rng.randint(4, 30)
     r1r2 = round(length * (18.1 + 18.1 * line / cpc) / line / 1000 * rng.uniform(0.9, 1.3), 3)
     row.update({"circuit_form": "radial", "load_type": load, "device_kind": "rcbo" if rcd else "breaker",
                 "device_standard": "BS EN 61009" if rcd else "BS EN 60898", "device_curve": curve,
                 "device_rating_a": str(rating), "line_mm2": str(line), "cpc_mm2": str(cpc),
-                "length_m": str(length), "r1_r2_ohm": f"{r1r2}",
+                "length_m": str(length), "r1_r2_ohm": f"{r1r2}", "design_current_a": f"{rating * 0.6:g}",
                 "zs_ohm": f"{round(ze + r1r2 * rng.uniform(0.95, 1.15), 3)}"})
     if rcd:
         _rcd(rng, row)
@@ -60,7 +60,7 @@ def _radial(rng: random.Random, row: Row, *, rating: int, curve: str, line: floa
 
 def _rcd(rng: random.Random, row: Row) -> None:
     row.update({"rcd_residual_ma": "30", "rcd_type": rng.choice(("A", "AC", "F")),
-                "rcd_trip_ms": f"{rng.randint(12, 320)}", "rcd_trip_5x_ms": f"{rng.randint(8, 45)}",
+                "rcd_trip_ms": f"{rng.randint(12, 320)}", "rcd_trip_5x_ms": f"{rng.randint(8, 41)}",
                 "rcd_half_no_trip": "yes"})
 
 
