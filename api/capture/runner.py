@@ -23,13 +23,15 @@ from dataclasses import dataclass
 from types import FrameType
 from typing import Any
 
+from ..cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK
 from .forwarder import BatchRejected, BatchRetrying, BatchSent, Forwarder, ForwardEvent, Halted, run_forwarder
 from .spool import Spool
 from .status import Reporter, Tally, verdict_line
 
-__all__ = ["Session", "SessionResult"]
+__all__ = ["Session", "SessionResult", "run_session"]
 
-EXIT_OK, EXIT_FAIL, EXIT_UNSENT = 0, 1, 2
+# The CLI's statuses; 2 ("bad input") here means lines rejected or still unsent.
+EXIT_UNSENT = EXIT_BAD_INPUT
 
 # (tally, stop-reading event, wake-the-forwarder) -> the started reader thread
 StartReader = Callable[[Tally, threading.Event, Callable[[], None]], threading.Thread]

@@ -260,7 +260,8 @@ class Spool:
                            rejected=by_state.get(REJECTED, 0), discarded_partials=partials)
 
     def rows(self, *, states: Sequence[str] | None = None, limit: int | None = None) -> list[SpoolRow]:
-        sql, params = "SELECT * FROM lines", []  # type: tuple[str, list[Any]]
+        sql = "SELECT * FROM lines"
+        params: list[Any] = []
         if states:
             sql += f" WHERE state IN ({','.join('?' * len(states))})"
             params.extend(states)
