@@ -23,6 +23,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "api.cli_serve",
     "api.cli_demo",
     "api.cli_db",
+    "api.cli_deliver",
     "api.cli_keys",
 )
 

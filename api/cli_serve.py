@@ -66,6 +66,7 @@ def run(args: argparse.Namespace) -> int:
     from .app import create_app
     from .db import SchemaNotCurrent
     from .settings import SettingsError, load_settings
+    from .webhooks import runner as webhook_hooks
 
     try:
         settings = load_settings()
@@ -88,6 +89,8 @@ def run(args: argparse.Namespace) -> int:
         return EXIT_BAD_INPUT
     options = {"bind": [args.bind], "workers": args.workers, "timeout": timeout,
                "accesslog": None, "errorlog": "-", "loglevel": settings.log_level.lower(),
-               "proc_name": "ohmtally", "graceful_timeout": 10}
+               "proc_name": "ohmtally", "graceful_timeout": 10,
+               # one webhook delivery thread per worker, leased claims (api/webhooks/runner.py)
+               "post_worker_init": webhook_hooks.post_worker_init, "worker_exit": webhook_hooks.worker_exit}
     _application(create_app, options).run()
     return EXIT_OK

@@ -66,9 +66,10 @@ class Job(Base):
     reference: Mapped[str] = mapped_column(String(200), index=True)
     site: Mapped[str] = mapped_column(Text)
     ruleset: Mapped[str] = mapped_column(String(100))
-    external_ref: Mapped[str | None] = mapped_column(String(200), default=None)
+    external_ref: Mapped[str | None] = mapped_column(String(200), default=None, index=True)
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
-    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+    updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow, index=True)
+    revision: Mapped[int] = mapped_column(default=1, server_default="1")  # +1 on every change (0004)
 
     organisation: Mapped[Organisation] = relationship()
 
@@ -104,6 +105,7 @@ class Circuit(Base):
     fields: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
     upload_id: Mapped[int | None] = mapped_column(ForeignKey("uploads.id"), default=None)
+    external_ref: Mapped[str | None] = mapped_column(String(200), default=None)  # the caller's id (0004)
 
 
 class FieldHistory(Base):
@@ -122,3 +124,4 @@ class FieldHistory(Base):
 # API keys and idempotency records live in their own module on this Base (migration 0003);
 # importing it here puts them in Base.metadata wherever the models are loaded.
 from . import models_auth as _models_auth  # noqa: E402,F401
+from .webhooks import models as _webhook_models  # noqa: E402,F401  (webhook tables, migration 0004)

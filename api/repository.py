@@ -20,7 +20,7 @@ import binascii
 import hashlib
 import json
 from collections.abc import Iterable, Sequence
-from datetime import timedelta
+from datetime import datetime, timedelta
 from typing import Any
 
 from sqlalchemy import select
@@ -102,9 +102,14 @@ def decode_cursor(cursor: str) -> int:
                                 "reason": "use next_cursor from the previous page"}]) from None
 
 
-def list_jobs(session: Session, *, limit: int, cursor: str | None,
-              reference: str | None) -> tuple[list[Job], str | None]:
-    """One page in creation order, and the cursor of the next page (``None`` at the end)."""
+def list_jobs(session: Session, *, limit: int, cursor: str | None, reference: str | None,
+              external_ref: str | None = None, updated_since: datetime | None = None
+              ) -> tuple[list[Job], str | None]:
+    """One page in creation order, and the cursor of the next page (``None`` at the end).
+
+    Ordered by id, which only grows: a job created while a client pages lands
+    after the cursor, never shifts a page it has seen (``updated_since`` uses ``>=``).
+    """
     query = select(Job).order_by(Job.id).limit(limit + 1)
     tenant = _tenant()
     if tenant is not None:
@@ -113,6 +118,10 @@ def list_jobs(session: Session, *, limit: int, cursor: str | None,
         query = query.where(Job.id > decode_cursor(cursor))
     if reference is not None:
         query = query.where(Job.reference == reference)
+    if external_ref is not None:
+        query = query.where(Job.external_ref == external_ref)
+    if updated_since is not None:
+        query = query.where(Job.updated_at >= updated_since)
     rows = list(session.scalars(query))
     more = len(rows) > limit
     page = rows[:limit]
@@ -208,6 +217,7 @@ def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item
         row.upload_id = upload.id
         touched[key] = None
     job.updated_at = now
+    job.revision += 1  # the verdicts' ETag (migration 0004)
     return accepted, list(touched)
 
 

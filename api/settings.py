@@ -40,6 +40,15 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("MAX_UPLOAD_BYTES", str(16 * 1024 * 1024), "largest request body accepted (413 above)"),
     Setting("INSTANCE_PATH", "", "instance folder (database, local files); empty: Flask's default"),
     Setting("PAGE_LIMIT", "50", "default page size of GET /v1/jobs (at most 500)"),
+    # Webhooks (api/README-INTEGRATING.md).
+    Setting("WEBHOOK_ALLOW_PRIVATE", "off", "'on': webhook URLs may resolve to loopback, private or "
+            "link-local addresses (tests, a private network); 'off': refused at subscription and send"),
+    Setting("WEBHOOK_WORKER", "on", "'on': `serve` runs a delivery thread in each worker; 'off': run "
+            "`ohmtally deliver` yourself"),
+    Setting("WEBHOOK_TIMEOUT_S", "10", "seconds a receiver has to answer one delivery"),
+    Setting("WEBHOOK_RETRY_BASE_S", "10", "wait after a first failed delivery; doubles each retry"),
+    Setting("WEBHOOK_RETRY_MAX_S", "3600", "longest wait between two attempts of a delivery"),
+    Setting("WEBHOOK_MAX_ATTEMPTS", "30", "attempts before a delivery is marked failed (about a day)"),
     # Limits (api/README-SECURITY.md): a body that breaks one is refused whole, and kept.
     Setting("MAX_ROWS", "20000", "most rows (CSV/lines/NDJSON lines, JSON circuits) in one body (413 above)"),
     Setting("MAX_LINE_BYTES", "8192", "longest line of a text body, in bytes (413 above)"),
@@ -63,6 +72,12 @@ class Settings:
     max_upload_bytes: int
     instance_path: str | None
     page_limit: int
+    webhook_allow_private: bool = False
+    webhook_worker: bool = True
+    webhook_timeout_s: int = 10
+    webhook_retry_base_s: int = 10
+    webhook_retry_max_s: int = 3600
+    webhook_max_attempts: int = 30
     max_rows: int
     max_line_bytes: int
     rate_limit: str
@@ -91,6 +106,13 @@ def _positive_int(name: str, text: str) -> int:
     return value
 
 
+def _switch(name: str, text: str) -> bool:
+    value = text.strip().lower()
+    if value not in {"on", "off", "true", "false", "1", "0", "yes", "no"}:
+        raise SettingsError(f"OHMTALLY_{name} must be 'on' or 'off', not {value!r}")
+    return value in {"on", "true", "1", "yes"}
+
+
 def load_settings(overrides: Mapping[str, Any] | None = None,
                   environ: Mapping[str, str] | None = None) -> Settings:
     """Settings from ``environ`` (default ``os.environ``), ``overrides`` winning.
@@ -114,6 +136,12 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         max_upload_bytes=_positive_int("MAX_UPLOAD_BYTES", _env(env, over, "MAX_UPLOAD_BYTES")),
         instance_path=_env(env, over, "INSTANCE_PATH").strip() or None,
         page_limit=min(page_limit, 500),
+        webhook_allow_private=_switch("WEBHOOK_ALLOW_PRIVATE", _env(env, over, "WEBHOOK_ALLOW_PRIVATE")),
+        webhook_worker=_switch("WEBHOOK_WORKER", _env(env, over, "WEBHOOK_WORKER")),
+        webhook_timeout_s=_positive_int("WEBHOOK_TIMEOUT_S", _env(env, over, "WEBHOOK_TIMEOUT_S")),
+        webhook_retry_base_s=_positive_int("WEBHOOK_RETRY_BASE_S", _env(env, over, "WEBHOOK_RETRY_BASE_S")),
+        webhook_retry_max_s=_positive_int("WEBHOOK_RETRY_MAX_S", _env(env, over, "WEBHOOK_RETRY_MAX_S")),
+        webhook_max_attempts=_positive_int("WEBHOOK_MAX_ATTEMPTS", _env(env, over, "WEBHOOK_MAX_ATTEMPTS")),
         max_rows=_positive_int("MAX_ROWS", _env(env, over, "MAX_ROWS")),
         max_line_bytes=_positive_int("MAX_LINE_BYTES", _env(env, over, "MAX_LINE_BYTES")),
         rate_limit=_env(env, over, "RATE_LIMIT").strip(),

@@ -53,6 +53,7 @@ from ..repository import (
     upload_circuit_keys,
 )
 from ..schemas.jobs import ReadingsResponseSchema, UploadListSchema
+from ..webhooks.outbox import emit_readings, outcomes_before
 from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
 from .verify import ReadingsQuerySchema
 
@@ -150,11 +151,14 @@ class JobReadings(MethodView):
             session.commit()  # the body is kept even though nothing in it was taken
             raise
         upload.adapter = intake.adapter
+        ruleset = resolve_ruleset(job.ruleset)
+        before = outcomes_before(session, job, ruleset)  # verdict.changed compares with these
         accepted, touched = merge_items(session, job, upload, intake.items)
         upload.status, upload.accepted, upload.rejected = "merged", accepted, intake.rejected
-        records = job_records(session, job)
-        wanted = set(touched)
-        verdicts = [v for v in verify(records, resolve_ruleset(job.ruleset)) if v.key in wanted]
+        all_verdicts = verify(job_records(session, job), ruleset)
+        emit_readings(session, job, upload, touched=touched, before=before, after=all_verdicts)
+        wanted = set(touched)  # the webhook events commit with the merge, or neither does
+        verdicts = [v for v in all_verdicts if v.key in wanted]
         return commit_with(session, json_response({  # the answer is committed with the merge
             "accepted": accepted, "rejected": intake.rejected,
             "upload": {"id": upload.id, "sha256": upload.sha256, "size": upload.size},

@@ -45,12 +45,16 @@ class JobSchema(_Strict):
     external_ref = fields.String(required=True, allow_none=True)
     created_at = fields.DateTime(required=True)
     updated_at = fields.DateTime(required=True)
+    revision = fields.Integer(required=True, metadata={"description": "+1 on every change to the job"})
 
 
 class JobListQuerySchema(_Strict):
     limit = fields.Integer(validate=validate.Range(min=1, max=500))
     cursor = fields.String(metadata={"description": "opaque; the next_cursor of the previous page"})
     reference = fields.String(metadata={"description": "only jobs with exactly this reference"})
+    external_ref = fields.String(metadata={"description": "only jobs with this id in the caller's system"})
+    updated_since = fields.String(metadata={"description": "RFC 3339 date-time: only jobs changed at "
+                                            "or after it", "format": "date-time"})
 
 
 class JobListSchema(_Strict):
@@ -69,6 +73,8 @@ class HistoryEntrySchema(_Strict):
 class CircuitStateSchema(_Strict):
     board = fields.String(required=True)
     circuit = fields.String(required=True)
+    external_ref = fields.String(required=True, allow_none=True,
+                                 metadata={"description": "the circuit's id in the caller's system"})
     record = fields.Dict(required=True, metadata={"description": "the merged circuit record"})
     updated_at = fields.DateTime(required=True)
     upload_id = fields.Integer(required=True, allow_none=True,
