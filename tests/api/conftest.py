@@ -29,7 +29,8 @@ from api.db import upgrade
 from tests.api.openapi_check import check_response
 
 POSTGRES_ENV = "OHMTALLY_TEST_POSTGRES_URL"
-_TABLES = ("idempotency_records", "api_keys", "field_history", "circuits", "uploads", "jobs")
+_TABLES = ("webhook_deliveries", "webhook_events", "webhook_subscriptions",
+           "idempotency_records", "api_keys", "field_history", "circuits", "uploads", "jobs")
 
 
 def pytest_generate_tests(metafunc: pytest.Metafunc) -> None:
@@ -134,6 +135,23 @@ def app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
 @pytest.fixture
 def client(app: Flask) -> FlaskClient:
     return app.test_client()
+
+
+@pytest.fixture
+def auth_app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
+    """An app with OHMTALLY_AUTH=on (API keys required), as in production."""
+    return app_factory(db_url, OHMTALLY_AUTH="on")
+
+
+@pytest.fixture
+def auth_client(auth_app: Flask) -> FlaskClient:
+    """A client of ``auth_app`` sending a read,write key of its own organisation on every request."""
+    from tests.api.keyring import issue_key, unique_org
+
+    _key_id, secret = issue_key(auth_app, unique_org())
+    client = auth_app.test_client()
+    client.environ_base["HTTP_AUTHORIZATION"] = f"Bearer {secret}"
+    return client
 
 
 @pytest.fixture
