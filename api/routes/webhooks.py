@@ -3,6 +3,8 @@
 Invariants:
 - Every subscription belongs to the request's organisation (the API key's;
   ``local`` with auth off); another organisation's is a 404 like a missing one.
+- Creating or deleting a subscription needs an ``admin`` key (it sends the
+  organisation's data to a URL); reading them and their deliveries ``read``.
 - The secret is returned once, in the 201 of the POST, never again.
 - A URL is checked against the target policy (``api.webhooks.targets``) when
   the subscription is made; it is checked again at every send.
@@ -39,6 +41,15 @@ from .common import json_response, raw_body, settings
 __all__ = ["blp", "organisation_id"]
 
 blp = Blueprint("webhooks", __name__, url_prefix="/v1", description="Webhook subscriptions and deliveries")
+
+
+def _admin(view: Any) -> Any:
+    """Making or removing a subscription needs the ``admin`` scope: it sends data off-site."""
+    try:
+        from ..auth import require_scope
+    except ImportError:  # a build without the key module
+        return view
+    return require_scope("admin")(view)
 
 
 def organisation_id(session: Session) -> int:
@@ -83,6 +94,7 @@ class Webhooks(MethodView):
     @blp.doc(requestBody={"required": True,
                           "content": {JSON_MEDIA_TYPE: {"schema": SubscriptionCreateSchema}}})
     @blp.response(201, SubscriptionCreatedSchema)
+    @_admin
     def post(self) -> Any:
         """Subscribe a URL to events; the answer shows the signing secret, once."""
         data = _create_body()
@@ -120,6 +132,7 @@ class Webhook(MethodView):
         return json_response(_subscription_dict(_get(get_session(), webhook_id)))
 
     @blp.response(204)
+    @_admin
     def delete(self, webhook_id: int) -> Any:
         """Delete the subscription and its deliveries; nothing more is sent to it."""
         session = get_session()

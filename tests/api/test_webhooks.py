@@ -228,3 +228,43 @@ def test_another_organisations_subscription_is_invisible(hooks: FlaskClient, hoo
     with hook_app.extensions["ohmtally.db"]() as session:
         assert session.scalars(select(WebhookDelivery)
                                .where(WebhookDelivery.subscription_id == other_id)).all() == []
+
+
+def test_with_keys_subscriptions_follow_the_key_and_need_admin(db_url: str,
+                                                              app_factory: Callable[..., Flask]) -> None:
+    """With OHMTALLY_AUTH=on a write key cannot subscribe (403); an admin key's subscription is its firm's."""
+    from api.keys import create_key, organisation_named
+
+    app = app_factory(db_url, OHMTALLY_AUTH="on", OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
+    secrets: dict[str, str] = {}
+    with app.extensions["ohmtally.db"]() as session:
+        for firm, scopes in (("Invented firm A", "read,write"), ("Invented firm A", "admin"),
+                             ("Invented firm B", "admin")):
+            organisation = organisation_named(session, firm, create=True)
+            assert organisation is not None
+            secrets[f"{firm}/{scopes}"] = create_key(session, organisation, name="t", scopes=scopes,
+                                                       expires_at=None).secret
+        session.commit()
+    client = app.test_client()
+
+    def as_key(name: str) -> dict[str, str]:
+        return {"Authorization": f"Bearer {secrets[name]}"}
+
+    body = {"url": "http://127.0.0.1:9/a", "events": ALL_EVENTS}
+    refused = client.post("/v1/webhooks", json=body, headers=as_key("Invented firm A/read,write"))
+    assert refused.status_code == 403
+    made = client.post("/v1/webhooks", json=body, headers=as_key("Invented firm A/admin"))
+    assert made.status_code == 201
+    sub_id = made.get_json()["id"]
+    own = client.get(f"/v1/webhooks/{sub_id}", headers=as_key("Invented firm A/read,write"))
+    assert own.status_code == 200
+    assert client.get(f"/v1/webhooks/{sub_id}", headers=as_key("Invented firm B/admin")).status_code == 404
+    assert client.get("/v1/webhooks", headers=as_key("Invented firm B/admin")).get_json()["items"] == []
+    client.post("/v1/jobs", json={"reference": "K-1", "site": "Invented"},
+                headers=as_key("Invented firm B/admin"))
+    with app.extensions["ohmtally.db"]() as session:
+        assert session.scalars(select(WebhookDelivery)).all() == []  # firm B's job: not firm A's event
+    client.post("/v1/jobs", json={"reference": "K-2", "site": "Invented"},
+                headers=as_key("Invented firm A/read,write"))
+    with app.extensions["ohmtally.db"]() as session:
+        assert len(session.scalars(select(WebhookDelivery)).all()) == 1
