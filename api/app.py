@@ -22,6 +22,7 @@ from typing import Any
 from flask import Flask, current_app, request
 from flask_smorest import Api
 from werkzeug.exceptions import HTTPException
+from werkzeug.routing import IntegerConverter
 
 from engine import __version__
 
@@ -80,6 +81,15 @@ _HTTP_CODES = {404: "not_found", 405: "method_not_allowed", 413: "body_too_large
                400: "bad_request", 422: "invalid_parameters", 415: "unsupported_media_type"}
 
 
+class DatabaseIdConverter(IntegerConverter):
+    """``<int:…>`` in every route: ids are 32-bit INTEGER columns (PostgreSQL int4), so a
+    larger number names nothing and is a 404 from routing, never an overflow in the driver (500)."""
+
+    def __init__(self, map: Any, *args: Any, **kwargs: Any) -> None:
+        kwargs.setdefault("max", 2**31 - 1)
+        super().__init__(map, *args, **kwargs)
+
+
 def _api_error(error: ApiError) -> Any:
     return problem_response(error)
 
@@ -105,6 +115,7 @@ def _init_auth(app: Flask, settings: Settings) -> None:
 def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     settings = load_settings(config)
     app = Flask("api", instance_path=settings.instance_path, instance_relative_config=False)
+    app.url_map.converters["int"] = DatabaseIdConverter
     app.config.update(
         API_TITLE="ohmtally",
         API_VERSION=__version__,

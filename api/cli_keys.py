@@ -15,6 +15,8 @@ from __future__ import annotations
 
 import argparse
 import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import Any
 
 from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
@@ -45,26 +47,28 @@ def register(sub: Any) -> None:
                             "else the SQLite file in the instance folder)")
 
 
-def _session(args: argparse.Namespace) -> Any:
+@contextmanager
+def _open(args: argparse.Namespace) -> Iterator[Any]:
+    """A session on the migrated database (``None`` after printing why not); the pool closed after."""
     from sqlalchemy.orm import Session
 
     from .cli_db import resolve_database_url
-    from .db import check_schema, make_engine
+    from .db import SchemaNotCurrent, check_schema, make_engine
 
     url = resolve_database_url(args.database_url)
     engine = make_engine(url)
-    check_schema(engine, url)
-    return Session(engine, expire_on_commit=False)
-
-
-def _open(args: argparse.Namespace) -> Any:
-    from .db import SchemaNotCurrent
-
     try:
-        return _session(args)
+        check_schema(engine, url)
     except SchemaNotCurrent as exc:
         print(f"ohmtally keys: {exc}", file=sys.stderr)
-        return None
+        engine.dispose()
+        yield None
+        return
+    try:
+        with Session(engine, expire_on_commit=False) as session:
+            yield session
+    finally:
+        engine.dispose()
 
 
 def _create(args: argparse.Namespace) -> int:
@@ -77,10 +81,9 @@ def _create(args: argparse.Namespace) -> int:
     except KeySpecError as exc:
         print(f"ohmtally keys create: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    session = _open(args)
-    if session is None:
-        return EXIT_BAD_INPUT
-    with session:
+    with _open(args) as session:
+        if session is None:
+            return EXIT_BAD_INPUT
         try:
             org = organisation_named(session, args.org, create=True)
         except KeySpecError as exc:
@@ -108,10 +111,9 @@ def _list(args: argparse.Namespace) -> int:
     from .models import Organisation
     from .models_auth import ApiKey
 
-    session = _open(args)
-    if session is None:
-        return EXIT_BAD_INPUT
-    with session:
+    with _open(args) as session:
+        if session is None:
+            return EXIT_BAD_INPUT
         query = select(ApiKey, Organisation.slug).join(Organisation).order_by(ApiKey.id)
         if args.org:
             from .keys import slugify
@@ -128,10 +130,9 @@ def _revoke(args: argparse.Namespace) -> int:
     from .models import utcnow
     from .models_auth import ApiKey
 
-    session = _open(args)
-    if session is None:
-        return EXIT_BAD_INPUT
-    with session:
+    with _open(args) as session:
+        if session is None:
+            return EXIT_BAD_INPUT
         key = session.get(ApiKey, args.id)
         if key is None:
             print(f"ohmtally keys revoke: there is no key {args.id}", file=sys.stderr)
