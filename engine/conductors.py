@@ -47,6 +47,12 @@ _ALPHA_KEYS: dict[str, str] = {
 }
 
 
+# Parsed tables by the identity of the ruleset's raw mapping, which is kept beside
+# its parse so the id cannot be reused while cached. Every circuit asks for the
+# same table; parsing it per call was a tenth of verify()'s time (tests/bench).
+_PARSED: dict[int, tuple[object, Mapping[float, float]]] = {}
+
+
 def _table(ruleset: Ruleset, material: str) -> Mapping[float, float]:
     key = MATERIALS.get(material)
     if key is None:
@@ -54,12 +60,19 @@ def _table(ruleset: Ruleset, material: str) -> Mapping[float, float]:
     raw = ruleset.get("conductors", key)
     if raw is None:
         return {}
+    hit = _PARSED.get(id(raw))
+    if hit is not None and hit[0] is raw:
+        return hit[1]
     if not isinstance(raw, Mapping):
         raise RulesetError(f"conductors.{key} must map cross-sections to Ω/km", field=f"conductors.{key}")
     try:
-        return {float(size): float(ohm) for size, ohm in raw.items()}
+        table = {float(size): float(ohm) for size, ohm in raw.items()}
     except (TypeError, ValueError) as exc:
         raise RulesetError(f"conductors.{key}: {exc}", field=f"conductors.{key}") from exc
+    if len(_PARSED) >= 64:  # user rulesets come and go; the built-ins are re-parsed once
+        _PARSED.clear()
+    _PARSED[id(raw)] = (raw, table)
+    return table
 
 
 def area(value: object) -> float | None:
@@ -78,7 +91,11 @@ def resistance_ohm_per_m_20c(ruleset: Ruleset, material: str, area_mm2: float | 
     """IEC 60228 maximum resistance at 20 °C, Ω/m; ``None`` when not tabulated."""
     if area_mm2 is None:
         return None
-    for size, ohm_per_km in _table(ruleset, material).items():
+    table = _table(ruleset, material)
+    exact = table.get(area_mm2)
+    if exact is not None:
+        return exact / 1000.0
+    for size, ohm_per_km in table.items():
         if math.isclose(size, area_mm2, rel_tol=1e-9, abs_tol=1e-9):
             return ohm_per_km / 1000.0
     return None

@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 from .errors import ReadingError
@@ -97,6 +98,7 @@ class Reading:
         return f"{self.relation}{format_number(self.value)}"
 
 
+@lru_cache(maxsize=4096)  # detail sentences print the same limits and readings again and again
 def format_number(value: float) -> str:
     """Shortest text that reads back to the same float (``repr``), without ``.0``."""
     text = repr(float(value))

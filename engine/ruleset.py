@@ -67,6 +67,9 @@ class Entry:
         return out
 
 
+_NO_SECTION: Mapping[str, Entry] = {}
+
+
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Ruleset:
     id: str
@@ -89,15 +92,22 @@ class Ruleset:
                 f"ruleset {self.id!r} has no value {section}.{key}", field=f"{section}.{key}"
             ) from None
 
+    # value/get/basis are called a few dozen times per circuit: one inlined lookup each.
     def value(self, section: str, key: str) -> Any:
-        return self.entry(section, key).value
+        try:
+            return self.sections[section][key].value
+        except KeyError:
+            return self.entry(section, key).value  # raises the RulesetError naming the value
 
     def get(self, section: str, key: str, default: Any = None) -> Any:
-        found = self.sections.get(section, {}).get(key)
+        found = self.sections.get(section, _NO_SECTION).get(key)
         return default if found is None else found.value
 
     def basis(self, section: str, key: str) -> str:
-        return self.entry(section, key).source
+        try:
+            return self.sections[section][key].source
+        except KeyError:
+            return self.entry(section, key).source
 
     def summary(self) -> dict[str, Any]:
         return {"id": self.id, "title": self.title, "edition": self.edition,

@@ -55,7 +55,7 @@ from ..repository import (
 from ..schemas.jobs import ReadingsResponseSchema, UploadListSchema
 from ..webhooks.outbox import emit_readings, outcomes_before
 from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
-from .verify import ReadingsQuerySchema
+from .verify import ReadingsQuerySchema, verdicts_response
 
 __all__ = ["blp"]
 
@@ -100,13 +100,12 @@ def _replay(job: Job, earlier: Upload, body: bytes, *, duplicate: bool = False) 
                        "nothing in it was taken", errors=earlier.rejected, extra={"upload": ref},
                        headers={"Idempotent-Replayed": "true"})
     touched = upload_circuit_keys(session, earlier)
-    all_verdicts = verify(job_records(session, job), resolve_ruleset(job.ruleset))
-    verdicts = [v for v in all_verdicts if v.key in touched]
+    verdicts = verify(job_records(session, job), resolve_ruleset(job.ruleset), only=touched)
     out: dict[str, Any] = {"accepted": earlier.accepted, "rejected": earlier.rejected, "upload": ref,
                            "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}
     if duplicate:
-        return json_response({**out, "duplicate_of": earlier.id})
-    return json_response(out, headers={"Idempotent-Replayed": "true"})
+        return verdicts_response({**out, "duplicate_of": earlier.id})
+    return verdicts_response(out, headers={"Idempotent-Replayed": "true"})
 
 
 @blp.route("/jobs/<int:job_id>/readings")
@@ -143,7 +142,7 @@ class JobReadings(MethodView):
                                f"{intake.ruleset!r} (change the job, or leave ruleset out)",
                                errors=[{"pointer": "/ruleset", "code": "ruleset_mismatch",
                                         "reason": f"the job's ruleset is {job.ruleset!r}"}])
-            check_row_count(len(intake.items))
+            check_row_count(intake.items)
         except ApiError as problem:
             upload.rejected = problem.errors
             problem.extra["upload"] = {"id": upload.id, "sha256": upload.sha256, "size": upload.size}
@@ -155,11 +154,14 @@ class JobReadings(MethodView):
         before = outcomes_before(session, job, ruleset)  # verdict.changed compares with these
         accepted, touched = merge_items(session, job, upload, intake.items)
         upload.status, upload.accepted, upload.rejected = "merged", accepted, intake.rejected
-        all_verdicts = verify(job_records(session, job), ruleset)
+        wanted = set(touched)
+        # Every circuit sees the whole job (board-level checks), but only the touched ones are
+        # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
+        all_verdicts = verify(job_records(session, job), ruleset, only=None if before is not None else wanted)
         emit_readings(session, job, upload, touched=touched, before=before, after=all_verdicts)
-        wanted = set(touched)  # the webhook events commit with the merge, or neither does
+        # the webhook events commit with the merge, or neither does
         verdicts = [v for v in all_verdicts if v.key in wanted]
-        return commit_with(session, json_response({  # the answer is committed with the merge
+        return commit_with(session, verdicts_response({  # the answer is committed with the merge
             "accepted": accepted, "rejected": intake.rejected,
             "upload": {"id": upload.id, "sha256": upload.sha256, "size": upload.size},
             "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}))

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+import orjson
 from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
@@ -14,11 +15,12 @@ from engine import verify
 from ..bodies import verify_body
 from ..body_intake import read_body
 from ..errors import ApiError
+from ..limits import check_row_count, check_text_limits
 from ..render import FAIL_ON_CHOICES, FORMATS, MEDIA_TYPES, WARN_ON_CHOICES, policy_from_names, render
 from ..schemas.verdicts import VerifyResponseSchema
 from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
 
-__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp"]
+__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp", "verdicts_response"]
 
 blp = Blueprint("verify", __name__, url_prefix="/v1", description="Stateless verification")
 
@@ -52,6 +54,16 @@ _FORMATS_DOC: dict[int, Any] = {200: {
                                  "description": "circuits failing under fail_on (so a curl step can gate)"}}}}
 
 
+def verdicts_response(data: dict[str, Any], headers: dict[str, str] | None = None) -> Response:
+    """``json_response`` for bodies of verdicts, encoded by orjson: the same JSON document, but
+    a 48-circuit answer is ~300 kB and the stdlib encoder took a tenth of the request (tests/bench)."""
+    try:
+        encoded = orjson.dumps(data, option=orjson.OPT_NON_STR_KEYS)
+    except TypeError:  # a type orjson does not know: Flask's provider knows more
+        return json_response(data, headers=headers)
+    return Response(encoded, status=200, mimetype="application/json", headers=headers)
+
+
 def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | None, dict[str, str]]:
     """The ruleset the request names, and where (for the pointer of a 404)."""
     if query_id and body_id and query_id != body_id:
@@ -79,8 +91,10 @@ class Verify(MethodView):
         if query.get("ruleset"):  # a bad name is reported before the body is read
             resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
+        check_text_limits(body, media_type)
         intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
                            profile=query.get("profile"), profile_dir=settings().profile_dir)
+        check_row_count(intake.items)
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
         records = intake.records()
@@ -88,6 +102,6 @@ class Verify(MethodView):
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
         failing = {FAILING_HEADER: str(policy.failing_circuits(body["verdicts"]))}
         if query.get("format") is None:
-            return json_response(body, headers=failing)
+            return verdicts_response(body, headers=failing)
         text, media_type = render(body, query["format"], policy)
         return Response(text, status=200, content_type=media_type, headers=failing)

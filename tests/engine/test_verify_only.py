@@ -1,0 +1,23 @@
+"""verify(only=…): the asked-for circuits' verdicts, each equal to the one a full call gives."""
+
+from __future__ import annotations
+
+from engine import verify
+from tests.bench import synthetic
+
+
+def test_only_gives_the_full_calls_verdicts_for_those_keys() -> None:
+    """Board-level checks (Ze consensus, feeders) still see every record; only the output is cut."""
+    records = synthetic.records(120)  # two groups: origin boards, fed sub-boards, TT boards
+    wanted = {records[i].key for i in (0, 5, 23, 47, 119)}
+    full = {v.key: v.as_dict() for v in verify(records)}
+    some = verify(records, only=wanted)
+    assert {v.key for v in some} == wanted
+    assert all(v.as_dict() == full[v.key] for v in some)
+
+
+def test_only_empty_and_unknown_keys_give_nothing() -> None:
+    """Keys that name no record are not invented into verdicts."""
+    records = synthetic.records(10)
+    assert verify(records, only=set()) == []
+    assert verify(records, only={("NOPE", "1")}) == []
