@@ -15,6 +15,9 @@ Invariants:
   :func:`current_organisation_id`: the key's, or with ``OHMTALLY_AUTH=off``
   the seeded ``local`` one. The repository filters every job query by it, so
   another organisation's job is a 404 exactly like a job that does not exist.
+- Every response carries ``X-Content-Type-Options: nosniff`` and a sandboxing
+  CSP (uploads are served back as data, never as a page); an authenticated
+  one also ``Cache-Control: no-store``.
 - Fails closed: a request context with no organisation resolved raises, it is
   never treated as "all organisations".
 """
@@ -25,7 +28,7 @@ from collections.abc import Callable
 from datetime import timedelta
 from typing import Any, TypeVar
 
-from flask import Flask, current_app, g, has_request_context, request
+from flask import Flask, Response, current_app, g, has_request_context, request
 
 from .errors import ApiError
 from .models import Organisation, utcnow
@@ -127,6 +130,16 @@ def init_app(app: Flask) -> None:
         if request.path.rstrip("/") in PUBLIC_PATHS or not auth_on:
             return
         _authenticate(app)
+
+    @app.after_request
+    def _safe_headers(response: Response) -> Response:
+        # Everything we return is data: an upload served back with the content type its
+        # sender claimed (text/html …) must not be sniffed or run by a browser.
+        response.headers.setdefault("X-Content-Type-Options", "nosniff")
+        response.headers.setdefault("Content-Security-Policy", "default-src 'none'; sandbox")
+        if g.get("api_key_id") is not None:  # a tenant's data: no shared cache may keep it
+            response.headers.setdefault("Cache-Control", "no-store")
+        return response
 
     options = dict(app.config.get("API_SPEC_OPTIONS") or {})
     options["components"] = {"securitySchemes": {"apiKey": {

@@ -17,10 +17,12 @@ from __future__ import annotations
 
 import math
 import time
+from collections.abc import Sequence
 from typing import Any
 
 from flask import Flask, current_app, g, request
 
+from .body_intake import Item
 from .errors import ApiError, problem_response
 
 __all__ = ["check_row_count", "check_text_limits", "init_app", "rate_key"]
@@ -49,7 +51,9 @@ def init_app(app: Flask) -> None:
     @app.errorhandler(RateLimitExceeded)
     def _too_many(_error: RateLimitExceeded) -> Any:
         found = limiter.current_limit
-        wait = max(1, math.ceil(found.reset_at - time.time())) if found is not None else 60
+        wait = 60
+        if found is not None:  # seconds until the window frees a request, never past the window
+            wait = max(1, min(math.ceil(found.reset_at - time.time()), found.limit.get_expiry()))
         return problem_response(ApiError(
             429, "rate_limited", f"too many requests; the limit is {settings.rate_limit} per API key",
             headers={"Retry-After": str(wait)}, extra={"retry_after_s": wait}))
@@ -79,11 +83,14 @@ def check_text_limits(body: bytes, media_type: str) -> None:
         start = end + 1
 
 
-def check_row_count(count: int) -> None:
-    """413 if a (JSON) body carries more circuits than rows allowed."""
+def check_row_count(items: Sequence[Item]) -> None:
+    """413 if a body carries more rows (JSON circuits, input lines) than allowed, naming the first extra."""
     limit = current_app.extensions["ohmtally.settings"].max_rows
-    if count > limit:
-        raise ApiError(413, "too_many_rows", f"the body has {count} circuits; the most one body may "
-                       f"carry is {limit} (OHMTALLY_MAX_ROWS); split it into several posts",
-                       errors=[{"pointer": f"/circuits/{limit}", "code": "too_many_rows",
-                                "reason": f"more than {limit} circuits"}])
+    if len(items) <= limit:
+        return
+    where = items[limit].location  # "/circuits/5" or "line 7"
+    entry: dict[str, Any] = ({"line": int(where.split()[1])} if where.startswith("line ") and
+                             where.split()[1].isdigit() else {"pointer": where})
+    raise ApiError(413, "too_many_rows", f"the body has {len(items)} rows; the most one body may carry "
+                   f"is {limit} (OHMTALLY_MAX_ROWS); split it into several posts",
+                   errors=[{**entry, "code": "too_many_rows", "reason": f"more than {limit} rows"}])

@@ -1,0 +1,53 @@
+"""Fuzzing the API from its own OpenAPI document (schemathesis, in-process WSGI, keys on).
+
+Every operation the document lists gets a bounded number of generated
+requests (valid and invalid), sent with an admin key of its own
+organisation; no answer may be a 5xx, and every answer must fit the
+document (status documented, content type and body schema as declared).
+The bound keeps the run under a minute in CI.
+"""
+
+from __future__ import annotations
+
+import time
+
+import pytest
+import schemathesis
+from flask import Flask
+from hypothesis import HealthCheck, given, settings
+from schemathesis.checks import not_a_server_error
+from schemathesis.specs.openapi.checks import (
+    content_type_conformance,
+    response_schema_conformance,
+    status_code_conformance,
+)
+
+from tests.api.keyring import bearer, issue_key, unique_org
+
+MAX_EXAMPLES = 25
+CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance, response_schema_conformance]
+
+
+def test_no_operation_answers_5xx_or_off_schema(auth_app: Flask) -> None:
+    """Generated requests to every documented operation: no 5xx, every response as the document says."""
+    headers = bearer(issue_key(auth_app, unique_org("fuzz"), "read,write,admin")[1])
+    client = auth_app.test_client()
+    job = client.post("/v1/jobs", json={"reference": "FUZZ", "site": "fuzz"}, headers=headers).get_json()
+    client.post(f"/v1/jobs/{job['id']}/readings?adapter=lines", data=b"board=DB1 circuit=1 zs=0.4\n",
+                content_type="text/plain", headers=headers)
+    schema = schemathesis.openapi.from_wsgi("/v1/openapi.json", auth_app)
+    operations = [result.ok() for result in schema.get_all_operations()]
+    assert len(operations) >= 12  # health, verify, rulesets, adapters, jobs and their sub-resources
+    started = time.monotonic()
+    for operation in operations:
+        @given(case=operation.as_strategy())
+        @settings(max_examples=MAX_EXAMPLES, deadline=None, database=None,
+                  suppress_health_check=list(HealthCheck))
+        def fuzz(case: schemathesis.Case) -> None:
+            case.call_and_validate(headers=headers, checks=CHECKS)
+
+        try:
+            fuzz()
+        except Exception as exc:  # name the operation in the failure
+            pytest.fail(f"{operation.method.upper()} {operation.path}: {exc}")
+    assert time.monotonic() - started < 60
