@@ -41,7 +41,7 @@ from .feeders import FeederProblem, feeder_chain
 from .records import CircuitRecord
 from .results import Verdict
 from .ruleset import Ruleset, load_ruleset
-from .verify import verify_one
+from .verify import collector_paused, verify_one
 
 __all__ = ["verify_stream"]
 
@@ -102,10 +102,11 @@ def _waits_for_feeder(board: str, ctx: Context) -> bool:
     return isinstance(chain, FeederProblem) and chain.code == "feeder_missing"
 
 
-def _verdicts(ctx: Context) -> Iterator[Verdict]:
+def _verdicts(ctx: Context) -> list[Verdict]:
+    """One board's verdicts, built with the collector paused (never across a yield)."""
     own = ctx.records.maps[0] if isinstance(ctx.records, ChainMap) else ctx.records
-    for record in own.values():
-        yield verify_one(record, ctx)
+    with collector_paused():
+        return [verify_one(record, ctx) for record in own.values()]
 
 
 def verify_stream(records: Iterable[CircuitRecord],

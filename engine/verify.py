@@ -7,11 +7,15 @@ Invariants:
 - Nothing a record holds makes this raise. A ruleset lacking a value a check
   needs, or a bug in a check, becomes an ``incomplete`` result and an entry in
   the verdict's ``errors`` — never a pass and never a crash.
+- The cyclic garbage collector is paused while verdicts are built and left as
+  it was found (:func:`collector_paused`); nothing else global is touched.
 """
 
 from __future__ import annotations
 
-from collections.abc import Collection, Iterable
+import gc
+from collections.abc import Collection, Iterable, Iterator
+from contextlib import contextmanager
 
 from .checks import CHECKS
 from .context import Context
@@ -20,7 +24,7 @@ from .records import CircuitRecord
 from .results import CheckResult, Outcome, Verdict, worst
 from .ruleset import Ruleset, load_ruleset
 
-__all__ = ["verify", "verify_one"]
+__all__ = ["collector_paused", "verify", "verify_one"]
 
 
 def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
@@ -33,9 +37,29 @@ def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = Non
     """
     rules = load_ruleset(ruleset)
     ctx = Context.build(records, rules)
-    if only is not None:
-        return [verify_one(record, ctx) for key, record in ctx.records.items() if key in only]
-    return [verify_one(record, ctx) for record in ctx.records.values()]
+    with collector_paused():
+        if only is not None:
+            return [verify_one(record, ctx) for key, record in ctx.records.items() if key in only]
+        return [verify_one(record, ctx) for record in ctx.records.values()]
+
+
+@contextmanager
+def collector_paused() -> Iterator[None]:
+    """Pause Python's cyclic garbage collector while verdicts are built; restore it after.
+
+    Verdicts are trees of frozen objects with no reference cycles, so the collector
+    finds nothing to free in them, yet on a large call it walks every live object
+    again and again: half of verify()'s time at 30,000 circuits (tests/bench).
+    Reference counting frees memory as usual while it is paused.
+    """
+    enabled = gc.isenabled()
+    if enabled:
+        gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
 
 
 def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:

@@ -2,6 +2,10 @@
 
 from __future__ import annotations
 
+import gc
+
+import pytest
+
 from engine import verify
 from tests.bench import synthetic
 
@@ -21,3 +25,15 @@ def test_only_empty_and_unknown_keys_give_nothing() -> None:
     records = synthetic.records(10)
     assert verify(records, only=set()) == []
     assert verify(records, only={("NOPE", "1")}) == []
+
+
+@pytest.mark.parametrize("enabled", [True, False])
+def test_verify_leaves_the_collector_as_it_found_it(enabled: bool) -> None:
+    """The garbage collector paused during verify() is restored, and a disabled one stays off."""
+    records = synthetic.records(5)
+    (gc.enable if enabled else gc.disable)()
+    try:
+        verify(records)
+        assert gc.isenabled() is enabled
+    finally:
+        gc.enable()
