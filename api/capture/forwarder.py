@@ -107,7 +107,8 @@ class Forwarder:
             reply = self.transport.post_lines(batch.body, idempotency_key=batch.key)
         except TransportError as exc:
             return self._retry(batch, str(exc), None)
-        disposition = classify(reply.status)
+        code = reply.body.get("code") if isinstance(reply.body, dict) else None
+        disposition = classify(reply.status, code if isinstance(code, str) else None)
         if disposition is Disposition.SENT:
             return self._sent(batch, reply)
         if disposition is Disposition.RETRY:

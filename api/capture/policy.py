@@ -5,6 +5,11 @@ Invariants:
   batch as sent; 5xx, 429, 408 and 409 (another request with the same
   Idempotency-Key is still in progress) are retried; every other status
   rejects the batch, which stays in the spool marked rejected.
+- A 409 whose problem code says the key can never succeed
+  (``idempotency_key_reused``: the key names another body;
+  ``idempotency_key_in_doubt``: the server took it but kept no answer) rejects
+  the batch instead: retrying it would loop for ever. ``--show`` reports it and
+  ``--replay`` resends it under a new key once a person has looked.
 - 401, 403 and 404 also *halt* forwarding: every later batch would meet the
   same refusal (bad key, no such job), so later lines stay unsent rather than
   each being marked rejected, and a restart with the fault fixed sends them.
@@ -26,6 +31,7 @@ __all__ = ["Backoff", "Disposition", "classify", "linger_wait", "retry_after_sec
 
 _RETRY_STATUSES = frozenset({408, 409, 429})
 _HALT_STATUSES = frozenset({401, 403, 404})
+_FINAL_CONFLICTS = frozenset({"idempotency_key_reused", "idempotency_key_in_doubt"})
 
 
 class Disposition(enum.Enum):
@@ -35,10 +41,12 @@ class Disposition(enum.Enum):
     REJECT_AND_HALT = "reject_and_halt"
 
 
-def classify(status: int) -> Disposition:
-    """How the forwarder treats an HTTP status."""
+def classify(status: int, code: str | None = None) -> Disposition:
+    """How the forwarder treats an HTTP status (and the problem ``code`` of its body, if any)."""
     if 200 <= status < 300:
         return Disposition.SENT
+    if status == 409 and code in _FINAL_CONFLICTS:
+        return Disposition.REJECT
     if status >= 500 or status in _RETRY_STATUSES:
         return Disposition.RETRY
     if status in _HALT_STATUSES:

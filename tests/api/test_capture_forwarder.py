@@ -73,6 +73,16 @@ def test_classify_statuses(status: int, expected: Disposition) -> None:
     assert classify(status) is expected
 
 
+@pytest.mark.parametrize(("code", "expected"), [
+    ("idempotency_key_reused", Disposition.REJECT), ("idempotency_key_in_doubt", Disposition.REJECT),
+    (None, Disposition.RETRY), ("something_else", Disposition.RETRY),
+])
+def test_409_that_can_never_succeed_is_rejected_not_retried(code: str | None, expected: Disposition) -> None:
+    """Our API's 409 codes for a reused or in-doubt key are final (api/idempotency.py); a plain 409
+    (key in flight, IETF Idempotency-Key draft §2.7 — from memory) is retried."""
+    assert classify(409, code) is expected
+
+
 def test_retry_after_both_forms() -> None:
     """Retry-After is delta-seconds or an HTTP-date (RFC 9110 §10.2.3); junk is ignored."""
     now = datetime(2026, 1, 1, 12, 0, 0, tzinfo=UTC)
