@@ -26,7 +26,7 @@ from typing import Literal
 from .errors import ReadingError
 from .units import UnitMismatch, UnknownUnit, unit_factor
 
-__all__ = ["Reading", "Relation", "format_number", "parse_number", "parse_reading"]
+__all__ = ["Reading", "Relation", "format_number", "parse_number", "parse_reading", "tidy_value"]
 
 Relation = Literal["=", ">", "<"]
 
@@ -139,7 +139,7 @@ def parse_reading(
         if not math.isfinite(raw):
             raise ReadingError(f"{field}: {raw!r} is not a finite number", field=field, text=str(raw))
         factor = _factor(default_unit, unit, field, str(raw)) if default_unit else 1.0
-        return Reading(value=_tidy(float(raw) * factor), text=None, source=source)
+        return Reading(value=tidy_value(float(raw) * factor), text=None, source=source)
     text = str(raw)
     folded = text.strip().lower()
     if folded in _NO_READING:
@@ -167,11 +167,18 @@ def parse_reading(
     relation = _RELATIONS[match.group("rel") or ""]
     if number < 0:
         raise ReadingError(f"{field}: {text!r} is negative", field=field, text=text)
-    return Reading(value=_tidy(number * factor), relation=relation, text=text, source=source)
+    return Reading(value=tidy_value(number * factor), relation=relation, text=text, source=source)
 
 
-def _tidy(value: float) -> float:
+def tidy_value(value: float) -> float:
     """Drop the binary noise a unit factor adds (350 mΩ → 0.35, not 0.35000000000000003)."""
+    if value == 0.0:  # keeps the sign of a zero, which the cache below would not tell apart
+        return value
+    return _tidy_cached(value)
+
+
+@lru_cache(maxsize=8192)  # meters print few distinct values; a million cells cost look-ups
+def _tidy_cached(value: float) -> float:
     return float(f"{value:.12g}")
 
 

@@ -17,11 +17,12 @@ import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 from .errors import ReadingError
 from .fields import FIELDS, FieldSpec
-from .readings import Reading, format_number, parse_number, parse_reading
+from .readings import Reading, format_number, parse_number, parse_reading, tidy_value
 
 __all__ = [
     "CircuitRecord",
@@ -130,6 +131,7 @@ def _fold(text: str) -> str:
     return _FOLD.sub("", text).lower()
 
 
+@lru_cache(maxsize=1024)  # a job names a handful of standards, on every circuit
 def normalise_standard(text: str) -> str:
     """``"bs en60898"`` → ``"BS EN 60898"``, ``"BS88-2"`` → ``"BS 88-2"``."""
     out = re.sub(r"\s+", " ", text.strip().upper())
@@ -180,6 +182,8 @@ def _choice(spec: FieldSpec, raw: Any, _u: str | None, _d: bool) -> str:
     if not isinstance(raw, str):
         raise ReadingError(f"{spec.name}: expected one of {', '.join(spec.choices)}",
                            field=spec.name, text=repr(raw))
+    if raw in spec.choices:  # already canonical (every stored record): what the folding gives
+        return raw
     folded = _fold(raw)
     aliases = _CHOICE_ALIASES.get(spec.name, {})
     if folded in aliases:
@@ -224,6 +228,8 @@ def _number(spec: FieldSpec, raw: Any, default_unit: str | None, decimal_comma: 
         raise ReadingError(f"{spec.name}: expected a number", field=spec.name, text=str(raw))
     if spec.unit == "degC":
         return _temperature(spec, raw, decimal_comma)
+    if default_unit is None and type(raw) in (int, float) and math.isfinite(raw):
+        return tidy_value(float(raw))  # what parse_reading gives a bare number, without the Reading
     assert spec.unit is not None
     reading = parse_reading(raw, field=spec.name, unit=spec.unit, default_unit=default_unit,
                             decimal_comma=decimal_comma)

@@ -2,8 +2,9 @@
 
 Run: ``python -m tests.bench.bench_stream_memory [--rows N]`` (default 1,000,000).
 
-The rows (every check's columns, grouped by board, origin boards first) are
-generated as they are read and never held. They go through ``CsvAdapter`` →
+It runs in a fresh child interpreter. The rows (every check's columns,
+grouped by board, origin boards first) are generated as they are read and
+never held. They go through ``CsvAdapter`` →
 ``adapters.iter_records`` → ``engine.stream.verify_stream``, which keeps one
 board at a time plus the distribution circuits later boards may be fed from.
 Every verdict is rendered (``as_dict``) and dropped. The peak growth of the
@@ -17,6 +18,8 @@ from __future__ import annotations
 import argparse
 import csv
 import io
+import json
+import subprocess
 import sys
 from collections.abc import Iterator
 
@@ -69,12 +72,22 @@ def _stream(rows: int) -> int:
     return count
 
 
-def run(rows: int = 1_000_000) -> list[Figure]:
+def measure(rows: int) -> dict[str, float]:
+    """Both passes in this process (call it in a fresh one: RSS left by earlier work hides growth)."""
     verify(synthetic.records(50))  # ruleset, tables and pint loaded before the first sample
     base_rows, base_s, base_mb = measure_rss(lambda: _baseline(rows))
     verdicts, seconds, growth = measure_rss(lambda: _stream(rows))
     assert verdicts == rows == base_rows, (verdicts, base_rows, rows)
-    print(f"stream: {rows:,} rows → {verdicts:,} verdicts in {seconds:.1f} s ({rows / seconds:,.0f} rows/s), "
+    return {"base_s": base_s, "base_mb": base_mb, "seconds": seconds, "growth": growth}
+
+
+def run(rows: int = 1_000_000) -> list[Figure]:
+    """The measurement in a child interpreter, so the growth is this pass's alone."""
+    done = subprocess.run([sys.executable, "-m", "tests.bench.bench_stream_memory", "--rows", str(rows),
+                           "--child"], capture_output=True, text=True, check=True)
+    got = json.loads(done.stdout.strip().splitlines()[-1])
+    base_s, base_mb, seconds, growth = got["base_s"], got["base_mb"], got["seconds"], got["growth"]
+    print(f"stream: {rows:,} rows → {rows:,} verdicts in {seconds:.1f} s ({rows / seconds:,.0f} rows/s), "
           f"peak RSS growth {growth:.1f} MB")
     print(f"stream: baseline csv.reader {rows / base_s:,.0f} rows/s, peak RSS growth {base_mb:.1f} MB")
     return [
@@ -88,7 +101,11 @@ def run(rows: int = 1_000_000) -> list[Figure]:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=1_000_000)
+    parser.add_argument("--child", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
+    if args.child:
+        print(json.dumps(measure(args.rows)))
+        return 0
     figures = run(args.rows)
     print_table(figures)
     return 0 if figures[0].met else 1
