@@ -22,6 +22,7 @@ import json
 import subprocess
 import sys
 from collections.abc import Iterator
+from pathlib import Path
 
 from adapters import AdapterOptions, iter_records
 from adapters.csv_adapter import CsvAdapter
@@ -31,7 +32,9 @@ from engine.stream import verify_stream
 from . import synthetic
 from .common import Figure, measure_rss, print_table
 
-__all__ = ["TARGET_MB", "GeneratedRows", "main", "run"]
+__all__ = ["TARGET_MB", "GeneratedRows", "main", "measure", "run"]
+
+ROOT = Path(__file__).resolve().parents[2]
 
 TARGET_MB = 50.0
 
@@ -84,7 +87,7 @@ def measure(rows: int) -> dict[str, float]:
 def run(rows: int = 1_000_000) -> list[Figure]:
     """The measurement in a child interpreter, so the growth is this pass's alone."""
     done = subprocess.run([sys.executable, "-m", "tests.bench.bench_stream_memory", "--rows", str(rows),
-                           "--child"], capture_output=True, text=True, check=True)
+                           "--child"], capture_output=True, text=True, check=True, cwd=ROOT)
     got = json.loads(done.stdout.strip().splitlines()[-1])
     base_s, base_mb, seconds, growth = got["base_s"], got["base_mb"], got["seconds"], got["growth"]
     print(f"stream: {rows:,} rows → {rows:,} verdicts in {seconds:.1f} s ({rows / seconds:,.0f} rows/s), "
