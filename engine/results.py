@@ -10,6 +10,7 @@ Invariants:
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from enum import StrEnum
@@ -100,7 +101,7 @@ class CheckResult:
 
 def _round(value: float | None) -> float | None:
     """Six significant figures: far below any meter's resolution, free of float noise."""
-    if value is None:
+    if value is None or not math.isfinite(value):  # JSON has no infinity; None reads "no figure"
         return None
     if abs(value) < 1e-9:  # a difference of two equal readings, not a measurement
         return 0.0

@@ -27,9 +27,17 @@ class Missing:
     reason: str
 
 
+_USABLE_FLOOR = 1e-9
+
+
 def positive(value: float | None) -> float | None:
-    """The value if it is a finite number above zero, else ``None`` (a 0 A rating is no rating)."""
-    if value is None or not math.isfinite(value) or value <= 0:
+    """The value if it is a finite number above zero, else ``None`` (a 0 A rating is no rating).
+
+    Values below ``_USABLE_FLOOR`` count as zero too: no rating, residual
+    current or voltage is a nanounit, and dividing by a denormal (5e-324 mA,
+    found by the property test) overflows to infinity.
+    """
+    if value is None or not math.isfinite(value) or value < _USABLE_FLOOR:
         return None
     return value
 

@@ -42,3 +42,14 @@ def test_any_loose_input_builds_and_verifies_without_raising(data: list[dict[str
         if record is not None:
             batch.append(record)
     _assert_clean(batch, ruleset)
+
+
+def test_denormal_residual_current_is_no_rating() -> None:
+    """Found by the property test: IΔn = 5e-324 mA divided 50 V by zero; it now counts as unrecorded."""
+    from engine import Reading
+
+    record = CircuitRecord(board="DB1", circuit="1", earthing="TT", rcd_residual_ma=5e-324,
+                           zs_ohm=Reading(value=0.0))
+    [verdict] = verify([record])
+    assert verdict.errors == ()
+    assert {c.check: c.outcome for c in verdict.checks}["loop_impedance"] is Outcome.INCOMPLETE
