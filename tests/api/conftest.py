@@ -27,6 +27,7 @@ from sqlalchemy.engine import make_url
 from api.app import create_app
 from api.db import upgrade
 from tests.api.openapi_check import check_response
+from tests.api.webhook_receiver import Receiver
 
 POSTGRES_ENV = "OHMTALLY_TEST_POSTGRES_URL"
 _TABLES = ("webhook_deliveries", "webhook_events", "webhook_subscriptions",
@@ -169,3 +170,21 @@ def runner(capsys: pytest.CaptureFixture[str]) -> Callable[..., tuple[int, str, 
         return status, captured.out, captured.err
 
     return run
+
+
+# Webhook tests: an app that may deliver to loopback, and a receiver on a loopback port.
+@pytest.fixture
+def hook_app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
+    return app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
+
+
+@pytest.fixture
+def hooks(hook_app: Flask) -> FlaskClient:
+    return hook_app.test_client()
+
+
+@pytest.fixture
+def receiver() -> Iterator[Receiver]:
+    found = Receiver().start()
+    yield found
+    found.stop()

@@ -19,7 +19,7 @@ import hmac
 import json
 import re
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -31,28 +31,9 @@ from sqlalchemy import select
 from api.models import Organisation
 from api.webhooks.delivery import DeliveryConfig, run_once
 from api.webhooks.models import WebhookDelivery, WebhookEvent, WebhookSubscription
-from tests.api.webhook_receiver import Receiver
+from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
 README = Path(__file__).resolve().parents[2] / "api" / "README-INTEGRATING.md"
-ALL_EVENTS = ["job.created", "readings.accepted", "verdict.changed"]
-FAST = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=0.05, retry_max_s=0.2)
-
-
-@pytest.fixture
-def hook_app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
-    return app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
-
-
-@pytest.fixture
-def hooks(hook_app: Flask) -> FlaskClient:
-    return hook_app.test_client()
-
-
-@pytest.fixture
-def receiver() -> Iterator[Receiver]:
-    found = Receiver().start()
-    yield found
-    found.stop()
 
 
 def readme_recipe() -> Callable[..., bool]:

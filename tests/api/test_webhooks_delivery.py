@@ -19,7 +19,7 @@ import subprocess
 import sys
 import threading
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable
 from datetime import datetime
 from pathlib import Path
 from typing import Any
@@ -35,28 +35,9 @@ from api.db import upgrade
 from api.webhooks.delivery import DeliveryConfig, backoff_s, run_once
 from api.webhooks.models import WebhookEvent
 from engine import build_record, verify
-from tests.api.webhook_receiver import Receiver
+from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
 ROOT = Path(__file__).resolve().parents[2]
-ALL_EVENTS = ["job.created", "readings.accepted", "verdict.changed"]
-FAST = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=0.05, retry_max_s=0.2)
-
-
-@pytest.fixture
-def hook_app(db_url: str, app_factory: Callable[..., Flask]) -> Flask:
-    return app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
-
-
-@pytest.fixture
-def hooks(hook_app: Flask) -> FlaskClient:
-    return hook_app.test_client()
-
-
-@pytest.fixture
-def receiver() -> Iterator[Receiver]:
-    found = Receiver().start()
-    yield found
-    found.stop()
 
 
 def _subscribe(client: FlaskClient, url: str, events: list[str] | None = None) -> dict[str, Any]:

@@ -12,7 +12,13 @@ from dataclasses import dataclass, field
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from typing import Any
 
-__all__ = ["Receipt", "Receiver"]
+from api.webhooks.delivery import DeliveryConfig
+
+__all__ = ["ALL_EVENTS", "FAST", "Receipt", "Receiver"]
+
+ALL_EVENTS = ["job.created", "readings.accepted", "verdict.changed"]
+# Delivery settings for tests: loopback allowed, retries in tens of milliseconds.
+FAST = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=0.05, retry_max_s=0.2)
 
 
 @dataclass(frozen=True, slots=True)
