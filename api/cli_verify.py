@@ -37,6 +37,7 @@ from engine import (
     ruleset_from_data,
     verify,
 )
+from engine.verify import collector_paused
 
 from .bodies import verify_body
 from .cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
@@ -94,9 +95,8 @@ def _read_json(path: Path) -> tuple[list[CircuitRecord], list[dict[str, Any]], s
 
 def _read_adapter(path: Path, adapter: str | None, profile: str | None
                   ) -> tuple[list[CircuitRecord], list[dict[str, Any]]]:
-    from adapters.registry import adapter_for_extension, get_adapter
-
     from adapters import AdapterOptions, collect
+    from adapters.registry import adapter_for_extension, get_adapter
 
     chosen = get_adapter(adapter) if adapter else adapter_for_extension(path.suffix)
     with path.open("rb") as stream:
@@ -162,7 +162,8 @@ def run(args: argparse.Namespace) -> int:
         print(f"ohmtally verify: {exc}", file=sys.stderr)
         return EXIT_USAGE
     verdicts = verify(records, ruleset)
-    body = verify_body(ruleset, verdicts, rejected)
+    with collector_paused():  # the body is fresh acyclic dicts: see engine.verify.collector_paused
+        body = verify_body(ruleset, verdicts, rejected)
     _write(body, args.format, policy)
     if policy.failing_circuits(body["verdicts"]):
         return EXIT_FAIL
