@@ -2,7 +2,7 @@
 
 Invariants:
 - :data:`SETTINGS` is the one table of settings: name, default and meaning;
-  api/README-API.md lists the same table.
+  README.md ("Settings", "Security") lists the same table.
 - ``create_app(config)`` takes settings from the environment first and the
   ``config`` mapping over them (tests pass a mapping, never touch os.environ).
 - A bad value (``OHMTALLY_AUTH=maybe``) raises :class:`SettingsError` at start-up,
@@ -40,7 +40,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("MAX_UPLOAD_BYTES", str(16 * 1024 * 1024), "largest request body accepted (413 above)"),
     Setting("INSTANCE_PATH", "", "instance folder (database, local files); empty: Flask's default"),
     Setting("PAGE_LIMIT", "50", "default page size of GET /v1/jobs (at most 500)"),
-    # Webhooks (api/README-INTEGRATING.md).
+    # Webhooks (README.md, "Integrating").
     Setting("WEBHOOK_ALLOW_PRIVATE", "off", "'on': webhook URLs may resolve to loopback, private or "
             "link-local addresses (tests, a private network); 'off': refused at subscription and send"),
     Setting("WEBHOOK_WORKER", "on", "'on': `serve` runs a delivery thread in each worker; 'off': run "
@@ -49,7 +49,7 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("WEBHOOK_RETRY_BASE_S", "10", "wait after a first failed delivery; doubles each retry"),
     Setting("WEBHOOK_RETRY_MAX_S", "3600", "longest wait between two attempts of a delivery"),
     Setting("WEBHOOK_MAX_ATTEMPTS", "30", "attempts before a delivery is marked failed (about a day)"),
-    # Limits (api/README-SECURITY.md): a body that breaks one is refused whole, and kept.
+    # Limits (README.md, "Security"): a body that breaks one is refused whole, and kept.
     Setting("MAX_ROWS", "20000", "most rows (CSV/lines/NDJSON lines, JSON circuits) in one body (413 above)"),
     Setting("MAX_LINE_BYTES", "8192", "longest line of a text body, in bytes (413 above)"),
     Setting("RATE_LIMIT", "600/minute", "requests per API key (per client address with auth off); "

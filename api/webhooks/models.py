@@ -25,7 +25,7 @@ from ..models import Base, UtcDateTime, utcnow
 
 __all__ = ["DELIVERY_STATUSES", "EVENT_TYPES", "WebhookDelivery", "WebhookEvent", "WebhookSubscription"]
 
-# The events a subscription can ask for (api/README-INTEGRATING.md describes each body).
+# The events a subscription can ask for (README.md, "Integrating", describes each body).
 EVENT_TYPES: tuple[str, ...] = ("job.created", "readings.accepted", "verdict.changed")
 DELIVERY_STATUSES: tuple[str, ...] = ("pending", "delivered", "failed")
 

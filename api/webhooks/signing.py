@@ -35,7 +35,7 @@ EVENT_ID_HEADER = "Ohmtally-Event-Id"
 EVENT_HEADER = "Ohmtally-Event"
 DELIVERY_HEADER = "Ohmtally-Delivery"
 # Five minutes either way: room for clock drift and a slow network, short enough
-# that a captured request is soon useless (our choice; documented in README-INTEGRATING).
+# that a captured request is soon useless (our choice; documented in README.md, "Integrating").
 REPLAY_WINDOW_S = 300
 
 
@@ -55,7 +55,7 @@ def signature_header(secret: str, timestamp: int, body: bytes) -> str:
 
 def verify_signature(secret: str, header: str, body: bytes, *, now: float,
                      window_s: int = REPLAY_WINDOW_S) -> bool:
-    """The receiver's check, as README-INTEGRATING gives it: fresh ``t`` and a matching ``v1``."""
+    """The receiver's check, as README.md's "Checking the signature" gives it: fresh ``t`` and a matching ``v1``."""
     fields = dict(part.split("=", 1) for part in header.split(",") if "=" in part)
     try:
         timestamp = int(fields["t"])

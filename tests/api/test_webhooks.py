@@ -2,7 +2,7 @@
 
 External references:
 - The signature is checked with the Python recipe printed in
-  api/README-INTEGRATING.md, extracted from the file and run as is, on the
+  README.md ("Checking the signature"), extracted from the file and run as is, on the
   standard library's hmac/hashlib (RFC 2104 HMAC, FIPS 180-4 SHA-256); a
   second check uses a hand-built HMAC with the standard library directly.
 - Address classes come from the standard library's ipaddress module and the
@@ -33,11 +33,11 @@ from api.webhooks.delivery import DeliveryConfig, run_once
 from api.webhooks.models import WebhookDelivery, WebhookEvent, WebhookSubscription
 from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
-README = Path(__file__).resolve().parents[2] / "api" / "README-INTEGRATING.md"
+README = Path(__file__).resolve().parents[2] / "README.md"
 
 
 def readme_recipe() -> Callable[..., bool]:
-    """The `verify_ohmtally` function exactly as README-INTEGRATING prints it."""
+    """The `verify_ohmtally` function exactly as README.md prints it."""
     text = README.read_text(encoding="utf-8")
     block = next(b for b in re.findall(r"```python\n(.*?)```", text, re.S) if "def verify_ohmtally" in b)
     namespace: dict[str, Any] = {}
