@@ -55,7 +55,7 @@ def signature_header(secret: str, timestamp: int, body: bytes) -> str:
 
 def verify_signature(secret: str, header: str, body: bytes, *, now: float,
                      window_s: int = REPLAY_WINDOW_S) -> bool:
-    """The receiver's check, as README.md's "Checking the signature" gives it: fresh ``t`` and a matching ``v1``."""
+    """The receiver's check (README.md, "Checking the signature"): fresh ``t``, matching ``v1``."""
     fields = dict(part.split("=", 1) for part in header.split(",") if "=" in part)
     try:
         timestamp = int(fields["t"])
