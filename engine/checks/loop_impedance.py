@@ -27,6 +27,7 @@ from typing import Any
 
 from ..context import CircuitView, Context
 from ..protection import (
+    Device,
     MaxZs,
     Missing,
     disconnection_time,
@@ -48,14 +49,61 @@ CHECK = "loop_impedance"
 _MA_PER_A = 1000.0
 
 
-def _max_zs(view: CircuitView, rules: Ruleset) -> tuple[MaxZs | Missing, float | None]:
+# Keys of this check's entries in ctx.cache (per verify call, so nothing outlives the ruleset).
+# resolve_device, max_zs_for and rule_of_thumb_limit are pure functions of the ruleset and
+# their arguments; a board repeats a few devices, and recomputing them per circuit (Decimal
+# arithmetic, standard matching) was a sixth of verify()'s time (tests/bench). Numbers enter
+# the keys with their type, so 32 and 32.0 never share an entry even though they compare equal.
+_DEVICE_KEY = "loop_impedance.device"
+_MAX_ZS_KEY = "loop_impedance.max_zs"
+_THUMB_KEY = "loop_impedance.thumb"
+
+
+def _typed(value: object) -> tuple[type, object]:
+    return (type(value), value)
+
+
+def _device(ctx: Context, view: CircuitView) -> Device | Missing:
+    raw = (view.raw("device_kind"), view.raw("device_standard"), view.raw("device_curve"),
+           view.raw("device_rating_a"))
+    key = (_DEVICE_KEY, *map(_typed, raw))
+    try:
+        cached: Device | Missing = ctx.cache[key]
+    except KeyError:
+        cached = ctx.cache[key] = resolve_device(ctx.ruleset, kind=raw[0], standard=raw[1],
+                                                 curve=raw[2], rating_a=raw[3])
+    except TypeError:  # an unhashable value: compute without the cache
+        return resolve_device(ctx.ruleset, kind=raw[0], standard=raw[1], curve=raw[2],
+                              rating_a=raw[3])
+    return cached
+
+
+def _table_max_zs(ctx: Context, device: Device, u0: float, seconds: float) -> MaxZs | Missing:
+    key = (_MAX_ZS_KEY, device, _typed(device.rating_a), _typed(u0), _typed(seconds))
+    try:
+        cached: MaxZs | Missing = ctx.cache[key]
+    except KeyError:
+        cached = ctx.cache[key] = max_zs_for(ctx.ruleset, device, u0, seconds)
+    return cached
+
+
+def _thumb(ctx: Context, max_ohm: float) -> float:
+    key = (_THUMB_KEY, _typed(max_ohm))
+    try:
+        cached: float = ctx.cache[key]
+    except KeyError:
+        cached = ctx.cache[key] = rule_of_thumb_limit(ctx.ruleset, max_ohm)
+    return cached
+
+
+def _max_zs(view: CircuitView, ctx: Context) -> tuple[MaxZs | Missing, float | None]:
     """The maximum Zs and the disconnection time it was taken for."""
+    rules = ctx.ruleset
     override = positive(view.raw("device_max_zs_ohm"))
     if override is not None:
         return MaxZs(ohm=override, basis="record: device_max_zs_ohm (designer's or maker's figure)",
                      device="as recorded"), None
-    device = resolve_device(rules, kind=view.raw("device_kind"), standard=view.raw("device_standard"),
-                            curve=view.raw("device_curve"), rating_a=view.raw("device_rating_a"))
+    device = _device(ctx, view)
     timing = disconnection_time(view, rules)
     if isinstance(device, Missing) or isinstance(timing, Missing):
         fields = [f for m in (device, timing) if isinstance(m, Missing) for f in m.fields]
@@ -66,7 +114,7 @@ def _max_zs(view: CircuitView, rules: Ruleset) -> tuple[MaxZs | Missing, float |
     u0 = positive(view.get("nominal_voltage_v"))
     if u0 is None:
         return Missing(fields=("nominal_voltage_v",), reason="U0 sets the maximum Zs"), None
-    return max_zs_for(rules, device, u0, timing.seconds), timing.seconds
+    return _table_max_zs(ctx, device, u0, timing.seconds), timing.seconds
 
 
 def _inputs(limit: MaxZs, seconds: float | None, **extra: Any) -> dict[str, Any]:
@@ -107,19 +155,20 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         else:
             yield _rcd_result(zs, idn, rules, "TT system", {"earthing": "TT"})
         return
-    limit, seconds = _max_zs(view, rules)
+    limit, seconds = _max_zs(view, ctx)
     if isinstance(limit, Missing):
         yield incomplete(CHECK, list(limit.fields), detail=f"cannot set the maximum Zs: {limit.reason}")
         return
     if zs is None:
         yield incomplete(CHECK, ["zs_ohm"], basis=limit.basis, inputs=_inputs(limit, seconds))
         return
-    yield _judge(view, rules, zs, limit, seconds, idn)
+    yield _judge(view, ctx, zs, limit, seconds, idn)
 
 
-def _judge(view: CircuitView, rules: Ruleset, zs: Reading, limit: MaxZs, seconds: float | None,
+def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: MaxZs, seconds: float | None,
            idn: float | None) -> CheckResult:
-    thumb = rule_of_thumb_limit(rules, limit.ohm)
+    rules = ctx.ruleset
+    thumb = _thumb(ctx, limit.ohm)
     inputs = _inputs(limit, seconds, rule_of_thumb_limit=thumb)
     basis = f"{limit.basis}; {rules.basis('max_zs', 'rule_of_thumb_factor')}"
     common: dict[str, Any] = {"check": CHECK, "unit": "Ω", "limit_kind": "max", "basis": basis}
