@@ -26,16 +26,20 @@ from .ruleset import Ruleset
 
 __all__ = ["CircuitView", "Context"]
 
+_NO_DEFAULTS: Mapping[str, Any] = {}
+
 
 class CircuitView:
     """A record plus defaults, recording which defaults were used."""
 
-    __slots__ = ("defaults_applied", "record", "ruleset")
+    __slots__ = ("_defaults", "defaults_applied", "record", "ruleset")
 
     def __init__(self, record: CircuitRecord, ruleset: Ruleset) -> None:
         self.record = record
         self.ruleset = ruleset
         self.defaults_applied: dict[str, Any] = {}
+        # the ruleset's defaults section, looked up once per circuit rather than per get()
+        self._defaults: Mapping[str, Any] = ruleset.sections.get("defaults", _NO_DEFAULTS)
 
     def __repr__(self) -> str:
         return f"CircuitView({self.record.board!r}, {self.record.circuit!r})"
@@ -54,7 +58,8 @@ class CircuitView:
             if line is not None:
                 self.defaults_applied[name] = line
             return line
-        default = self.ruleset.get("defaults", name)
+        entry = self._defaults.get(name)  # same answer as ruleset.get("defaults", name)
+        default = None if entry is None else entry.value
         if default is not None:
             self.defaults_applied[name] = default
         return default
