@@ -61,13 +61,27 @@ def band_for(rules: Ruleset, circuit_v: float) -> Band:
                 basis=rules.basis(SECTION, f"{key}_min_mohm"))
 
 
-def _circuit_voltage(view: CircuitView, rules: Ruleset) -> float | None:
+# band_for is a pure function of the ruleset and the voltage, asked up to three times per
+# circuit for the same few voltages: cached per verify call in ctx.cache (tests/bench).
+_BAND_KEY = "insulation.band"
+
+
+def _band(ctx: Context, circuit_v: float) -> Band:
+    key = (_BAND_KEY, type(circuit_v), circuit_v)
+    try:
+        cached: Band = ctx.cache[key]
+    except KeyError:
+        cached = ctx.cache[key] = band_for(ctx.ruleset, circuit_v)
+    return cached
+
+
+def _circuit_voltage(view: CircuitView, ctx: Context) -> float | None:
     u0 = view.get("nominal_voltage_v")
     if u0 is None:
         return None
     # Table 64 bands by the circuit's nominal voltage: line to line on a three-phase circuit
     line_to_line = float(u0) * math.sqrt(3)
-    if view.raw("phases") is None and band_for(rules, float(u0)) == band_for(rules, line_to_line):
+    if view.raw("phases") is None and _band(ctx, float(u0)) == _band(ctx, line_to_line):
         return float(u0)  # same band either way: no need to assume (and report) a phase count
     return line_to_line if view.get("phases") == 3 else float(u0)
 
@@ -78,11 +92,11 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     if all(r is None for _, _, r in readings):
         yield incomplete(CHECK, [name for name, _ in _READINGS], basis=rules.basis(SECTION, "lv_min_mohm"))
         return
-    circuit_v = _circuit_voltage(view, rules)
+    circuit_v = _circuit_voltage(view, ctx)
     if circuit_v is None:
         yield incomplete(CHECK, ["nominal_voltage_v"], detail="the minimum depends on the circuit voltage")
         return
-    band = band_for(rules, circuit_v)
+    band = _band(ctx, circuit_v)
     test_v = view.raw("ir_test_v")
     for name, where, reading in readings:
         if reading is None:
