@@ -32,6 +32,8 @@ CHECK_IDS: tuple[str, ...] = (
     "voltage_drop",
 )
 
+_KNOWN_CHECKS: frozenset[str] = frozenset(CHECK_IDS)  # one hash per result, not a scan of the tuple
+
 LimitKind = Literal["max", "min"]
 
 
@@ -69,7 +71,11 @@ class CheckResult:
     inputs: Mapping[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        if self.check not in CHECK_IDS:
+        try:
+            known = self.check in _KNOWN_CHECKS
+        except TypeError:  # unhashable, so certainly no check id: the same ValueError as before
+            known = False
+        if not known:
             raise ValueError(f"unknown check id {self.check!r}")
 
     @property
