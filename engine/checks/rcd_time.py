@@ -54,7 +54,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
                 yield incomplete(CHECK, [field], basis=rules.basis(SECTION, high_key),
                                  inputs={"test": multiple, "rcd_kind": kind})
             continue
-        yield _window(rules, reading, multiple, kind, low_key, high_key, f"trip_time_{suffix}")
+        yield _window(ctx, reading, multiple, kind, low_key, high_key, f"trip_time_{suffix}")
     half = view.raw("rcd_half_no_trip")
     if half is not None:
         yield CheckResult(
@@ -64,20 +64,40 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
             else "tripped at ½ IΔn: the device must not operate at half its rated residual current")
 
 
-def _window(rules: Ruleset, reading: Reading, multiple: str, kind: str, low_key: str | None,
+# The limits of a window depend on the ruleset alone: looked up once per verify call and
+# kept in ctx.cache, not four ruleset lookups per reading (tests/bench). A missing value
+# still raises here, at the same point, so the error and the results before it are as before.
+_LIMITS_KEY = "rcd_time.limits"
+
+
+def _limits(ctx: Context, low_key: str | None,
+            high_key: str) -> tuple[float, float | None, str, str | None]:
+    """(max ms, min ms or None, basis of the max, basis of the min or None)."""
+    key = (_LIMITS_KEY, low_key, high_key)
+    try:
+        cached: tuple[float, float | None, str, str | None] = ctx.cache[key]
+    except KeyError:
+        rules = ctx.ruleset
+        high = float(rules.value(SECTION, high_key))
+        low = float(rules.value(SECTION, low_key)) if low_key else None
+        cached = ctx.cache[key] = (high, low, rules.basis(SECTION, high_key),
+                                   rules.basis(SECTION, low_key) if low_key else None)
+    return cached
+
+
+def _window(ctx: Context, reading: Reading, multiple: str, kind: str, low_key: str | None,
             high_key: str, method: str) -> CheckResult:
-    high = float(rules.value(SECTION, high_key))
-    low = float(rules.value(SECTION, low_key)) if low_key else None
+    high, low, high_basis, low_basis = _limits(ctx, low_key, high_key)
     shown = reading.display("ms")
-    limit, basis = high, rules.basis(SECTION, high_key)
+    limit, basis = high, high_basis
     limit_kind: LimitKind = "max"
     side_high = compare_max(reading, high)
     side_low = compare_min(reading, low) if low is not None else Side.WITHIN
     if side_high is Side.BEYOND:
         outcome, text = Outcome.FAIL, f"{shown} at {multiple} is above the {high:g} ms maximum"
     elif side_low is Side.BEYOND:
-        assert low is not None and low_key is not None
-        limit, limit_kind, basis = low, "min", rules.basis(SECTION, low_key)
+        assert low is not None and low_basis is not None
+        limit, limit_kind, basis = low, "min", low_basis
         outcome, text = Outcome.FAIL, (f"{shown} at {multiple} is below the {low:g} ms a type S "
                                        "device must not trip within (loss of discrimination)")
     elif side_high is Side.UNKNOWN or side_low is Side.UNKNOWN:
