@@ -17,16 +17,13 @@ import csv
 import io
 import random
 import sys
-import threading
-import time
-from collections.abc import Callable, Iterator
-
-import psutil
+from collections.abc import Iterator
 
 from adapters import AdapterOptions, iter_records
 from adapters.csv_adapter import CsvAdapter
+from tests.bench.common import measure_rss
 
-__all__ = ["GeneratedCsv", "main", "measure"]
+__all__ = ["GeneratedCsv", "main"]
 
 HEADER = "DB,Cct,Description,Zs (Ω),R1+R2,IR L-E [MΩ],IR L-N [MΩ],RCD ms,Polarity\n"
 
@@ -62,30 +59,6 @@ class GeneratedCsv(io.RawIOBase):
         return n
 
 
-def measure(work: Callable[[], int]) -> tuple[int, float, float]:
-    """(items, seconds, peak RSS growth in MB) of ``work()``, RSS sampled every 5 ms."""
-    process = psutil.Process()
-    start_rss = process.memory_info().rss
-    peak = start_rss
-    done = threading.Event()
-
-    def sample() -> None:
-        nonlocal peak
-        while not done.is_set():
-            peak = max(peak, process.memory_info().rss)
-            time.sleep(0.005)
-
-    sampler = threading.Thread(target=sample, daemon=True)
-    sampler.start()
-    began = time.perf_counter()
-    items = work()
-    elapsed = time.perf_counter() - began
-    done.set()
-    sampler.join()
-    peak = max(peak, process.memory_info().rss)
-    return items, elapsed, (peak - start_rss) / 1e6
-
-
 def _baseline(rows: int) -> int:
     stream = io.TextIOWrapper(io.BufferedReader(GeneratedCsv(rows)), encoding="utf-8", newline="")
     return sum(1 for _ in csv.reader(stream)) - 1
@@ -101,8 +74,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--rows", type=int, default=1_000_000)
     parser.add_argument("--target-mb", type=float, default=50.0)
     args = parser.parse_args(argv)
-    base_rows, base_s, base_mb = measure(lambda: _baseline(args.rows))
-    rows, seconds, growth_mb = measure(lambda: _adapter(args.rows))
+    base_rows, base_s, base_mb = measure_rss(lambda: _baseline(args.rows))
+    rows, seconds, growth_mb = measure_rss(lambda: _adapter(args.rows))
     if rows != args.rows or base_rows != args.rows:
         print(f"row count mismatch: adapter {rows}, csv.reader {base_rows}, expected {args.rows}")
         return 1
