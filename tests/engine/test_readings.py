@@ -58,6 +58,7 @@ def test_over_range_markers_are_bounded_without_a_value(text: str) -> None:
 
 @pytest.mark.parametrize("text", ["", "  ", "-", "n/a", "N/A", "NT"])
 def test_no_reading_is_absent(text: str) -> None:
+    """'not tested' spellings parse to None (absent), never to zero."""
     assert parse_reading(text, field="zs_ohm", unit="ohm") is None
 
 
@@ -72,6 +73,7 @@ def test_decimal_comma_only_when_declared() -> None:
 @pytest.mark.parametrize(("text", "unit"), [("2 kA", "ohm"), ("0.4 Ω", "kA"), ("30 mA", "ms"),
                                             ("12 V", "megaohm")])
 def test_unit_of_another_dimension_is_an_error_naming_field_and_text(text: str, unit: str) -> None:
+    """A unit of another dimension (kA in an ohm field) is an error naming field and text."""
     with pytest.raises(ReadingError) as info:
         parse_reading(text, field="zs_ohm", unit=unit)
     assert info.value.field == "zs_ohm"
@@ -81,6 +83,7 @@ def test_unit_of_another_dimension_is_an_error_naming_field_and_text(text: str, 
 
 @pytest.mark.parametrize("text", ["abc", "1.2.3.4x", "--5", "0.5 furlongs"])
 def test_garbage_is_an_error(text: str) -> None:
+    """Text that is no number, bound or marker is an error, not a silent None."""
     with pytest.raises(ReadingError):
         parse_reading(text, field="zs_ohm", unit="ohm")
 

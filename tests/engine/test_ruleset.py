@@ -11,11 +11,13 @@ from engine.ruleset import MARKERS
 
 
 def test_builtin_rulesets_present() -> None:
+    """Both rulesets the contract asks for are packaged (DESIGN.md: UK default and IEC)."""
     assert {"bs7671-2018-a2", "iec-60364"} <= set(builtin_ruleset_ids())
 
 
 @pytest.mark.parametrize("rid", ["bs7671-2018-a2", "iec-60364"])
 def test_every_builtin_value_names_a_source_and_marker(rid: str) -> None:
+    """Every packaged value carries a non-empty source and one of the five markers."""
     rules = load_builtin(rid)
     assert rules.sources, "a ruleset lists the sources it relies on"
     count = 0
@@ -32,6 +34,7 @@ def _doc(**extra: Any) -> dict[str, Any]:
 
 
 def test_user_ruleset_overrides_one_value_of_its_base() -> None:
+    """A local-code file with a base overrides only the entries it names."""
     base = load_builtin("bs7671-2018-a2")
     doc = _doc(base="bs7671-2018-a2", sections={
         "defaults": {"nominal_voltage_v": {"value": 240, "source": "local code 1.2", "marker": "S"}}
@@ -55,11 +58,13 @@ def test_user_ruleset_overrides_one_value_of_its_base() -> None:
     ],
 )
 def test_invalid_user_ruleset_is_a_clear_error(doc: dict[str, Any], pointer: str) -> None:
+    """Each malformed document is refused with a pointer to the member at fault."""
     with pytest.raises(RulesetError) as info:
         ruleset_from_data(doc)
     assert info.value.field == pointer
 
 
 def test_unknown_builtin_lists_the_valid_ids() -> None:
+    """An unknown ruleset id is an error that names the ids that exist."""
     with pytest.raises(RulesetError, match="bs7671-2018-a2"):
         load_builtin("nope")
