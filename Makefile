@@ -18,7 +18,7 @@ setup: $(STAMP)
 demo: $(STAMP)
 	$(BIN)/ohmtally demo
 
-## Lint, type-check the engine, run the tests.
+## Lint, type-check (strict), run the tests.
 test: $(STAMP)
 	$(BIN)/ruff check engine adapters api tests
 	$(BIN)/mypy

@@ -100,10 +100,10 @@ class Verify(MethodView):
         ruleset = resolve_ruleset(ruleset_id, **where)
         records = intake.records()
         with collector_paused():  # the body is fresh acyclic dicts: see engine.verify.collector_paused
-            body = verify_body(ruleset, verify(records, ruleset), intake.rejected)
+            answer = verify_body(ruleset, verify(records, ruleset), intake.rejected)
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
-        failing = {FAILING_HEADER: str(policy.failing_circuits(body["verdicts"]))}
+        failing = {FAILING_HEADER: str(policy.failing_circuits(answer["verdicts"]))}
         if query.get("format") is None:
-            return verdicts_response(body, headers=failing)
-        text, media_type = render(body, query["format"], policy)
+            return verdicts_response(answer, headers=failing)
+        text, media_type = render(answer, query["format"], policy)
         return Response(text, status=200, content_type=media_type, headers=failing)
