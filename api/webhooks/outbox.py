@@ -23,7 +23,7 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from engine import Ruleset, Verdict, verify
+from engine import NOTICE, Ruleset, Verdict, verify
 
 from ..models import Circuit, Job, Upload, utcnow
 from ..repository import job_records
@@ -109,4 +109,4 @@ def emit_readings(session: Session, job: Job, upload: Upload, *, touched: Sequen
              data={"job_id": job.id, "job_external_ref": job.external_ref, "job_revision": job.revision,
                    "board": board, "circuit": circuit, "circuit_external_ref": refs.get((board, circuit)),
                    "previous": previous, "outcome": outcome, "upload_id": upload.id,
-                   "verdicts_href": f"/v1/jobs/{job.id}/verdicts"})
+                   "verdicts_href": f"/v1/jobs/{job.id}/verdicts", "notice": NOTICE})

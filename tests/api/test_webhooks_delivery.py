@@ -34,7 +34,7 @@ from api.cli_demo import free_port, wait_healthy
 from api.db import upgrade
 from api.webhooks.delivery import DeliveryConfig, backoff_s, run_once
 from api.webhooks.models import WebhookEvent
-from engine import build_record, verify
+from engine import NOTICE, build_record, verify
 from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -168,6 +168,7 @@ def test_verdict_changed_fires_exactly_when_an_outcome_changes(hooks: FlaskClien
     assert changed["previous"] == expected_first[("DB1", "1")]
     assert changed["outcome"] == next(v.outcome.value for v in after if v.key == ("DB1", "1")) == "fail"
     assert (changed["board"], changed["circuit"]) == ("DB1", "1")
+    assert changed["notice"] == NOTICE  # an outcome travels with the safety caution
     run_once(hook_app.extensions["ohmtally.db"], FAST)
     assert len(receiver.receipts) == 3  # DB1/2 did not change: no event for it
 
