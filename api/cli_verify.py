@@ -141,6 +141,8 @@ def _write(body: dict[str, Any], fmt: str, policy: Policy) -> None:
         return
     text, _media_type = render(body, fmt, policy, generated_at=_generated_at())
     sys.stdout.write(text)
+    if fmt == "csv":  # CSV has no place for prose: the caution goes to the person, not the parser
+        print("CAUTION: " + body["notice"], file=sys.stderr)
 
 
 def run(args: argparse.Namespace) -> int:

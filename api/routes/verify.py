@@ -49,10 +49,14 @@ class VerifyQuerySchema(ReadingsQuerySchema):
 
 _TEXT = {"schema": {"type": "string"}}
 FAILING_HEADER = "Ohmtally-Failing-Circuits"
+# CSV has no place for prose, so every rendered answer also carries the caution in a header.
+NOTICE_HEADER = "Ohmtally-Notice"
 _FORMATS_DOC: dict[int, Any] = {200: {
     "content": {media.split(";")[0]: _TEXT for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
     "headers": {FAILING_HEADER: {"schema": {"type": "integer"},
-                                 "description": "circuits failing under fail_on (so a curl step can gate)"}}}}
+                                 "description": "circuits failing under fail_on (so a curl step can gate)"},
+                "Ohmtally-Notice": {"schema": {"type": "string"},
+                                    "description": "the safety caution, also in the JSON body's notice"}}}}
 
 
 def verdicts_response(data: dict[str, Any], headers: dict[str, str] | None = None) -> Response:
@@ -102,7 +106,8 @@ class Verify(MethodView):
         with collector_paused():  # the body is fresh acyclic dicts: see engine.verify.collector_paused
             answer = verify_body(ruleset, verify(records, ruleset), intake.rejected)
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
-        failing = {FAILING_HEADER: str(policy.failing_circuits(answer["verdicts"]))}
+        failing = {FAILING_HEADER: str(policy.failing_circuits(answer["verdicts"])),
+                   NOTICE_HEADER: answer["notice"]}
         if query.get("format") is None:
             return verdicts_response(answer, headers=failing)
         text, media_type = render(answer, query["format"], policy)

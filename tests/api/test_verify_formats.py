@@ -23,6 +23,8 @@ import pytest
 from flask.testing import FlaskClient
 from junitparser import Failure, JUnitXml, Skipped
 
+from engine import NOTICE
+
 Runner = Callable[..., tuple[int, str, str]]
 
 CIRCUITS = [
@@ -71,7 +73,7 @@ def test_csv_format_is_the_cli_bytes_and_reads_as_rfc4180(client: FlaskClient, r
     """?format=csv equals `ohmtally verify --format csv`; DictReader finds a polarity row per circuit."""
     path = tmp_path / "job.json"
     path.write_text(json.dumps(BODY), encoding="utf-8")
-    _status, out, _err = runner("verify", str(path), "--format", "csv")
+    _status, out, err = runner("verify", str(path), "--format", "csv")
     response = client.post("/v1/verify?format=csv", json=BODY)
     assert response.headers["Content-Type"] == "text/csv; charset=utf-8; header=present"
     text = response.get_data(as_text=True)
@@ -79,6 +81,9 @@ def test_csv_format_is_the_cli_bytes_and_reads_as_rfc4180(client: FlaskClient, r
     rows = [r for r in csv.DictReader(io.StringIO(text, newline="")) if r["check"] == "polarity"]
     assert {(r["board"], r["circuit"]): r["outcome"] for r in rows} == {
         ("DB1", "1"): "pass", ("DB1", "2"): "fail", ("DB2", "1"): "incomplete"}
+    # CSV has no place for prose: the caution rides in a header (API) and on stderr (CLI)
+    assert response.headers["Ohmtally-Notice"] == NOTICE
+    assert err.strip() == "CAUTION: " + NOTICE
 
 
 def test_junit_follows_the_policy(client: FlaskClient) -> None:
