@@ -9,6 +9,7 @@ The bound keeps the run under a minute in CI.
 
 from __future__ import annotations
 
+import os
 import time
 
 import pytest
@@ -24,7 +25,7 @@ from schemathesis.specs.openapi.checks import (
 
 from tests.api.keyring import bearer, issue_key, unique_org
 
-MAX_EXAMPLES = 25
+MAX_EXAMPLES = int(os.environ.get("OHMTALLY_FUZZ_EXAMPLES", "25"))  # CI bound; raise it to explore
 CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance, response_schema_conformance]
 
 
@@ -50,4 +51,4 @@ def test_no_operation_answers_5xx_or_off_schema(auth_app: Flask) -> None:
             fuzz()
         except Exception as exc:  # name the operation in the failure
             pytest.fail(f"{operation.method.upper()} {operation.path}: {exc}")
-    assert time.monotonic() - started < 60
+    assert MAX_EXAMPLES > 25 or time.monotonic() - started < 60
