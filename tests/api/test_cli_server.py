@@ -174,7 +174,7 @@ def test_examples_run_against_a_real_server(server: str) -> None:
         pytest.skip("curl is not installed")
     env = {**os.environ, "OHMTALLY_URL": server, "JOB_ID": "1", "UPLOAD_ID": "1"}
     for name in ("health", "rulesets", "adapters", "verify", "jobs", "readings", "circuits", "uploads",
-                 "openapi", "errors"):
+                 "openapi", "errors", "sync", "webhooks"):
         script = subprocess.run(["bash", str(ROOT / f"examples/api/{name}.sh")], env=env, capture_output=True,
                                 text=True, errors="replace", timeout=30)
         assert script.returncode == 0, f"{name}.sh: {script.stderr[-1000:]}"
