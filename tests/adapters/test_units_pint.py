@@ -37,13 +37,18 @@ def _expected(value: float, full: str, field: str) -> float:
     return float(UREG.Quantity(value, full).to(canonical).magnitude)
 
 
+
+def _read_one(data: bytes, field: str, adapter: CsvAdapter | LinesAdapter) -> float:
+    """The one record's ``field`` as a number (a Reading's value, or a design value)."""
+    (record,) = collect(adapter.read(io.BytesIO(data), AdapterOptions())).records
+    got = getattr(record, field)
+    return float(got.value if hasattr(got, "value") else got)
+
 @pytest.mark.parametrize(("spelling", "full", "field"), SPELLINGS)
 def test_unit_in_cell_agrees_with_pint(spelling: str, full: str, field: str) -> None:
     """A unit written in a CSV cell converts to the field's unit exactly as pint converts it."""
     data = f"board,circuit,{field}\nDB1,1,1.5 {spelling}\n".encode()
-    (record,) = collect(CsvAdapter().read(io.BytesIO(data), AdapterOptions())).records
-    got = getattr(record, field)
-    got = got.value if hasattr(got, "value") else got
+    got = _read_one(data, field, CsvAdapter())
     assert got == pytest.approx(_expected(1.5, full, field), rel=1e-9)
 
 
@@ -51,9 +56,7 @@ def test_unit_in_cell_agrees_with_pint(spelling: str, full: str, field: str) -> 
 def test_unit_in_header_agrees_with_pint(spelling: str, full: str, field: str) -> None:
     """A unit written in a CSV header (``field (unit)``) applies to bare numbers as pint converts it."""
     data = f"board,circuit,{field} ({spelling})\nDB1,1,2.5\n".encode()
-    (record,) = collect(CsvAdapter().read(io.BytesIO(data), AdapterOptions())).records
-    got = getattr(record, field)
-    got = got.value if hasattr(got, "value") else got
+    got = _read_one(data, field, CsvAdapter())
     assert got == pytest.approx(_expected(2.5, full, field), rel=1e-9)
 
 
@@ -61,9 +64,7 @@ def test_unit_in_header_agrees_with_pint(spelling: str, full: str, field: str) -
 def test_unit_in_line_value_agrees_with_pint(spelling: str, full: str, field: str) -> None:
     """A unit written in a key=value line's value converts as pint converts it."""
     data = f'board=DB1 circuit=1 {field}="0.75 {spelling}"\n'.encode()
-    (record,) = collect(LinesAdapter().read(io.BytesIO(data), AdapterOptions())).records
-    got = getattr(record, field)
-    got = got.value if hasattr(got, "value") else got
+    got = _read_one(data, field, LinesAdapter())
     assert got == pytest.approx(_expected(0.75, full, field), rel=1e-9)
 
 
