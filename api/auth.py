@@ -116,7 +116,10 @@ def _authenticate(app: Flask) -> None:
     g.organisation_id = key.organisation_id
     if key.last_used_at is None or now - key.last_used_at >= _LAST_USED_STEP:
         key.last_used_at = now
-        session.commit()
+    # End the key lookup's transaction here, so the request's own transaction starts at its
+    # first real query: on SQLite every transaction holds the one writer lock (api.db), and a
+    # view that parses a body first should not hold it while it parses.
+    session.commit()
 
 
 def init_app(app: Flask) -> None:

@@ -29,7 +29,7 @@ from engine import CircuitRecord, Reading, build_record, record_to_dict
 
 from .errors import ApiError, messages_to_errors
 from .intake import records_from_objects
-from .schemas.records import VerifyRequestSchema
+from .schemas.records import load_verify_request
 
 __all__ = ["JSON_MEDIA_TYPE", "Intake", "Item", "read_body", "read_json_document"]
 
@@ -52,9 +52,13 @@ class Intake:
     ruleset: str | None = None
     adapter: str | None = None
     profile: str | None = None
+    built: list[CircuitRecord] | None = None  # one record per item, already built from the body
 
     def records(self) -> list[CircuitRecord]:
         """Items merged per circuit and per field (later wins), in first-seen order."""
+        if (self.built is not None and len(self.built) == len(self.items)
+                and len({r.key for r in self.built}) == len(self.built)):
+            return list(self.built)  # nothing to merge: the records the body was checked with
         merged: dict[tuple[str, str], dict[str, Any]] = {}
         for item in self.items:
             merged.setdefault((item.board, item.circuit), {}).update(item.fields)
@@ -120,7 +124,7 @@ def validation_problem(exc: ValidationError, *, what: str = "body") -> ApiError:
 def _read_json(body: bytes) -> Intake:
     document = read_json_document(body)
     try:
-        loaded = VerifyRequestSchema().load(document)
+        loaded = load_verify_request(document)
     except ValidationError as exc:
         raise validation_problem(exc) from None
     records, rejected = records_from_objects(loaded["circuits"], pointer="/circuits")
@@ -128,7 +132,7 @@ def _read_json(body: bytes) -> Intake:
         raise ApiError(422, "invalid_circuits",
                        f"{len(rejected)} field(s) of the circuits could not be taken; nothing was "
                        "verified or merged (JSON bodies are all or nothing)", errors=rejected)
-    intake = Intake(ruleset=loaded.get("ruleset"))
+    intake = Intake(ruleset=loaded.get("ruleset"), built=records)
     for index, record in enumerate(records):
         values = record_to_dict(record)
         values.pop("board")

@@ -21,9 +21,10 @@ import hashlib
 import json
 from collections.abc import Iterable, Sequence
 from datetime import datetime, timedelta
-from typing import Any
+from functools import lru_cache
+from typing import Any, NamedTuple
 
-from sqlalchemy import insert, select
+from sqlalchemy import Text, cast, insert, select, update
 from sqlalchemy.orm import Session
 
 from engine import CircuitRecord, build_record
@@ -54,7 +55,14 @@ __all__ = [
 ]
 
 LOCAL_ORGANISATION = "local"
-_MERGED_ROWS = "ohmtally.merged_rows"  # session.info: (job id, rows) from merge_items, read once
+_MERGED_ROWS = "ohmtally.merged_rows"  # session.info: (job id, rows, merged fields) from merge_items
+
+
+class _Row(NamedTuple):
+    id: int
+    board: str
+    circuit: str
+    text: str | None  # the fields as stored JSON text; None for a circuit inserted by this merge
 
 
 def local_organisation(session: Session) -> Organisation:
@@ -190,46 +198,51 @@ def store_upload(session: Session, job: Job, *, body: bytes, content_type: str,
     return upload
 
 
+def _job_rows(session: Session, job_id: int) -> list[_Row]:
+    """(id, board, circuit, fields as stored JSON text) of every circuit of the job, in id order.
+
+    Plain columns, no ORM objects: a logger's post reads the whole job each time, and
+    the text is both what is parsed and the key of the record cache (:func:`_record`).
+    """
+    query = (select(Circuit.id, Circuit.board, Circuit.circuit, cast(Circuit.fields, Text))
+             .where(Circuit.job_id == job_id).order_by(Circuit.id))
+    return [_Row(id, board, circuit, text) for id, board, circuit, text in session.execute(query)]
+
+
 def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item]
                 ) -> tuple[int, list[tuple[str, str]]]:
     """Merge items into the job's circuits; returns (field values merged, keys touched)."""
-    existing = {(c.board, c.circuit): c
-                for c in session.scalars(select(Circuit).where(Circuit.job_id == job.id))}
-    items = list(items)
+    rows = {(r.board, r.circuit): r for r in _job_rows(session, job.id)}
     now = utcnow()
-    fresh = False
-    for item in items:  # new circuits first, flushed once for their ids (not once per circuit)
-        key = (item.board, item.circuit)
-        if key not in existing:
-            existing[key] = Circuit(job_id=job.id, board=item.board, circuit=item.circuit, fields={},
-                                    updated_at=now, upload_id=upload.id)
-            session.add(existing[key])
-            fresh = True
-    if fresh:
-        session.flush()
-    touched: dict[tuple[str, str], None] = {}
     merged: dict[tuple[str, str], dict[str, Any]] = {}
-    history: list[dict[str, Any]] = []
-    for item in items:
+    for item in items:  # later wins, per circuit and per field
         key = (item.board, item.circuit)
-        row = existing[key]
-        values = merged.setdefault(key, dict(row.fields))
-        for name, value in item.fields.items():
-            values[name] = value
-            history.append({"circuit_id": row.id, "field": name, "value": value, "upload_id": upload.id,
-                            "location": item.location, "recorded_at": now})
-        touched[key] = None
-    for key, values in merged.items():
-        row = existing[key]
-        row.fields = values  # a new dict, so the JSON column is seen as changed
-        row.updated_at = now
-        row.upload_id = upload.id
+        values = merged.get(key)
+        if values is None:
+            row = rows.get(key)
+            values = merged[key] = json.loads(row.text) if row is not None and row.text else {}
+        values.update(item.fields)
+    changed = [{"id": rows[key].id, "fields": values, "updated_at": now, "upload_id": upload.id}
+               for key, values in merged.items() if key in rows]
+    if changed:  # one executemany UPDATE by primary key
+        session.execute(update(Circuit), changed)
+    fresh = [key for key in merged if key not in rows]
+    if fresh:  # one multi-row INSERT that hands back the new ids, in parameter order
+        ids = session.scalars(
+            insert(Circuit).returning(Circuit.id, sort_by_parameter_order=True),
+            [{"job_id": job.id, "board": board, "circuit": circuit, "fields": merged[(board, circuit)],
+              "updated_at": now, "upload_id": upload.id} for board, circuit in fresh]).all()
+        for (board, circuit), new_id in zip(fresh, ids, strict=True):
+            rows[(board, circuit)] = _Row(new_id, board, circuit, None)
+    history = [{"circuit_id": rows[(item.board, item.circuit)].id, "field": name, "value": value,
+                "upload_id": upload.id, "location": item.location, "recorded_at": now}
+               for item in items for name, value in item.fields.items()]
     if history:  # one multi-row INSERT, in arrival order, instead of an ORM object per value
         session.execute(insert(FieldHistory), history)
     job.updated_at = now
     job.revision += 1  # the verdicts' ETag (migration 0004)
-    session.info[_MERGED_ROWS] = (job.id, existing)
-    return len(history), list(touched)
+    session.info[_MERGED_ROWS] = (job.id, sorted(rows.values(), key=lambda r: r.id), merged)
+    return len(history), list(merged)
 
 
 def job_circuits(session: Session, job: Job) -> list[Circuit]:
@@ -246,12 +259,33 @@ def records_of(circuits: Sequence[Circuit]) -> list[CircuitRecord]:
 
 
 def job_records(session: Session, job: Job) -> list[CircuitRecord]:
-    """The job's records in circuit order; right after :func:`merge_items`, from its rows
-    (the same objects a second query would return, without reading them again)."""
-    merged = session.info.pop(_MERGED_ROWS, None)
-    if merged is not None and merged[0] == job.id:
-        return records_of(sorted(merged[1].values(), key=lambda row: row.id))
-    return records_of(job_circuits(session, job))
+    """The job's records in circuit order; right after :func:`merge_items`, from what it read
+    and merged (no second query)."""
+    found = session.info.pop(_MERGED_ROWS, None)
+    rows, merged = (found[1], found[2]) if found is not None and found[0] == job.id else (
+        _job_rows(session, job.id), {})
+    out: list[CircuitRecord] = []
+    for row in rows:
+        values = merged.get((row.board, row.circuit))
+        if values is not None:
+            record, _errors = build_record({"board": row.board, "circuit": row.circuit, **values})
+        else:
+            record = _record(row.board, row.circuit, row.text or "{}")
+        if record is not None:
+            out.append(record)
+    return out
+
+
+@lru_cache(maxsize=16384)
+def _record(board: str, circuit: str, text: str) -> CircuitRecord | None:
+    """A stored circuit's record, cached on its exact stored text.
+
+    A pure function of its arguments (records are frozen, the engine never mutates
+    them), so the cache needs no invalidation: changed fields are different text.
+    A logger's post changes 1–10 circuits of a job and re-reads the rest.
+    """
+    record, _errors = build_record({"board": board, "circuit": circuit, **json.loads(text)})
+    return record
 
 
 def job_history(session: Session, job: Job) -> dict[int, dict[str, list[dict[str, Any]]]]:

@@ -34,7 +34,7 @@ from marshmallow import RAISE
 
 from engine import NOTICE, verify
 
-from ..body_intake import read_body
+from ..body_intake import Intake, read_body
 from ..db import get_session
 from ..errors import ApiError
 from ..idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with, remember_problem
@@ -117,6 +117,16 @@ class JobReadings(MethodView):
         """Merge readings into the job (per circuit and field, later wins; history kept)."""
         body, media_type, charset = raw_body()
         key = _idempotency_key()
+        # The body is read before the job is locked (the lock is the database's one writer
+        # lock on SQLite); a body that cannot be read is still stored, below, as rejected.
+        intake: Intake | None = None
+        unreadable: ApiError | None = None
+        try:
+            check_text_limits(body, media_type)
+            intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
+                               profile=query.get("profile"), profile_dir=settings().profile_dir)
+        except ApiError as problem:
+            unreadable = problem
         session = get_session()
         job = lock_job(session, job_id)
         if key is not None:
@@ -133,9 +143,9 @@ class JobReadings(MethodView):
                               adapter=query.get("adapter"), profile=query.get("profile"),
                               idempotency_key=key)
         try:
-            check_text_limits(body, media_type)
-            intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
-                               profile=query.get("profile"), profile_dir=settings().profile_dir)
+            if unreadable is not None:
+                raise unreadable
+            assert intake is not None
             if intake.ruleset and intake.ruleset != job.ruleset:
                 raise ApiError(422, "ruleset_mismatch",
                                f"job {job.id} is verified under {job.ruleset!r}; the body names "

@@ -33,9 +33,13 @@ class JsonTypes(fields.Field):  # type: ignore[type-arg]
         self.json_types = types
         super().__init__(**kwargs)
 
+    def accepts(self, value: Any) -> bool:
+        """Whether ``value`` is one of the field's JSON types (``None`` is the caller's concern)."""
+        return any(_CHECKS[t](value) for t in self.json_types)
+
     def _deserialize(self, value: Any, attr: str | None, data: Mapping[str, Any] | None,
                      **kwargs: Any) -> Any:
-        if any(_CHECKS[t](value) for t in self.json_types):
+        if self.accepts(value):
             return value
         raise ValidationError(f"expected {' or '.join(self.json_types)}, got {_json_type(value)}")
 

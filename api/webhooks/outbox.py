@@ -20,8 +20,8 @@ import uuid
 from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
-from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy import event, select
+from sqlalchemy.orm import Session, SessionTransaction
 
 from engine import NOTICE, Ruleset, Verdict, verify
 
@@ -33,6 +33,8 @@ __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", 
            "subscribed"]
 
 Outcomes = dict[tuple[str, str], str]
+_CACHE = "ohmtally.webhook_subscriptions"  # session.info: organisation id → subscriptions
+_LISTENING = "ohmtally.webhook_subscriptions.listening"
 
 
 def outcomes(verdicts: Iterable[Verdict]) -> Outcomes:
@@ -41,9 +43,29 @@ def outcomes(verdicts: Iterable[Verdict]) -> Outcomes:
 
 
 def _subscriptions(session: Session, organisation_id: int, event_type: str) -> list[WebhookSubscription]:
-    query = (select(WebhookSubscription).where(WebhookSubscription.organisation_id == organisation_id)
-             .order_by(WebhookSubscription.id))
-    return [s for s in session.scalars(query) if event_type in s.events]
+    """The organisation's subscriptions to ``event_type``: one query per transaction, not per event.
+
+    A readings post asks up to three times (``verdict.changed`` before the merge, then
+    each event it emits); the answer cannot change inside the transaction that asks,
+    so it is kept in ``session.info`` until that transaction ends.
+    """
+    cache: dict[int, list[WebhookSubscription]] | None = session.info.get(_CACHE)
+    if cache is None:
+        cache = session.info[_CACHE] = {}
+        if not session.info.get(_LISTENING):
+            event.listen(session, "after_transaction_end", _forget)
+            session.info[_LISTENING] = True
+    found = cache.get(organisation_id)
+    if found is None:
+        query = (select(WebhookSubscription).where(WebhookSubscription.organisation_id == organisation_id)
+                 .order_by(WebhookSubscription.id))
+        found = cache[organisation_id] = list(session.scalars(query))
+    return [s for s in found if event_type in s.events]
+
+
+def _forget(session: Session, transaction: SessionTransaction) -> None:
+    if transaction.parent is None:  # the outermost transaction, not a flush's subtransaction
+        session.info.pop(_CACHE, None)
 
 
 def subscribed(session: Session, organisation_id: int, event_type: str) -> bool:
