@@ -135,24 +135,6 @@ def parse_reading(
     if isinstance(raw, bool):
         raise ReadingError(f"{field}: a reading must be a number or text, not a boolean",
                            field=field, text=str(raw))
-    if source is None and isinstance(raw, str):  # same text, same field → the same immutable Reading
-        return _parse_cached(raw, field, unit, default_unit, decimal_comma)
-    return _parse(raw, field=field, unit=unit, default_unit=default_unit, decimal_comma=decimal_comma,
-                  source=source)
-
-
-# Meters print few distinct values; parsing was most of a record's build (tests/bench). A
-# Reading is frozen, so one can stand for every cell that said the same thing. Errors are
-# raised, never cached.
-@lru_cache(maxsize=65536)
-def _parse_cached(raw: str, field: str, unit: str, default_unit: str | None,
-                  decimal_comma: bool) -> Reading | None:
-    return _parse(raw, field=field, unit=unit, default_unit=default_unit, decimal_comma=decimal_comma,
-                  source=None)
-
-
-def _parse(raw: str | float | int, *, field: str, unit: str, default_unit: str | None,
-           decimal_comma: bool, source: str | None) -> Reading | None:
     if isinstance(raw, int | float):
         if not math.isfinite(raw):
             raise ReadingError(f"{field}: {raw!r} is not a finite number", field=field, text=str(raw))
