@@ -140,7 +140,7 @@ def _round(value: float | None) -> float | None:
     return _six_figures(value)
 
 
-@lru_cache(maxsize=16384)  # limits, factors and readings repeat across a job's circuits
+@lru_cache(maxsize=4096)  # limits and factors repeat across a job's circuits; bounded small (stream RSS)
 def _six_figures(value: float) -> float:
     return float(f"{value:.6g}")
 
