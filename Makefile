@@ -33,7 +33,8 @@ typecheck: $(STAMP)
 ## The API benchmark drives load with wrk (Debian's package) when it can install it; else Python.
 bench: $(STAMP)
 	@command -v wrk >/dev/null || { command -v apt-get >/dev/null && [ "$$(id -u)" = 0 ] && \
-	  apt-get install -y -q wrk >/dev/null 2>&1; } || echo "bench: wrk not installed; the Python load generator is used"
+	  { apt-get install -y -q wrk || { apt-get update -q && apt-get install -y -q wrk; }; } >/dev/null 2>&1; } || \
+	  echo "bench: wrk not installed; the Python load generator is used"
 	$(BIN)/python -m tests.bench
 
 clean:
