@@ -212,6 +212,7 @@ def _job_rows(session: Session, job_id: int) -> list[_Row]:
 def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item]
                 ) -> tuple[int, list[tuple[str, str]]]:
     """Merge items into the job's circuits; returns (field values merged, keys touched)."""
+    items = list(items)  # walked twice: once to merge, once for the history rows
     rows = {(r.board, r.circuit): r for r in _job_rows(session, job.id)}
     now = utcnow()
     merged: dict[tuple[str, str], dict[str, Any]] = {}
@@ -276,13 +277,14 @@ def job_records(session: Session, job: Job) -> list[CircuitRecord]:
     return out
 
 
-@lru_cache(maxsize=16384)
+@lru_cache(maxsize=4096)
 def _record(board: str, circuit: str, text: str) -> CircuitRecord | None:
     """A stored circuit's record, cached on its exact stored text.
 
     A pure function of its arguments (records are frozen, the engine never mutates
     them), so the cache needs no invalidation: changed fields are different text.
-    A logger's post changes 1–10 circuits of a job and re-reads the rest.
+    A logger's post changes 1–10 circuits of a job and re-reads the rest. 4,096
+    entries (a few kB each, some MB per worker) hold the jobs a worker is busy with.
     """
     record, _errors = build_record({"board": board, "circuit": circuit, **json.loads(text)})
     return record

@@ -46,8 +46,9 @@ def _subscriptions(session: Session, organisation_id: int, event_type: str) -> l
     """The organisation's subscriptions to ``event_type``: one query per transaction, not per event.
 
     A readings post asks up to three times (``verdict.changed`` before the merge, then
-    each event it emits); the answer cannot change inside the transaction that asks,
-    so it is kept in ``session.info`` until that transaction ends.
+    each event it emits). A subscription made while the post runs races it either way;
+    asking once answers that race the same for every event of the post. The answer is
+    kept in ``session.info`` until the outermost transaction ends.
     """
     cache: dict[int, list[WebhookSubscription]] | None = session.info.get(_CACHE)
     if cache is None:
