@@ -140,7 +140,8 @@ class JobReadings(MethodView):
             if same is not None:
                 return _replay(job, same, body, duplicate=True)
         upload = store_upload(session, job, body=body, content_type=content_type,
-                              adapter=query.get("adapter"), profile=query.get("profile"),
+                              adapter=intake.adapter if intake is not None else query.get("adapter"),
+                              profile=query.get("profile"),
                               idempotency_key=key)
         try:
             if unreadable is not None:
@@ -159,7 +160,6 @@ class JobReadings(MethodView):
             remember_problem(problem)
             session.commit()  # the body is kept even though nothing in it was taken
             raise
-        upload.adapter = intake.adapter
         ruleset = resolve_ruleset(job.ruleset)
         before = outcomes_before(session, job, ruleset)  # verdict.changed compares with these
         accepted, touched = merge_items(session, job, upload, intake.items)
