@@ -72,11 +72,12 @@ class VerifyRequestSchema(Schema):
 
 
 # name → (field, may it be null): read off the schema itself, not declared a second time
+_CIRCUIT_SCHEMA_FIELDS = CircuitInSchema().fields
 _CIRCUIT_FIELDS: dict[str, tuple[JsonTypes, bool]] = {
-    name: (field, field.allow_none) for name, field in CircuitInSchema().fields.items()
+    name: (field, field.allow_none) for name, field in _CIRCUIT_SCHEMA_FIELDS.items()
     if isinstance(field, JsonTypes)
 }
-_REQUIRED = tuple(name for name, field in CircuitInSchema().fields.items() if field.required)
+_REQUIRED = tuple(name for name, field in _CIRCUIT_SCHEMA_FIELDS.items() if field.required)
 _CIRCUIT_ORDER = tuple(_CIRCUIT_FIELDS)
 _ENVELOPE_ORDER = tuple(VerifyRequestSchema().fields)
 _ENVELOPE = frozenset(_ENVELOPE_ORDER)
