@@ -7,8 +7,8 @@ Invariants:
   webargs'/marshmallow's (422) or an unexpected exception (500, logged),
   leaves as ``application/problem+json`` from :meth:`OhmtallyApi.handle_http_exception`
   or :func:`_api_error`; no traceback reaches a client.
-- ``OHMTALLY_AUTH=on`` fails closed: until an API-key module (``api.auth``)
-  is installed every route but ``/v1/health`` answers 401. ``api.auth`` also
+- ``OHMTALLY_AUTH=on`` fails closed: until an API-key module (``api.http.auth``)
+  is installed every route but ``/v1/health`` answers 401. ``api.http.auth`` also
   resolves each request's organisation, rate-limits and handles Idempotency-Key.
 """
 
@@ -24,13 +24,13 @@ from flask_smorest import Api
 from werkzeug.exceptions import HTTPException
 from werkzeug.routing import IntegerConverter
 
+from api import db
+from api.errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
+from api.http import request_log
+from api.schemas import json_types_attribute
+from api.schemas.errors import ProblemSchema
+from api.settings import Settings, load_settings
 from engine import __version__
-
-from . import db, logs
-from .errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
-from .schemas import json_types_attribute
-from .schemas.errors import ProblemSchema
-from .settings import Settings, load_settings
 
 __all__ = ["OhmtallyApi", "create_app", "default_instance_path"]
 
@@ -95,10 +95,10 @@ def _api_error(error: ApiError) -> Any:
 
 
 def _init_auth(app: Flask, settings: Settings) -> None:
-    if importlib.util.find_spec("api.auth") is not None:  # it also handles OHMTALLY_AUTH=off
+    if importlib.util.find_spec("api.http.auth") is not None:  # it also handles OHMTALLY_AUTH=off
         from importlib import import_module
 
-        import_module("api.auth").init_app(app)
+        import_module("api.http.auth").init_app(app)
         return
     if not settings.auth:
         return
@@ -132,7 +132,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.json.sort_keys = False  # type: ignore[attr-defined]
     app.json.ensure_ascii = False  # type: ignore[attr-defined]
     app.extensions["ohmtally.settings"] = settings
-    logs.init_app(app, settings.log_level)
+    request_log.init_app(app, settings.log_level)
     url = db.database_url_for(app.instance_path, settings.database_url)
     app.config["OHMTALLY_DATABASE_URL"] = url
     db.init_app(app, url)
@@ -142,7 +142,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.extensions["ohmtally.openapi"] = api
     api.ma_plugin.converter.add_attribute_function(json_types_attribute)
     app.register_error_handler(ApiError, _api_error)
-    from .routes import BLUEPRINTS
+    from api.routes import BLUEPRINTS
 
     for blueprint in BLUEPRINTS:
         api.register_blueprint(blueprint)

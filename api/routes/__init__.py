@@ -4,12 +4,12 @@ from __future__ import annotations
 
 from flask_smorest import Blueprint
 
-from .catalogue import blp as catalogue
-from .jobs import blp as jobs
-from .readings import blp as readings
-from .sync import blp as sync
-from .verify import blp as verify
-from .webhooks import blp as webhooks
+from api.routes.catalogue import blp as catalogue
+from api.routes.jobs import blp as jobs
+from api.routes.readings import blp as readings
+from api.routes.sync import blp as sync
+from api.routes.verify import blp as verify
+from api.routes.webhooks import blp as webhooks
 
 __all__ = ["BLUEPRINTS"]
 

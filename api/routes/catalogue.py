@@ -7,10 +7,9 @@ from typing import Any
 from flask.views import MethodView
 from flask_smorest import Blueprint
 
+from api.routes.common import json_response, resolve_ruleset, settings
+from api.schemas.catalogue import AdapterListSchema, HealthSchema, RulesetDetailSchema, RulesetListSchema
 from engine import DEFAULT_RULESET, __version__, builtin_ruleset_ids, load_ruleset
-
-from ..schemas.catalogue import AdapterListSchema, HealthSchema, RulesetDetailSchema, RulesetListSchema
-from .common import json_response, resolve_ruleset, settings
 
 __all__ = ["blp"]
 
@@ -19,7 +18,7 @@ blp = Blueprint("catalogue", __name__, url_prefix="/v1", description="Health, ru
 
 @blp.route("/health")
 class Health(MethodView):
-    @blp.doc(security=[])  # the one route without an API key (api.auth.PUBLIC_PATHS)
+    @blp.doc(security=[])  # the one route without an API key (api.http.auth.PUBLIC_PATHS)
     @blp.response(200, HealthSchema)
     def get(self) -> Any:
         """Liveness and version (no auth, no database)."""

@@ -6,12 +6,11 @@ from typing import Any
 
 from flask import Response, current_app, jsonify, request
 
+from api.errors import ApiError
+from api.intake.bodies import JSON_MEDIA_TYPE
+from api.schemas.records import VerifyRequestSchema
+from api.settings import Settings
 from engine import DEFAULT_RULESET, EngineError, Ruleset, builtin_ruleset_ids, load_ruleset
-
-from ..body_intake import JSON_MEDIA_TYPE
-from ..errors import ApiError
-from ..schemas.records import VerifyRequestSchema
-from ..settings import Settings
 
 __all__ = [
     "READINGS_BODY_DOC",

@@ -9,16 +9,16 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE, ValidationError
 
-from engine import CircuitRecord, record_to_dict, verify
-
-from ..bodies import verify_body
-from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
-from ..db import get_session
-from ..errors import ApiError
-from ..idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with
-from ..models import Circuit, Job
-from ..repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
-from ..schemas.jobs import (
+from api.answers import verify_body
+from api.db import get_session
+from api.db.models import Circuit, Job
+from api.db.repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
+from api.errors import ApiError
+from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
+from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with
+from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from api.routes.common import json_response, raw_body, resolve_ruleset, settings
+from api.schemas.jobs import (
     CircuitsQuerySchema,
     CircuitsResponseSchema,
     JobCreateSchema,
@@ -27,9 +27,8 @@ from ..schemas.jobs import (
     JobSchema,
     JobVerdictsSchema,
 )
-from ..sync import if_none_match, parse_rfc3339, verdicts_etag
-from ..webhooks.outbox import emit_job_created
-from .common import json_response, raw_body, resolve_ruleset, settings
+from api.webhooks.outbox import emit_job_created
+from engine import CircuitRecord, record_to_dict, verify
 
 IF_NONE_MATCH_DOC = {"in": "header", "name": "If-None-Match", "required": False, "schema": {"type": "string"},
                      "description": "an ETag of an earlier answer: 304 while the verdicts are unchanged"}

@@ -10,7 +10,7 @@ Invariants:
 - The verdicts returned are those of the circuits this upload touched,
   computed over all the job's records (board-level checks need the board).
 - A post with an ``Idempotency-Key`` the organisation has seen is answered
-  with the first response (``Idempotent-Replayed: true``, ``api.idempotency``),
+  with the first response (``Idempotent-Replayed: true``, ``api.http.idempotency``),
   never merged or stored twice; the same key with a different body is a 409
   (as the issue asks; the IETF httpapi draft suggests 422). Uploads from before
   migration 0003 are still found by their per-job key here.
@@ -32,15 +32,9 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
 
-from engine import NOTICE, verify
-
-from ..body_intake import Intake, read_body
-from ..db import get_session
-from ..errors import ApiError
-from ..idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with, remember_problem
-from ..limits import check_row_count, check_text_limits
-from ..models import Job, Upload
-from ..repository import (
+from api.db import get_session
+from api.db.models import Job, Upload
+from api.db.repository import (
     find_recent_duplicate,
     find_upload_by_key,
     get_job,
@@ -52,10 +46,15 @@ from ..repository import (
     store_upload,
     upload_circuit_keys,
 )
-from ..schemas.jobs import ReadingsResponseSchema, UploadListSchema
-from ..webhooks.outbox import emit_readings, outcomes_before
-from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
-from .verify import ReadingsQuerySchema, verdicts_response
+from api.errors import ApiError
+from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with, remember_problem
+from api.http.limits import check_row_count, check_text_limits
+from api.intake.bodies import Intake, read_body
+from api.routes.common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
+from api.routes.verify import ReadingsQuerySchema, verdicts_response
+from api.schemas.jobs import ReadingsResponseSchema, UploadListSchema
+from api.webhooks.outbox import emit_readings, outcomes_before
+from engine import NOTICE, verify
 
 __all__ = ["blp"]
 

@@ -4,7 +4,7 @@ Invariants:
 - A PATCH is a JSON merge patch (RFC 7396, ``application/merge-patch+json``
   or ``application/json``): only the members sent change; ``null`` clears
   ``external_ref``. An empty patch changes nothing and does not bump the revision.
-- A change bumps the job's revision and ``updated_at`` (``api.sync``), so
+- A change bumps the job's revision and ``updated_at`` (``api.http.conditional``), so
   ``?updated_since=`` and the verdicts' ETag see it.
 - A circuit is named by its board and circuit references, percent-encoded
   in the path; a circuit the job has no record of is a 404 (external refs
@@ -20,16 +20,16 @@ from flask_smorest import Blueprint
 from marshmallow import ValidationError
 from sqlalchemy import select
 
-from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
-from ..db import get_session
-from ..errors import ApiError
-from ..models import Circuit
-from ..repository import lock_job, records_of
-from ..schemas.jobs import CircuitStateSchema, JobSchema
-from ..schemas.sync import CircuitPatchSchema, JobPatchSchema
-from ..sync import bump_revision
-from .common import json_response, raw_body
-from .jobs import circuit_dict, job_dict
+from api.db import get_session
+from api.db.models import Circuit
+from api.db.repository import lock_job, records_of
+from api.errors import ApiError
+from api.http.conditional import bump_revision
+from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from api.routes.common import json_response, raw_body
+from api.routes.jobs import circuit_dict, job_dict
+from api.schemas.jobs import CircuitStateSchema, JobSchema
+from api.schemas.sync import CircuitPatchSchema, JobPatchSchema
 
 __all__ = ["blp"]
 

@@ -10,16 +10,15 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE, Schema, fields, validate
 
+from api.answers import verify_body
+from api.errors import ApiError
+from api.http.limits import check_row_count, check_text_limits
+from api.intake.bodies import read_body
+from api.render import FAIL_ON_CHOICES, FORMATS, MEDIA_TYPES, WARN_ON_CHOICES, policy_from_names, render
+from api.routes.common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
+from api.schemas.verdicts import VerifyResponseSchema
 from engine import verify
 from engine.verify import collector_paused
-
-from ..bodies import verify_body
-from ..body_intake import read_body
-from ..errors import ApiError
-from ..limits import check_row_count, check_text_limits
-from ..render import FAIL_ON_CHOICES, FORMATS, MEDIA_TYPES, WARN_ON_CHOICES, policy_from_names, render
-from ..schemas.verdicts import VerifyResponseSchema
-from .common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
 
 __all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp", "verdicts_response"]
 

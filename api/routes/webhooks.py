@@ -21,11 +21,13 @@ from marshmallow import RAISE, ValidationError
 from sqlalchemy import delete, select
 from sqlalchemy.orm import Session
 
-from ..body_intake import JSON_MEDIA_TYPE, read_json_document, validation_problem
-from ..db import get_session
-from ..errors import ApiError
-from ..repository import decode_cursor, encode_cursor, local_organisation
-from ..schemas.webhooks import (
+from api.db import get_session
+from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription
+from api.db.repository import decode_cursor, encode_cursor, local_organisation
+from api.errors import ApiError
+from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from api.routes.common import json_response, raw_body, settings
+from api.schemas.webhooks import (
     DeliveryListSchema,
     DeliveryQuerySchema,
     SubscriptionCreatedSchema,
@@ -33,10 +35,8 @@ from ..schemas.webhooks import (
     SubscriptionListSchema,
     SubscriptionSchema,
 )
-from ..webhooks.models import WebhookDelivery, WebhookEvent, WebhookSubscription
-from ..webhooks.signing import new_secret
-from ..webhooks.targets import TargetRefused, resolve_target
-from .common import json_response, raw_body, settings
+from api.webhooks.signing import new_secret
+from api.webhooks.targets import TargetRefused, resolve_target
 
 __all__ = ["blp", "organisation_id"]
 
@@ -46,16 +46,16 @@ blp = Blueprint("webhooks", __name__, url_prefix="/v1", description="Webhook sub
 def _admin(view: Any) -> Any:
     """Making or removing a subscription needs the ``admin`` scope: it sends data off-site."""
     try:
-        from ..auth import require_scope
+        from api.http.auth import require_scope
     except ImportError:  # a build without the key module
         return view
     return require_scope("admin")(view)
 
 
 def organisation_id(session: Session) -> int:
-    """The request's organisation: the API key's (api.auth), else the seeded ``local`` one."""
+    """The request's organisation: the API key's (api.http.auth), else the seeded ``local`` one."""
     try:
-        from ..auth import current_organisation_id
+        from api.http.auth import current_organisation_id
     except ImportError:  # a build without the key module: one organisation
         return local_organisation(session).id
     found = current_organisation_id()

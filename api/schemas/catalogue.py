@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from marshmallow import INCLUDE, RAISE, Schema, fields
 
-from .verdicts import RulesetRefSchema
+from api.schemas.verdicts import RulesetRefSchema
 
 __all__ = [
     "AdapterListSchema",

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from marshmallow import RAISE, Schema, fields, validate
 
-from .verdicts import RejectedSchema, RulesetRefSchema, SummarySchema, VerdictSchema
+from api.schemas.verdicts import RejectedSchema, RulesetRefSchema, SummarySchema, VerdictSchema
 
 __all__ = [
     "CircuitStateSchema",

@@ -19,9 +19,8 @@ from typing import Any
 
 from marshmallow import RAISE, Schema, fields, validate
 
+from api.schemas.fields import JsonTypes
 from engine import FIELDS, builtin_ruleset_ids
-
-from .fields import JsonTypes
 
 __all__ = ["CircuitInSchema", "VerifyRequestSchema", "load_verify_request"]
 

@@ -1,4 +1,4 @@
-"""Verdicts and the verify response body (``api.bodies.verify_body``), for the OpenAPI document."""
+"""Verdicts and the verify response body (``api.answers.verify_body``), for the OpenAPI document."""
 
 from __future__ import annotations
 

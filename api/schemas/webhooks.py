@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from marshmallow import RAISE, Schema, fields, validate
 
-from ..webhooks.models import DELIVERY_STATUSES, EVENT_TYPES
+from api.db.models import DELIVERY_STATUSES, EVENT_TYPES
 
 __all__ = [
     "DeliveryListSchema",

@@ -35,12 +35,16 @@ import httpx
 from sqlalchemy import or_, select, update
 from sqlalchemy.orm import Session, aliased, sessionmaker
 
+from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription, utcnow
+from api.webhooks.signing import (
+    DELIVERY_HEADER,
+    EVENT_HEADER,
+    EVENT_ID_HEADER,
+    SIGNATURE_HEADER,
+    signature_header,
+)
+from api.webhooks.targets import TargetRefused, resolve_target
 from engine import __version__
-
-from ..models import utcnow
-from .models import WebhookDelivery, WebhookEvent, WebhookSubscription
-from .signing import DELIVERY_HEADER, EVENT_HEADER, EVENT_ID_HEADER, SIGNATURE_HEADER, signature_header
-from .targets import TargetRefused, resolve_target
 
 __all__ = ["DeliveryConfig", "DeliveryThread", "backoff_s", "config_from_settings", "run_once", "worker_id"]
 

@@ -23,11 +23,9 @@ from typing import Any
 from sqlalchemy import event, select
 from sqlalchemy.orm import Session, SessionTransaction
 
+from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription, utcnow
+from api.db.repository import job_records
 from engine import NOTICE, Ruleset, Verdict, verify
-
-from ..models import Circuit, Job, Upload, utcnow
-from ..repository import job_records
-from .models import WebhookDelivery, WebhookEvent, WebhookSubscription
 
 __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", "outcomes_before",
            "subscribed"]

@@ -17,7 +17,7 @@ from typing import Any
 
 from flask import Flask
 
-from .delivery import DeliveryThread, config_from_settings
+from api.webhooks.delivery import DeliveryThread, config_from_settings
 
 __all__ = ["post_worker_init", "start_delivery_thread", "stop_delivery_thread", "worker_exit"]
 

@@ -7,7 +7,7 @@ from datetime import datetime
 
 from flask import Flask
 
-from api.keys import create_key, organisation_named
+from api.http.keys import create_key, organisation_named
 
 __all__ = ["bearer", "issue_key", "unique_org"]
 

@@ -17,9 +17,8 @@ from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
 
-from api.keys import KEY_PREFIX, find_key, hash_secret
-from api.models import utcnow
-from api.models_auth import ApiKey
+from api.db.models import ApiKey, utcnow
+from api.http.keys import KEY_PREFIX, find_key, hash_secret
 from tests.api.keyring import bearer, issue_key, unique_org
 
 pytestmark = pytest.mark.postgres

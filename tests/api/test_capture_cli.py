@@ -14,7 +14,7 @@ from api.capture.spool import Spool
 from api.capture.status import JsonReporter, QuietReporter, Tally, verdict_line
 from api.capture.transport import HttpTransport, api_base
 from api.cli import EXIT_OK, EXIT_USAGE, main
-from api.cli_capture import default_spool_path, read_api_key
+from api.cli.capture import default_spool_path, read_api_key
 
 from .test_capture_harness import FakeApi
 

@@ -21,10 +21,10 @@ import pytest
 
 from adapters import AdapterOptions, Fragment
 from adapters.registry import get_adapter
-from api.cli_demo import free_port, wait_healthy
-from api.cli_serve import is_loopback_bind
+from api.cli.demo import free_port, wait_healthy
+from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+from api.cli.serve import is_loopback_bind
 from api.db import upgrade
-from api.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
 from engine import CircuitRecord, verify
 from tests.api.openapi_check import check_response
 

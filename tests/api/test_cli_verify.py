@@ -18,10 +18,10 @@ from typing import Any
 import pytest
 from junitparser import Failure, JUnitXml
 
-import api.cli_verify
-from api.bodies import verify_body
+import api.cli.verify
+from api.answers import verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE, main
-from api.intake import records_from_objects
+from api.intake.objects import records_from_objects
 from engine import CheckResult, Outcome, Verdict, load_ruleset, verify
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -69,7 +69,7 @@ def test_investigate_fails_under_fail_on_investigate_and_incomplete(
     """An investigate verdict (stood in for the engine: no check yields one yet) follows --fail-on."""
     check = CheckResult(check="loop_impedance", outcome=Outcome.INVESTIGATE, detail="marginal")
     stand_in = [Verdict(board="DB1", circuit="1", outcome=Outcome.INVESTIGATE, checks=(check,))]
-    monkeypatch.setattr(api.cli_verify, "verify", lambda records, ruleset: stand_in)
+    monkeypatch.setattr(api.cli.verify, "verify", lambda records, ruleset: stand_in)
     status, _ = run([write(tmp_path, "i.json", PASS_AND_INCOMPLETE[:1]), "--fail-on", fail_on],
                     capsys)
     assert status == expected

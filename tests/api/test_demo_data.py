@@ -14,8 +14,8 @@ from pathlib import Path
 
 from flask.testing import FlaskClient
 
-from api.demo_manifest import DEFAULT_MANIFEST, load_manifest
-from api.intake import records_from_objects
+from api.cli.demo_manifest import DEFAULT_MANIFEST, load_manifest
+from api.intake.objects import records_from_objects
 from engine import record_to_dict, verify
 
 EXAMPLES = Path(__file__).resolve().parents[2] / "examples"

@@ -23,7 +23,7 @@ from typing import Any
 import httpx
 import pytest
 
-from api.cli_demo import free_port
+from api.cli.demo import free_port
 
 pytestmark = pytest.mark.postgres
 

@@ -108,7 +108,7 @@ def _serve_args(**given: Any) -> argparse.Namespace:
 def test_serve_refuses_auth_off_beyond_loopback(bind: str, monkeypatch: pytest.MonkeyPatch,
                                                 capsys: pytest.CaptureFixture[str]) -> None:
     """`serve` with OHMTALLY_AUTH=off exits 3 on any bind that is not loopback or a unix socket."""
-    from api import cli_serve
+    from api.cli import serve as cli_serve
 
     monkeypatch.setenv("OHMTALLY_AUTH", "off")
     monkeypatch.setattr(cli_serve, "_application", lambda *_a: pytest.fail("server started"))
@@ -121,7 +121,7 @@ def test_serve_refuses_auth_off_beyond_loopback(bind: str, monkeypatch: pytest.M
 def test_serve_allows_auth_off_on_loopback_with_the_timeout_setting(
         bind: str, db_url: str, monkeypatch: pytest.MonkeyPatch) -> None:
     """On loopback `serve` starts gunicorn, with timeout = OHMTALLY_REQUEST_TIMEOUT_S unless --timeout."""
-    from api import cli_serve
+    from api.cli import serve as cli_serve
 
     started: list[dict[str, Any]] = []
 

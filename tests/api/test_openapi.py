@@ -85,7 +85,7 @@ def test_problem_body_carries_the_request_id(client: FlaskClient) -> None:
 def test_request_log_is_json_with_request_id(app: Flask, client: FlaskClient,
                                              caplog: pytest.LogCaptureFixture) -> None:
     """Each request writes one JSON log line with method, path, status and the request id."""
-    from api.logs import JsonFormatter
+    from api.http.request_log import JsonFormatter
 
     logger = logging.getLogger("ohmtally.api")
     logger.setLevel(logging.INFO)

@@ -13,7 +13,7 @@ from flask import Flask
 from sqlalchemy import create_engine, func, select
 
 from api.db import SchemaNotCurrent, make_engine
-from api.models import Base, FieldHistory
+from api.db.models import Base, FieldHistory
 
 pytestmark = pytest.mark.postgres
 

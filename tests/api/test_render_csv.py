@@ -13,8 +13,8 @@ from typing import Any
 
 import pytest
 
-from api.bodies import verify_body
-from api.intake import records_from_objects
+from api.answers import verify_body
+from api.intake.objects import records_from_objects
 from api.render import CSV_COLUMNS, neutralise, render
 from engine import CheckResult, Outcome, Verdict, load_ruleset, verify
 

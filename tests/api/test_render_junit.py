@@ -25,8 +25,8 @@ import pytest
 from junitparser import Error, Failure, JUnitXml, Skipped
 from lxml import etree
 
-from api.bodies import verify_body
-from api.intake import records_from_objects
+from api.answers import verify_body
+from api.intake.objects import records_from_objects
 from api.render import Policy, policy_from_names, render
 from engine import CheckResult, Outcome, Verdict, load_ruleset, verify
 

@@ -7,8 +7,8 @@ from typing import Any
 
 from rich.console import Console
 
-from api.bodies import verify_body
-from api.intake import records_from_objects
+from api.answers import verify_body
+from api.intake.objects import records_from_objects
 from api.render import FORMATS, MEDIA_TYPES, policy_from_names, render, rich_table
 from engine import load_ruleset, verify
 

@@ -23,7 +23,7 @@ from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
 
-from api.webhooks.models import WebhookEvent
+from api.db.models import WebhookEvent
 
 pytestmark = pytest.mark.postgres
 

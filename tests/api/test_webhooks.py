@@ -28,9 +28,8 @@ from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
 
-from api.models import Organisation
+from api.db.models import Organisation, WebhookDelivery, WebhookEvent, WebhookSubscription
 from api.webhooks.delivery import DeliveryConfig, run_once
-from api.webhooks.models import WebhookDelivery, WebhookEvent, WebhookSubscription
 from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
 README = Path(__file__).resolve().parents[2] / "README.md"
@@ -214,7 +213,7 @@ def test_another_organisations_subscription_is_invisible(hooks: FlaskClient, hoo
 def test_with_keys_subscriptions_follow_the_key_and_need_admin(db_url: str,
                                                               app_factory: Callable[..., Flask]) -> None:
     """With OHMTALLY_AUTH=on a write key cannot subscribe (403); an admin key's subscription is its firm's."""
-    from api.keys import create_key, organisation_named
+    from api.http.keys import create_key, organisation_named
 
     app = app_factory(db_url, OHMTALLY_AUTH="on", OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
     secrets: dict[str, str] = {}

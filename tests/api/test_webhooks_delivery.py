@@ -30,10 +30,10 @@ from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
 
-from api.cli_demo import free_port, wait_healthy
+from api.cli.demo import free_port, wait_healthy
 from api.db import upgrade
+from api.db.models import WebhookEvent
 from api.webhooks.delivery import DeliveryConfig, backoff_s, run_once
-from api.webhooks.models import WebhookEvent
 from engine import NOTICE, build_record, verify
 from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 

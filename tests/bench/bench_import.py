@@ -5,7 +5,7 @@ Run: ``python -m tests.bench.bench_import [--rows N]`` (default 100,000).
 The CSV (neutral wide layout, every check's columns) is generated into a
 temporary file, not committed. Pipeline: ``CsvAdapter.read`` → merged records
 (``adapters.collect``) → ``engine.verify`` → the ``POST /v1/verify`` body
-(``api.bodies.verify_body``, built as ``POST /v1/verify`` builds it) serialised
+(``api.answers.verify_body``, built as ``POST /v1/verify`` builds it) serialised
 to JSON bytes with orjson, as the route does. Baseline over the very
 same file: ``csv.reader`` plus ``json.dumps`` of the raw rows. Target: the
 pipeline within 5× the baseline. Each stage's share is printed too, so the
@@ -26,7 +26,7 @@ import orjson
 
 from adapters import AdapterOptions, collect
 from adapters.csv_adapter import CsvAdapter
-from api.bodies import verify_body
+from api.answers import verify_body
 from engine import load_ruleset, verify
 from engine.verify import collector_paused
 

@@ -29,9 +29,8 @@ from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
-from .errors import ApiError, problem_response
-from .models import utcnow
-from .models_auth import IdempotencyRecord
+from api.db.models import IdempotencyRecord, utcnow
+from api.errors import ApiError, problem_response
 
 __all__ = ["IDEMPOTENCY_HEADER", "IDEMPOTENCY_PARAMETER_DOC", "KEY_PATTERN", "commit_with", "init_app",
            "remember_problem"]
@@ -98,8 +97,8 @@ def _answer(found: IdempotencyRecord, wanted: str) -> Response:
 
 
 def _reserve() -> Response | None:
-    from .auth import current_organisation_id
-    from .db import get_session
+    from api.db import get_session
+    from api.http.auth import current_organisation_id
 
     key = request_key()
     if key is None:

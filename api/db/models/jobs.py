@@ -10,43 +10,21 @@ Invariants:
 - ``uploads.body`` is the request body exactly as received; it is never
   changed or deleted, so nothing a client sent is lost, even rejected rows.
   ``(job_id, idempotency_key)`` is unique: a resent body is found, not stored twice.
-- The schema is owned by the Alembic migrations in ``api/migrations``; these
+- The schema is owned by the Alembic migrations in ``api/db/migrations``; these
   classes must match them (a test compares them).
 """
 
 from __future__ import annotations
 
-from datetime import UTC, datetime
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import JSON, ForeignKey, Index, LargeBinary, String, Text, UniqueConstraint
-from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
-from sqlalchemy.types import DateTime, TypeDecorator
+from sqlalchemy.orm import Mapped, mapped_column, relationship
 
-__all__ = ["Base", "Circuit", "FieldHistory", "Job", "Organisation", "Upload", "utcnow"]
+from api.db.models.base import Base, UtcDateTime, utcnow
 
-
-def utcnow() -> datetime:
-    return datetime.now(UTC)
-
-
-class UtcDateTime(TypeDecorator[datetime]):
-    """Timezone-aware UTC datetimes on every backend (SQLite keeps no zone)."""
-
-    impl = DateTime(timezone=True)
-    cache_ok = True
-
-    def process_bind_param(self, value: datetime | None, dialect: Any) -> datetime | None:
-        return None if value is None else value.astimezone(UTC)
-
-    def process_result_value(self, value: datetime | None, dialect: Any) -> datetime | None:
-        if value is None:
-            return None
-        return value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
-
-
-class Base(DeclarativeBase):
-    pass
+__all__ = ["Circuit", "FieldHistory", "Job", "Organisation", "Upload"]
 
 
 class Organisation(Base):
@@ -120,8 +98,3 @@ class FieldHistory(Base):
     location: Mapped[str | None] = mapped_column(String(100), default=None)  # "line 12", "/circuits/3"
     recorded_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
 
-
-# API keys and idempotency records live in their own module on this Base (migration 0003);
-# importing it here puts them in Base.metadata wherever the models are loaded.
-from . import models_auth as _models_auth  # noqa: E402,F401
-from .webhooks import models as _webhook_models  # noqa: E402,F401  (webhook tables, migration 0004)

@@ -10,7 +10,7 @@ import argparse
 import sys
 from typing import Any
 
-from .cli import EXIT_BAD_INPUT, EXIT_OK
+from api.cli import EXIT_BAD_INPUT, EXIT_OK
 
 __all__ = ["register", "resolve_database_url", "run_upgrade"]
 
@@ -26,9 +26,9 @@ def register(sub: Any) -> None:
 
 
 def resolve_database_url(given: str | None = None) -> str:
-    from .app import default_instance_path
-    from .db import database_url_for
-    from .settings import load_settings
+    from api.app import default_instance_path
+    from api.db import database_url_for
+    from api.settings import load_settings
 
     settings = load_settings()
     return database_url_for(settings.instance_path or default_instance_path(),
@@ -39,7 +39,7 @@ def run_upgrade(args: argparse.Namespace) -> int:
     from sqlalchemy.engine import make_url
     from sqlalchemy.exc import SQLAlchemyError
 
-    from .db import upgrade
+    from api.db import upgrade
 
     url = resolve_database_url(args.database_url)
     shown = make_url(url).render_as_string(hide_password=True)

@@ -17,7 +17,7 @@ import sys
 from collections.abc import Callable, Mapping
 from typing import Any
 
-from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
 
 __all__ = ["is_loopback_bind", "register", "run"]
 
@@ -63,10 +63,10 @@ def _application(factory: Callable[[], Any], options: Mapping[str, Any]) -> Any:
 
 
 def run(args: argparse.Namespace) -> int:
-    from .app import create_app
-    from .db import SchemaNotCurrent
-    from .settings import SettingsError, load_settings
-    from .webhooks import runner as webhook_hooks
+    from api.app import create_app
+    from api.db import SchemaNotCurrent
+    from api.settings import SettingsError, load_settings
+    from api.webhooks import runner as webhook_hooks
 
     try:
         settings = load_settings()

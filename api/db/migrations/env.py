@@ -10,7 +10,7 @@ from __future__ import annotations
 from alembic import context
 from sqlalchemy import create_engine, pool
 
-from api.models import Base
+from api.db.models import Base
 
 config = context.config
 target_metadata = Base.metadata

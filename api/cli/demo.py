@@ -18,7 +18,7 @@ import time
 from pathlib import Path
 from typing import Any
 
-from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
 
 __all__ = ["format_report", "free_port", "register", "run", "wait_healthy"]
 
@@ -128,9 +128,9 @@ def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str,
 
 
 def run(args: argparse.Namespace) -> int:
-    from .cli_db import resolve_database_url
-    from .db import default_sqlite_url, upgrade
-    from .demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+    from api.cli.db import resolve_database_url
+    from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+    from api.db import default_sqlite_url, upgrade
 
     try:
         manifest = load_manifest(args.manifest or DEFAULT_MANIFEST)
@@ -140,8 +140,8 @@ def run(args: argparse.Namespace) -> int:
     if args.database_url:
         url = args.database_url
     else:  # the demo never writes into a configured production database
-        from .app import default_instance_path
-        from .settings import load_settings
+        from api.app import default_instance_path
+        from api.settings import load_settings
 
         url = default_sqlite_url(load_settings().instance_path or default_instance_path())
     upgrade(resolve_database_url(url))

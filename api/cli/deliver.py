@@ -15,7 +15,7 @@ import sys
 import threading
 from typing import Any
 
-from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
 
 __all__ = ["register", "run"]
 
@@ -29,10 +29,10 @@ def register(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from .app import create_app
-    from .db import SchemaNotCurrent
-    from .settings import SettingsError
-    from .webhooks.delivery import config_from_settings, run_once
+    from api.app import create_app
+    from api.db import SchemaNotCurrent
+    from api.settings import SettingsError
+    from api.webhooks.delivery import config_from_settings, run_once
 
     if args.poll <= 0:
         print("ohmtally deliver: --poll must be positive", file=sys.stderr)

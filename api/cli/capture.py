@@ -19,7 +19,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from .cli import EXIT_OK, EXIT_USAGE
+from api.cli import EXIT_OK, EXIT_USAGE
 
 __all__ = ["default_spool_path", "read_api_key", "register", "run"]
 
@@ -83,14 +83,14 @@ def run(args: argparse.Namespace) -> int:
     if args.spool is None and not args.job:
         return _usage("give --job (or --spool PATH)")
     spool_path: Path = args.spool or default_spool_path(args.job)
-    from .capture.spool import Spool, SpoolError
+    from api.capture.spool import Spool, SpoolError
 
     if args.show:
         try:
             spool = Spool(spool_path, read_only=True)
         except SpoolError as exc:
             return _usage(str(exc))
-        from .capture.inspect import show_spool
+        from api.capture.inspect import show_spool
 
         show_spool(spool, as_json=args.json_log)
         return EXIT_OK
@@ -98,7 +98,7 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _capture(args: argparse.Namespace, spool_path: Path) -> int:
-    from .capture.spool import Spool, SpoolError
+    from api.capture.spool import Spool, SpoolError
 
     if args.batch_lines < 1 or args.linger < 0 or args.drain < 0:
         return _usage("--batch-lines must be ≥ 1, --linger and --drain ≥ 0")
@@ -117,7 +117,7 @@ def _capture(args: argparse.Namespace, spool_path: Path) -> int:
         spool = Spool(spool_path, job=job, api=api)
     except SpoolError as exc:
         return _usage(f"{exc}; give another --spool for this job")
-    from .capture.runner import run_session
+    from api.capture.runner import run_session
 
     return run_session(spool=spool, job=job, api=api, api_key=api_key, port=args.port,
                        baud=args.baud, profile=args.profile, batch_lines=args.batch_lines,

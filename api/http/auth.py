@@ -30,9 +30,8 @@ from typing import Any, TypeVar
 
 from flask import Flask, Response, current_app, g, has_request_context, request
 
-from .errors import ApiError
-from .models import Organisation, utcnow
-from .models_auth import SCOPES
+from api.db.models import SCOPES, Organisation, utcnow
+from api.errors import ApiError
 
 __all__ = [
     "PUBLIC_PATHS",
@@ -93,8 +92,8 @@ def _bearer_token() -> str:
 
 
 def _authenticate(app: Flask) -> None:
-    from .db import get_session
-    from .keys import find_key
+    from api.db import get_session
+    from api.http.keys import find_key
 
     session = get_session()
     key = find_key(session, _bearer_token())
@@ -124,7 +123,7 @@ def _authenticate(app: Flask) -> None:
 
 def init_app(app: Flask) -> None:
     """Install the key check (or, with OHMTALLY_AUTH=off, the local organisation) and rate limits."""
-    from . import idempotency, limits
+    from api.http import idempotency, limits
 
     auth_on = bool(app.extensions["ohmtally.settings"].auth)
 
@@ -172,7 +171,7 @@ def current_organisation_id() -> int | None:
     if local is None:
         from sqlalchemy import select
 
-        from .db import get_session
+        from api.db import get_session
 
         org = get_session().scalars(select(Organisation).where(Organisation.slug == "local")).first()
         if org is None:

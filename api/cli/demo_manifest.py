@@ -20,11 +20,11 @@ from typing import Any
 
 from marshmallow import RAISE, Schema, ValidationError, fields, validate
 
-from .errors import messages_to_errors
+from api.errors import messages_to_errors
 
 __all__ = ["DEFAULT_MANIFEST", "Manifest", "ManifestError", "UploadSpec", "load_manifest"]
 
-DEFAULT_MANIFEST = Path(__file__).resolve().parents[1] / "examples" / "demo" / "manifest.json"
+DEFAULT_MANIFEST = Path(__file__).resolve().parents[2] / "examples" / "demo" / "manifest.json"
 
 
 class ManifestError(ValueError):

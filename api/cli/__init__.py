@@ -18,13 +18,13 @@ EXIT_OK, EXIT_FAIL, EXIT_BAD_INPUT, EXIT_USAGE = 0, 1, 2, 3
 
 # Sub-command modules, in the order `ohmtally --help` lists them.
 COMMAND_MODULES: tuple[str, ...] = (
-    "api.cli_verify",
-    "api.cli_capture",
-    "api.cli_serve",
-    "api.cli_demo",
-    "api.cli_db",
-    "api.cli_deliver",
-    "api.cli_keys",
+    "api.cli.verify",
+    "api.cli.capture",
+    "api.cli.serve",
+    "api.cli.demo",
+    "api.cli.db",
+    "api.cli.deliver",
+    "api.cli.keys",
 )
 
 
@@ -54,7 +54,3 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_USAGE
     status: int = args.func(args)
     return status
-
-
-if __name__ == "__main__":  # pragma: no cover
-    raise SystemExit(main())

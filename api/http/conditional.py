@@ -18,10 +18,9 @@ from __future__ import annotations
 import hashlib
 from datetime import UTC, datetime
 
+from api.db.models import Job, utcnow
+from api.errors import ApiError
 from engine import Ruleset, __version__
-
-from .errors import ApiError
-from .models import Job, utcnow
 
 __all__ = ["bump_revision", "if_none_match", "parse_rfc3339", "verdicts_etag"]
 

@@ -29,6 +29,18 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from api.answers import verify_body
+from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
+from api.intake.objects import records_from_objects
+from api.render import (
+    FAIL_ON_CHOICES,
+    FORMATS,
+    WARN_ON_CHOICES,
+    Policy,
+    policy_from_names,
+    render,
+    rich_table,
+)
 from engine import (
     CircuitRecord,
     EngineError,
@@ -38,19 +50,6 @@ from engine import (
     verify,
 )
 from engine.verify import collector_paused
-
-from .bodies import verify_body
-from .cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
-from .intake import records_from_objects
-from .render import (
-    FAIL_ON_CHOICES,
-    FORMATS,
-    WARN_ON_CHOICES,
-    Policy,
-    policy_from_names,
-    render,
-    rich_table,
-)
 
 __all__ = ["register", "run"]
 

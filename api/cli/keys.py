@@ -2,7 +2,7 @@
 
 Invariants:
 - ``create`` prints the secret once, on stdout, and nothing else ever shows
-  it again: the database holds only its SHA-256 (``api.keys``). The
+  it again: the database holds only its SHA-256 (``api.http.keys``). The
   organisation is created on first use of its name (slug = lower-case name).
 - ``list`` never prints a secret or a hash: id, organisation, name, display
   prefix, scopes, created, expires, revoked, last used.
@@ -19,7 +19,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from typing import Any
 
-from .cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
 
 __all__ = ["register"]
 
@@ -52,8 +52,8 @@ def _open(args: argparse.Namespace) -> Iterator[Any]:
     """A session on the migrated database (``None`` after printing why not); the pool closed after."""
     from sqlalchemy.orm import Session
 
-    from .cli_db import resolve_database_url
-    from .db import SchemaNotCurrent, check_schema, make_engine
+    from api.cli.db import resolve_database_url
+    from api.db import SchemaNotCurrent, check_schema, make_engine
 
     url = resolve_database_url(args.database_url)
     engine = make_engine(url)
@@ -72,8 +72,8 @@ def _open(args: argparse.Namespace) -> Iterator[Any]:
 
 
 def _create(args: argparse.Namespace) -> int:
-    from .keys import KeySpecError, create_key, organisation_named, parse_expiry, parse_scopes
-    from .models import utcnow
+    from api.db.models import utcnow
+    from api.http.keys import KeySpecError, create_key, organisation_named, parse_expiry, parse_scopes
 
     try:
         scopes = parse_scopes(args.scope)
@@ -108,15 +108,14 @@ def _when(value: Any) -> str:
 def _list(args: argparse.Namespace) -> int:
     from sqlalchemy import select
 
-    from .models import Organisation
-    from .models_auth import ApiKey
+    from api.db.models import ApiKey, Organisation
 
     with _open(args) as session:
         if session is None:
             return EXIT_BAD_INPUT
         query = select(ApiKey, Organisation.slug).join(Organisation).order_by(ApiKey.id)
         if args.org:
-            from .keys import slugify
+            from api.http.keys import slugify
 
             query = query.where(Organisation.slug == slugify(args.org))
         print("id\torganisation\tname\tprefix\tscopes\tcreated\texpires\trevoked\tlast_used")
@@ -127,8 +126,7 @@ def _list(args: argparse.Namespace) -> int:
 
 
 def _revoke(args: argparse.Namespace) -> int:
-    from .models import utcnow
-    from .models_auth import ApiKey
+    from api.db.models import ApiKey, utcnow
 
     with _open(args) as session:
         if session is None:

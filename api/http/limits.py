@@ -22,8 +22,8 @@ from typing import Any
 
 from flask import Flask, current_app, g, request
 
-from .body_intake import Item
-from .errors import ApiError, problem_response
+from api.errors import ApiError, problem_response
+from api.intake.bodies import Item
 
 __all__ = ["check_row_count", "check_text_limits", "init_app", "rate_key"]
 

@@ -1,7 +1,7 @@
 """Webhook tables (migration 0004): subscriptions, the outbox of events, one delivery per pair.
 
 Invariants:
-- Declared on :class:`api.models.Base`, so one metadata holds every table and
+- Declared on :class:`api.db.models.base.Base`, so one metadata holds every table and
   the models-match-migrations test covers these.
 - A :class:`WebhookEvent` is written in the same transaction as the change it
   reports (no event is lost when the change commits, none invented when it
@@ -21,7 +21,7 @@ from typing import Any
 from sqlalchemy import JSON, ForeignKey, Index, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column
 
-from ..models import Base, UtcDateTime, utcnow
+from api.db.models.base import Base, UtcDateTime, utcnow
 
 __all__ = ["DELIVERY_STATUSES", "EVENT_TYPES", "WebhookDelivery", "WebhookEvent", "WebhookSubscription"]
 

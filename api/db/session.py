@@ -1,4 +1,4 @@
-"""The database: one SQLAlchemy engine per app, one session per request, Alembic migrations.
+"""The database connection: one SQLAlchemy engine per app, one session per request.
 
 Invariants:
 - The default database is an SQLite file in the Flask instance folder, in WAL
@@ -14,9 +14,8 @@ Invariants:
   sessions open at once in one thread) skips it and relies on the busy
   timeout, so it cannot deadlock on itself. PostgreSQL (``postgresql+psycopg://``) locks the job
   row instead (``repository.lock_job``).
-- The schema comes only from the migrations in ``api/migrations``; the app
-  refuses to start on a database that is not at the newest revision and says
-  to run ``ohmtally db upgrade``.
+- The app refuses to start on a database whose schema it cannot serve
+  (:mod:`api.db.schema`).
 - A session lives for one request and is closed at teardown.
 """
 
@@ -24,7 +23,6 @@ from __future__ import annotations
 
 import os
 import threading
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -38,23 +36,17 @@ from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
 
+from api.db.schema import check_schema
+
 __all__ = [
-    "SchemaNotCurrent",
-    "alembic_config",
-    "check_schema",
     "database_url_for",
     "default_sqlite_url",
     "get_session",
     "init_app",
     "make_engine",
-    "upgrade",
 ]
 
 SQLITE_FILE = "ohmtally.sqlite3"
-
-
-class SchemaNotCurrent(RuntimeError):
-    """The database is not at the newest migration."""
 
 
 def default_sqlite_url(instance_path: str) -> str:
@@ -131,44 +123,6 @@ def make_engine(url: str) -> Engine:
         event.listen(engine, "begin", _sqlite_begin)
         return engine
     return create_engine(url, pool_pre_ping=True)
-
-
-def alembic_config(url: str) -> Any:
-    """An Alembic config built in code: no alembic.ini needed at the top level."""
-    from alembic.config import Config
-
-    script_location = str(resources.files("api").joinpath("migrations"))
-    config = Config()
-    config.set_main_option("script_location", script_location)
-    config.set_main_option("sqlalchemy.url", url.replace("%", "%%"))
-    return config
-
-
-def upgrade(url: str, revision: str = "head") -> None:
-    from alembic import command
-
-    command.upgrade(alembic_config(url), revision)
-
-
-def _head_revision(url: str) -> str | None:
-    from alembic.script import ScriptDirectory
-
-    return ScriptDirectory.from_config(alembic_config(url)).get_current_head()
-
-
-def check_schema(engine: Engine, url: str) -> None:
-    """Raise :class:`SchemaNotCurrent` unless the database is at the newest migration."""
-    from alembic.runtime.migration import MigrationContext
-
-    with engine.connect() as connection:
-        current = MigrationContext.configure(connection).get_current_revision()
-    head = _head_revision(url)
-    if current != head:
-        shown = make_url(url).render_as_string(hide_password=True)
-        state = "has no ohmtally schema" if current is None else f"is at revision {current}"
-        raise SchemaNotCurrent(
-            f"the database {shown} {state}, the code needs {head}: run `ohmtally db upgrade` "
-            "(with the same OHMTALLY_DATABASE_URL) before starting the server")
 
 
 def init_app(app: Flask, url: str) -> None:

@@ -9,7 +9,7 @@ Invariants:
   one job apply one after the other and lose nothing.
 - A job's records are loaded in one query (no N+1); its history in one more.
 - Tenancy: inside a request every job query is limited to the request's
-  organisation (``api.auth.current_organisation_id``); another organisation's
+  organisation (``api.http.auth.current_organisation_id``); another organisation's
   job is "there is no job N", word for word what a missing job gets.
 """
 
@@ -27,11 +27,10 @@ from typing import Any, NamedTuple
 from sqlalchemy import Text, cast, insert, select, update
 from sqlalchemy.orm import Session
 
+from api.db.models import Circuit, FieldHistory, Job, Organisation, Upload, utcnow
+from api.errors import ApiError
+from api.intake.bodies import Item
 from engine import CircuitRecord, build_record
-
-from .body_intake import Item
-from .errors import ApiError
-from .models import Circuit, FieldHistory, Job, Organisation, Upload, utcnow
 
 __all__ = [
     "LOCAL_ORGANISATION",
@@ -74,7 +73,7 @@ def local_organisation(session: Session) -> Organisation:
 
 
 def _tenant() -> int | None:
-    from .auth import current_organisation_id
+    from api.http.auth import current_organisation_id
 
     return current_organisation_id()
 

@@ -25,11 +25,10 @@ from typing import Any
 
 from marshmallow import ValidationError
 
+from api.errors import ApiError, messages_to_errors
+from api.intake.objects import records_from_objects
+from api.schemas.records import load_verify_request
 from engine import CircuitRecord, Reading, build_record, record_to_dict
-
-from .errors import ApiError, messages_to_errors
-from .intake import records_from_objects
-from .schemas.records import load_verify_request
 
 __all__ = ["JSON_MEDIA_TYPE", "Intake", "Item", "read_body", "read_json_document"]
 

@@ -1,7 +1,7 @@
 """Tables for API keys and organisation-scoped Idempotency-Key records (migration 0003).
 
 Invariants:
-- Declared on :class:`api.models.Base`, so the one metadata holds every table
+- Declared on :class:`api.db.models.base.Base`, so the one metadata holds every table
   and the models-match-migrations test covers these too.
 - ``ApiKey.key_hash`` is the SHA-256 hex digest of the whole secret; the
   secret itself is never stored. ``prefix`` is only for people to tell keys
@@ -18,7 +18,8 @@ from datetime import datetime
 from sqlalchemy import ForeignKey, LargeBinary, String, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
-from .models import Base, Organisation, UtcDateTime, utcnow
+from api.db.models.base import Base, UtcDateTime, utcnow
+from api.db.models.jobs import Organisation
 
 __all__ = ["SCOPES", "ApiKey", "IdempotencyRecord"]
 

@@ -28,8 +28,7 @@ from datetime import datetime, timedelta
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from .models import Organisation, utcnow
-from .models_auth import SCOPES, ApiKey
+from api.db.models import SCOPES, ApiKey, Organisation, utcnow
 
 __all__ = [
     "KEY_PREFIX",

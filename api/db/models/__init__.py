@@ -1,0 +1,33 @@
+"""Every table, on one declarative base: jobs and their records, API keys, webhooks.
+
+Importing this package registers every table in ``Base.metadata`` (Alembic's
+``env.py`` and the models-match-migrations test rely on that). Each module
+imports only :mod:`.base` (and ``auth`` the organisation it belongs to), so
+there is no cycle between them.
+"""
+
+from __future__ import annotations
+
+from .auth import SCOPES, ApiKey, IdempotencyRecord
+from .base import Base, UtcDateTime, utcnow
+from .jobs import Circuit, FieldHistory, Job, Organisation, Upload
+from .webhooks import DELIVERY_STATUSES, EVENT_TYPES, WebhookDelivery, WebhookEvent, WebhookSubscription
+
+__all__ = [
+    "DELIVERY_STATUSES",
+    "EVENT_TYPES",
+    "SCOPES",
+    "ApiKey",
+    "Base",
+    "Circuit",
+    "FieldHistory",
+    "IdempotencyRecord",
+    "Job",
+    "Organisation",
+    "Upload",
+    "UtcDateTime",
+    "WebhookDelivery",
+    "WebhookEvent",
+    "WebhookSubscription",
+    "utcnow",
+]
