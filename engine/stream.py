@@ -41,7 +41,7 @@ from .feeders import FeederProblem, feeder_chain
 from .records import CircuitRecord
 from .results import Verdict
 from .ruleset import Ruleset, load_ruleset
-from .verify import collector_paused, verify_one
+from .verify import verify_one
 
 __all__ = ["verify_stream"]
 
@@ -103,10 +103,9 @@ def _waits_for_feeder(board: str, ctx: Context) -> bool:
 
 
 def _verdicts(ctx: Context) -> list[Verdict]:
-    """One board's verdicts, built with the collector paused (never across a yield)."""
+    """One board's verdicts."""
     own = ctx.records.maps[0] if isinstance(ctx.records, ChainMap) else ctx.records
-    with collector_paused():
-        return [verify_one(record, ctx) for record in own.values()]
+    return [verify_one(record, ctx) for record in own.values()]
 
 
 def verify_stream(records: Iterable[CircuitRecord],

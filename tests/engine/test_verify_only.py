@@ -7,6 +7,7 @@ import gc
 import pytest
 
 from engine import verify
+from engine.stream import verify_stream
 from tests.bench import synthetic
 
 
@@ -29,7 +30,7 @@ def test_only_empty_and_unknown_keys_give_nothing() -> None:
 
 @pytest.mark.parametrize("enabled", [True, False])
 def test_verify_leaves_the_collector_as_it_found_it(enabled: bool) -> None:
-    """The garbage collector paused during verify() is restored, and a disabled one stays off."""
+    """verify() leaves the garbage collector as it found it, enabled or disabled."""
     records = synthetic.records(5)
     (gc.enable if enabled else gc.disable)()
     try:
@@ -37,3 +38,14 @@ def test_verify_leaves_the_collector_as_it_found_it(enabled: bool) -> None:
         assert gc.isenabled() is enabled
     finally:
         gc.enable()
+
+
+def test_verify_never_touches_the_collector(monkeypatch: pytest.MonkeyPatch) -> None:
+    """No process-wide state in the engine: verify() and verify_stream() never pause the collector."""
+    def refuse() -> None:
+        raise AssertionError("the engine paused the garbage collector")
+
+    monkeypatch.setattr(gc, "disable", refuse)
+    records = synthetic.records(12)
+    assert len(verify(records)) == 12
+    assert len(list(verify_stream(records))) == 12
