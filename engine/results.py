@@ -5,18 +5,19 @@ Invariants:
   A circuit with no applicable check is ``incomplete`` (nothing was shown to pass).
 - ``margin`` = (limit − value) / limit for an upper limit and
   (value − limit) / limit for a lower one: positive inside the limit.
-- Results are immutable (:class:`CheckResult` is a tuple); ``inputs`` is a plain
-  dict the caller must not mutate (read-only and shared when a check gives none).
+- Results are immutable (frozen, slotted, keyword-only dataclasses); ``inputs``
+  is a plain dict the caller must not mutate (read-only and shared when a check
+  gives none).
 """
 
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from enum import StrEnum
 from functools import lru_cache
 from types import MappingProxyType
-from typing import Any, Literal, NamedTuple
+from typing import Any, Literal
 
 __all__ = ["CHECK_IDS", "CheckResult", "LimitKind", "Outcome", "Verdict", "worst"]
 
@@ -59,7 +60,22 @@ def worst(outcomes: Iterable[Outcome], *, empty: Outcome = Outcome.INCOMPLETE) -
     return max(found, key=_SEVERITY.__getitem__) if found else empty
 
 
-class _CheckResultFields(NamedTuple):
+def _no_inputs() -> Mapping[str, Any]:
+    return _NO_INPUTS
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class CheckResult:
+    """One judged thing: a frozen, slotted, keyword-only dataclass with a known check id.
+
+    It compares equal only to another ``CheckResult`` (never to a tuple). Measured
+    against the keyword-only tuple it replaced: 1.2 µs to build one against 0.4 µs
+    (a frozen dataclass sets each field through ``object.__setattr__``), and
+    ``verify()`` at 0.91× the tuple's rate at 48 and at 2,000 circuits (synthetic
+    set of tests/bench, best of three runs each, same session). Kept: a result
+    type that is what it says it is is worth those 9 %.
+    """
+
     check: str
     outcome: Outcome
     detail: str
@@ -70,34 +86,21 @@ class _CheckResultFields(NamedTuple):
     unit: str | None = None
     method: str | None = None
     basis: str | None = None
-    inputs: Mapping[str, Any] = _NO_INPUTS
+    inputs: Mapping[str, Any] = field(default_factory=_no_inputs)
 
-
-class CheckResult(_CheckResultFields):
-    """One judged thing. Immutable as a tuple is; built by keyword only, with a known check id.
-
-    A tuple rather than a frozen dataclass: a frozen dataclass sets each of its eleven
-    fields through ``object.__setattr__``, 3.2 µs a result against 0.8 µs here, and a
-    circuit gets about twelve results (a fifth of ``verify()``'s time, tests/bench).
-    """
-
-    __slots__ = ()
-
-    def __new__(cls, *, check: str, outcome: Outcome, detail: str, value: float | None = None,
-                relation: str = "=", limit: float | None = None, limit_kind: LimitKind | None = None,
-                unit: str | None = None, method: str | None = None, basis: str | None = None,
-                inputs: Mapping[str, Any] = _NO_INPUTS) -> CheckResult:
+    def __post_init__(self) -> None:
         try:
-            known = check in _KNOWN_CHECKS
-        except TypeError:  # unhashable, so certainly no check id: the same ValueError as before
+            known = self.check in _KNOWN_CHECKS
+        except TypeError:  # unhashable, so certainly no check id
             known = False
         if not known:
-            raise ValueError(f"unknown check id {check!r}")
-        return tuple.__new__(cls, (check, outcome, detail, value, relation, limit, limit_kind, unit,
-                                   method, basis, inputs))
+            raise ValueError(f"unknown check id {self.check!r}")
 
-    def __getnewargs_ex__(self) -> tuple[tuple[()], dict[str, Any]]:  # pickle and copy: by keyword
-        return (), self._asdict()
+    def __reduce__(self) -> tuple[Any, tuple[dict[str, Any]]]:
+        # pickle and copy by keyword; the shared read-only "no inputs" travels as a plain dict
+        values = {name: getattr(self, name) for name in _RESULT_FIELDS}
+        values["inputs"] = dict(self.inputs)
+        return _rebuild, (values,)
 
     @property
     def margin(self) -> float | None:
@@ -129,6 +132,13 @@ class CheckResult(_CheckResultFields):
             "inputs": {k: _round(v) if type(v) is float else v for k, v in inputs.items()} if inputs else {},
             "detail": self.detail,
         }
+
+
+_RESULT_FIELDS: tuple[str, ...] = tuple(f.name for f in fields(CheckResult))
+
+
+def _rebuild(kwargs: dict[str, Any]) -> CheckResult:
+    return CheckResult(**kwargs)
 
 
 def _round(value: float | None) -> float | None:

@@ -1,9 +1,10 @@
-"""CheckResult's contract now that it is a tuple: keyword-only, known ids, immutable, and
-an ``as_dict`` whose inlined margin and rounding agree with :attr:`CheckResult.margin`."""
+"""CheckResult's contract: a frozen, slotted, keyword-only dataclass with known ids, never equal
+to a tuple, and an ``as_dict`` whose inlined margin and rounding agree with :attr:`CheckResult.margin`."""
 
 from __future__ import annotations
 
 import copy
+import dataclasses
 import math
 import pickle
 
@@ -35,6 +36,25 @@ def test_immutable_and_copies_by_keyword() -> None:
         _result().inputs["x"] = 1  # type: ignore[index]  # the shared empty default is read-only
     assert pickle.loads(pickle.dumps(result)) == result
     assert copy.deepcopy(result) == result
+
+
+def test_a_frozen_slotted_keyword_only_dataclass_that_is_no_tuple() -> None:
+    """As engine/README.md says: a frozen, slotted, keyword-only dataclass; a tuple never equals it."""
+    result = _result(value=0.9, limit=1.37, limit_kind="max")
+    assert dataclasses.is_dataclass(result) and not isinstance(result, tuple)
+    params = type(result).__dataclass_params__  # type: ignore[attr-defined]
+    assert params.frozen and hasattr(type(result), "__slots__")
+    assert all(f.kw_only for f in dataclasses.fields(result))
+    as_tuple = tuple(getattr(result, f.name) for f in dataclasses.fields(result))
+    assert result != as_tuple and as_tuple != result
+    assert result == _result(value=0.9, limit=1.37, limit_kind="max")
+
+
+def test_default_inputs_survive_pickle_and_copy() -> None:
+    """A result with the shared read-only "no inputs" pickles and copies like any other."""
+    bare = _result()
+    assert pickle.loads(pickle.dumps(bare)) == bare
+    assert copy.copy(bare) == bare and copy.deepcopy(bare).inputs == {}
 
 
 _FIGURES = st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True),
