@@ -3,7 +3,9 @@
 Invariants (DESIGN.md, "Loop impedance"; REFERENCE-VALUES.md §1–3, §9):
 - The maximum comes from ``device_max_zs_ohm`` if given, else from the device
   tables at the disconnection time the rules give (``engine.protection``).
-- Measured Zs ≤ the 0.8-rule limit → pass (``rule_of_thumb_0.8``). Above it
+- Measured Zs ≤ the rule-of-thumb limit (the ruleset's ``rule_of_thumb_factor``
+  × max: 0.8 in BS 7671's handbook guidance) → pass (``rule_of_thumb``; the
+  factor is in ``inputs`` and in the sentence). Above it
   but ≤ max: with Ze, Zs_hot = Ze + (Zs − Ze) × F against max
   (``temperature_corrected``; Ze is not corrected, only the circuit part);
   without Ze → investigate.
@@ -96,6 +98,10 @@ def _thumb(ctx: Context, max_ohm: float) -> float:
     return cached
 
 
+def _thumb_factor(rules: Ruleset) -> float:
+    return float(rules.value("max_zs", "rule_of_thumb_factor"))
+
+
 def _max_zs(view: CircuitView, ctx: Context) -> tuple[MaxZs | Missing, float | None]:
     """The maximum Zs and the disconnection time it was taken for."""
     rules = ctx.ruleset
@@ -169,14 +175,15 @@ def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: MaxZs, seconds: 
            idn: float | None) -> CheckResult:
     rules = ctx.ruleset
     thumb = _thumb(ctx, limit.ohm)
-    inputs = _inputs(limit, seconds, rule_of_thumb_limit=thumb)
+    factor = _thumb_factor(rules)
+    inputs = _inputs(limit, seconds, rule_of_thumb_limit=thumb, rule_of_thumb_factor=factor)
     basis = f"{limit.basis}; {rules.basis('max_zs', 'rule_of_thumb_factor')}"
     common: dict[str, Any] = {"check": CHECK, "unit": "Ω", "limit_kind": "max", "basis": basis}
     if compare_max(zs, thumb) is Side.WITHIN:
         return CheckResult(outcome=Outcome.PASS, value=zs.value, relation=zs.relation, limit=thumb,
-                           method="rule_of_thumb_0.8", inputs=inputs, **common,
-                           detail=f"Zs {zs.display('Ω')} is within 0.8 × {limit.ohm:g} Ω = {thumb:g} Ω "
-                                  f"({limit.device})")
+                           method="rule_of_thumb", inputs=inputs, **common,
+                           detail=f"Zs {zs.display('Ω')} is within {factor:g} × {limit.ohm:g} Ω = "
+                                  f"{thumb:g} Ω ({limit.device})")
     side = compare_max(zs, limit.ohm)
     if side is not Side.WITHIN:
         if idn is not None:
@@ -193,9 +200,9 @@ def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: MaxZs, seconds: 
     if ze is None:
         return CheckResult(
             outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=thumb,
-            method="rule_of_thumb_0.8", inputs={**inputs, "missing": ["ze_ohm"]}, **common,
-            detail=f"Zs {zs.display('Ω')} is within the {limit.ohm:g} Ω maximum but above the "
-                   f"0.8 rule ({thumb:g} Ω); ze_ohm would allow the temperature-corrected check")
+            method="rule_of_thumb", inputs={**inputs, "missing": ["ze_ohm"]}, **common,
+            detail=f"Zs {zs.display('Ω')} is within the {limit.ohm:g} Ω maximum but above "
+                   f"{factor:g} × max ({thumb:g} Ω); ze_ohm would allow the temperature-corrected check")
     return _hot(view, rules, zs, ze, limit, idn, inputs, common)
 
 

@@ -110,7 +110,7 @@ def max_zs_for(rules: Ruleset, device: Device, u0_v: float, required_s: float) -
 
 
 def rule_of_thumb_limit(rules: Ruleset, max_ohm: float) -> float:
-    """0.8 × max, rounded down as the trade tables print it (0.8 × 0.91 = 0.728 → 0.72)."""
+    """The ruleset's factor × max, rounded down as the trade tables print it (0.8 × 0.91 = 0.728 → 0.72)."""
     factor = float(rules.value("max_zs", "rule_of_thumb_factor"))
     return round_down(decimal_of(factor) * decimal_of(max_ohm),
                       rules.get("max_zs", "rule_of_thumb_round_down_dp"))

@@ -6,7 +6,7 @@ from typing import Any
 
 import pytest
 
-from engine import CheckResult, Outcome, build_record, load_builtin, verify
+from engine import CheckResult, Outcome, build_record, load_builtin, ruleset_from_data, verify
 from engine.context import CircuitView
 from engine.protection import Disconnection, Missing, disconnection_time
 
@@ -85,7 +85,8 @@ def test_record_disconnection_time_overrides_and_it_is_missing() -> None:
 def test_e10_rule_of_thumb_fails_but_exact_check_passes() -> None:
     """E10: Ze 0.35 + 0.780 = 1.130 Ω > 0.8 × 1.37; Ze + 0.780 × 1.20 = 1.286 ≤ 1.37 passes [D]."""
     without_ze = _loop(zs_ohm=1.130, **B32)
-    assert without_ze.outcome is Outcome.INVESTIGATE and without_ze.method == "rule_of_thumb_0.8"
+    assert without_ze.outcome is Outcome.INVESTIGATE and without_ze.method == "rule_of_thumb"
+    assert without_ze.inputs["rule_of_thumb_factor"] == 0.8
     exact = _loop(zs_ohm=1.130, ze_ohm=0.35, **B32)
     assert exact.outcome is Outcome.PASS and exact.method == "temperature_corrected"
     assert exact.value == pytest.approx(1.286)
@@ -196,3 +197,18 @@ def test_defaults_used_are_reported() -> None:
     """U0 and the temperatures the check assumed appear in defaults_applied."""
     verdict = verify([_record(zs_ohm=1.13, ze_ohm=0.35, **B32)])[0]
     assert {"nominal_voltage_v", "insulation_temp_c", "test_temp_c"} <= set(verdict.defaults_applied)
+
+
+def test_rule_of_thumb_sentence_prints_the_rulesets_factor() -> None:
+    """The factor is ruleset data: a local ruleset with 0.5 prints and applies 0.5, never "0.8"."""
+    local = ruleset_from_data({"id": "local-half", "title": "local", "base": "bs7671-2018-a2",
+                               "sections": {"max_zs": {"rule_of_thumb_factor": {
+                                   "value": 0.5, "source": "a local code (test)", "marker": "CP"}}}})
+    [verdict] = verify([_record(zs_ohm=0.6, **B32)], local)
+    found = next(c for c in verdict.checks if c.check == "loop_impedance")
+    assert found.outcome is Outcome.PASS and found.limit == 0.68  # 0.5 × 1.37 = 0.685 → 0.68
+    assert "0.5 × 1.37" in found.detail and "0.8" not in found.detail
+    assert found.inputs["rule_of_thumb_factor"] == 0.5
+    above = next(c for c in verify([_record(zs_ohm=0.9, **B32)], local)[0].checks
+                 if c.check == "loop_impedance")
+    assert above.outcome is Outcome.INVESTIGATE and "0.5 × max" in above.detail
