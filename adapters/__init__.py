@@ -5,7 +5,7 @@ Imports point one way: ``api -> adapters -> engine``; nothing here imports ``api
 
 from __future__ import annotations
 
-from .base import Adapter, AdapterError, AdapterOptions, Fragment, LineError, Result, Skipped
+from .base import Adapter, AdapterError, AdapterOptions, Fragment, InputWarning, LineError, Result, Skipped
 from .collect import Collected, collect, iter_records
 
 __all__ = [
@@ -14,6 +14,7 @@ __all__ = [
     "AdapterOptions",
     "Collected",
     "Fragment",
+    "InputWarning",
     "LineError",
     "Result",
     "Skipped",

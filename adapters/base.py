@@ -7,6 +7,14 @@ Invariants (every adapter keeps them; tests check the built-ins):
   one :class:`LineError` or one :class:`Skipped` (blank, comment, header,
   context line). A row with one bad cell yields its good cells as a fragment
   *and* a :class:`LineError` per bad cell (the fragment counts for the line).
+- Every column and key is accounted for too: a name that is read as no field
+  (unknown, ambiguous, a second column for a field already read, a column a
+  profile leaves out) is an :class:`InputWarning` right after the result of
+  the line that names it. A warning never accounts for a line and never
+  rejects anything: the rest of the line is taken. Each such name is reported
+  once per input, where it first appears (a CSV header, or the first line or
+  record that carries the key), so the same mistake gives the same account in
+  every format.
 - Nothing raises out of ``read`` for any byte sequence; only a bad *option*
   (an unknown profile, an invalid profile document) raises :class:`AdapterError`
   before the first result.
@@ -23,6 +31,7 @@ __all__ = [
     "AdapterError",
     "AdapterOptions",
     "Fragment",
+    "InputWarning",
     "LineError",
     "Result",
     "Skipped",
@@ -86,7 +95,36 @@ class Skipped:
     reason: str
 
 
-Result = Fragment | LineError | Skipped
+@dataclass(frozen=True, slots=True, kw_only=True)
+class InputWarning:
+    """Something in the input that was read as nothing, said out loud; nothing was rejected.
+
+    ``column`` is the name as the input spells it (a CSV header cell, a line
+    key, a JSON member), ``line`` where it first appears, ``fields`` the fields
+    an ambiguous name could mean. Codes: ``unknown_field``, ``ambiguous_label``,
+    ``duplicate_column``, ``ignored_column``.
+    """
+
+    line: int
+    code: str
+    reason: str
+    column: str | None = None
+    field: str | None = None
+    fields: tuple[str, ...] = ()
+    pointer: str | None = None
+
+    def as_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"line": self.line, "code": self.code, "reason": self.reason}
+        for name in ("column", "field", "pointer"):
+            value = getattr(self, name)
+            if value is not None:
+                out[name] = value
+        if self.fields:
+            out["fields"] = list(self.fields)
+        return out
+
+
+Result = Fragment | LineError | Skipped | InputWarning
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -95,7 +133,10 @@ class AdapterOptions:
 
     profile: str | None = None  # profile name (built-in or from OHMTALLY_PROFILE_DIR)
     profile_dir: str | None = None
-    decimal_comma: bool | None = None  # None: as the profile says, else no
+    # Decimal commas (0,82): True/False as the caller declares (the API's ?decimal=comma|point);
+    # None: as the profile says, else CSV detects and the lines format reads points. A
+    # ``#% decimal=…`` line in the lines format overrides it from that line on.
+    decimal_comma: bool | None = None
     encoding: str | None = None  # None: detect
     max_line_length: int = 65536
     max_columns: int = 512

@@ -4,7 +4,8 @@ Invariants:
 - Fragments for the same ``(board, circuit)`` merge field by field, later
   fragments winning, in input order; records come out in first-seen order.
 - Errors and skipped lines are counted and kept with their line numbers, so a
-  caller can report every line it was given.
+  caller can report every line it was given; warnings (names read as no
+  field) are kept beside them, in input order.
 """
 
 from __future__ import annotations
@@ -15,7 +16,7 @@ from typing import Any
 
 from engine import CircuitRecord
 
-from .base import Fragment, LineError, Result, Skipped
+from .base import Fragment, InputWarning, LineError, Result, Skipped
 
 __all__ = ["Collected", "collect", "iter_records"]
 
@@ -24,6 +25,7 @@ __all__ = ["Collected", "collect", "iter_records"]
 class Collected:
     records: list[CircuitRecord] = field(default_factory=list)
     errors: list[LineError] = field(default_factory=list)
+    warnings: list[InputWarning] = field(default_factory=list)
     fragments: int = 0
     skipped: int = 0
 
@@ -53,12 +55,14 @@ def collect(results: Iterable[Result]) -> Collected:
             out.errors.append(result)
         elif isinstance(result, Skipped):
             out.skipped += 1
+        elif isinstance(result, InputWarning):
+            out.warnings.append(result)
     out.records = [_record(key, values) for key, values in merged.items()]
     return out
 
 
-def iter_records(results: Iterable[Result], errors: list[LineError] | None = None
-                 ) -> Iterator[CircuitRecord]:
+def iter_records(results: Iterable[Result], errors: list[LineError] | None = None,
+                 warnings: list[InputWarning] | None = None) -> Iterator[CircuitRecord]:
     """Constant-memory merge: consecutive fragments of one circuit become one record.
 
     For inputs too large to hold (a year's export): a circuit split across
@@ -75,5 +79,7 @@ def iter_records(results: Iterable[Result], errors: list[LineError] | None = Non
             values.update(result.fields)
         elif isinstance(result, LineError) and errors is not None:
             errors.append(result)
+        elif isinstance(result, InputWarning) and warnings is not None:
+            warnings.append(result)
     if key is not None:
         yield _record(key, values)

@@ -12,20 +12,26 @@ Invariants (beyond those of :mod:`adapters.base`):
   profile or an option that states one wins over detection.
 - Rows are parsed with the header's plan and cached cell parses: no
   per-value library calls once a value has been seen.
+- A header cell read as no field (unknown, ambiguous, a second column for one
+  field, left out by the profile) is a warning on the header line, once: the
+  columns that are read are still read on every row.
 """
 
 from __future__ import annotations
 
 from collections.abc import Iterator
+from dataclasses import replace
 from itertools import chain
 from typing import IO, Any, ClassVar
 
 from engine import EngineError, coerce_field
 
+from .aliases import resolve_label
 from .base import AdapterError, AdapterOptions, Fragment, LineError, Result, Skipped
 from .cells import CellParser, CellProblem
 from .csv_layout import Layout, detect_decimal_comma, long_test, plan_layout, sniff_delimiter, split_cells
-from .encoding import DecodedLine, checked_encoding, detect_encoding, iter_decoded_lines, read_sample
+from .encoding import DecodedLine, checked_encoding, detect_encoding_guess, iter_decoded_lines, read_sample
+from .identifiers import key_problem
 from .profiles import CsvProfile, get_profile
 
 __all__ = ["CsvAdapter"]
@@ -50,8 +56,8 @@ class CsvAdapter:
             profile = found
         defaults = _coerced_defaults(profile)
         sample, replay = read_sample(stream)
-        encoding = (checked_encoding(options.encoding) or (profile.encoding if profile else None)
-                    or detect_encoding(sample))
+        declared = checked_encoding(options.encoding) or (profile.encoding if profile else None)
+        encoding, guessed = (declared, False) if declared else detect_encoding_guess(sample)
         del sample
         lines = iter_decoded_lines(replay, encoding, options.max_line_length)
         head: list[tuple[DecodedLine, bool]] = []
@@ -59,7 +65,9 @@ class CsvAdapter:
             head.append(item)
             if len(head) >= _SAMPLE_LINES:
                 break
-        yield from _Reader(options, profile, defaults).run(head, chain(head, lines))
+        reader = _Reader(options, profile, defaults)
+        reader.guessed_encoding = encoding if guessed else None
+        yield from reader.run(head, chain(head, lines))
 
 
 def _coerced_defaults(profile: CsvProfile | None) -> dict[str, Any]:
@@ -90,6 +98,7 @@ class _Reader:
         self.header: list[str] = []
         self.header_line = 0
         self.long_parsers: dict[tuple[str, float], CellParser] = {}
+        self.guessed_encoding: str | None = None  # a single-byte encoding detection guessed
 
     def _is_content(self, text: str) -> bool:
         stripped = text.strip()
@@ -145,9 +154,9 @@ class _Reader:
             elif number < self.header_line and number >= first_content:
                 yield Skipped(line=number, reason="preamble before the header")
             elif number == self.header_line:
-                ignored = ", ".join(self.layout.ignored)
-                note = f"; ignored columns: {ignored}" if ignored else ""
-                yield Skipped(line=number, reason="header" + note)
+                yield Skipped(line=number, reason="header")
+                for note in self.layout.notes:
+                    yield replace(note, line=number)
             else:
                 yield from self._row(number, line.text)
 
@@ -176,6 +185,10 @@ class _Reader:
                             column=self.header[layout.board if missing == "board" and layout.board
                                                is not None else layout.circuit],
                             reason=f"the row has no {missing}, which keys the circuit record")
+            return
+        bad_key = self._key_error(number, board, circuit)
+        if bad_key is not None:
+            yield bad_key
             return
         fields: dict[str, Any] = dict(self.defaults)
         errors: list[LineError] = []
@@ -210,6 +223,27 @@ class _Reader:
             yield Fragment(board=board, circuit=circuit, fields=fields, line=number)
         yield from errors
 
+    def _key_error(self, number: int, board: str, circuit: str) -> LineError | None:
+        """A board or circuit that could not be what the person typed (control bytes, undecodable
+        bytes, or bytes whose meaning only a guessed encoding gave)."""
+        layout = self.layout
+        assert layout is not None
+        for name, value in (("board", board), ("circuit", circuit)):
+            index = layout.board if name == "board" else layout.circuit
+            column = self.header[index] if index is not None else None
+            problem = key_problem(name, value)
+            if problem is not None:
+                return LineError(line=number, code="bad_key", field=name, column=column, text=value[:80],
+                                 reason=f"line {number}: {problem}")
+            if self.guessed_encoding and not value.isascii():
+                return LineError(
+                    line=number, code="bad_encoding", field=name, column=column, text=value[:80],
+                    reason=f"line {number}: the {name} reference {value!r} holds bytes that are not "
+                           f"UTF-8; the input declares no encoding and {self.guessed_encoding} is only a "
+                           "guess, never trusted for a board or circuit: declare the encoding "
+                           "(charset, profile encoding) or correct the line")
+        return None
+
     def _long(self, number: int, cells: list[str], fields: dict[str, Any]) -> LineError | str:
         layout = self.layout
         assert layout is not None
@@ -217,9 +251,11 @@ class _Reader:
         label = cells[layout.test].strip() if layout.test < count else ""
         test = long_test(layout, label) if label else None
         if test is None:
+            known = resolve_label(label) if label else None
+            why = (f"{label!r} {known.why} (one of {', '.join(known.fields)}): name the field instead"
+                   if known is not None and known.ambiguous else f"{label!r} names no test we know")
             return LineError(line=number, code="unknown_test", column=self.header[layout.test],
-                             text=label, reason=f"{label!r} names no test we know" if label
-                             else "the row names no test")
+                             text=label, reason=why if label else "the row names no test")
         raw = cells[layout.value].strip() if layout.value < count else ""
         unit = cells[layout.unit].strip() if layout.unit is not None and layout.unit < count else ""
         key = (test.field, test.scale)

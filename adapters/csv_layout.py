@@ -10,6 +10,11 @@ Invariants:
   table is not consulted at all.
 - The layout is decided once, from the header; rows then cost list indexing and
   cached cell parses (:class:`adapters.cells.CellParser`).
+- Every header cell is accounted for: a field, a key or a long-layout role, or
+  a note in ``Layout.notes`` saying why its values are not read (unknown,
+  ambiguous, a second column for a field, left out by the profile, a field
+  column in a long layout). The adapter reports the notes as warnings on the
+  header line.
 """
 
 from __future__ import annotations
@@ -18,8 +23,10 @@ import csv
 import re
 from dataclasses import dataclass, field
 
-from .aliases import field_for_label, fold, split_header
+from .aliases import field_for_label, fold, resolve_label, split_header
+from .base import InputWarning
 from .cells import CellParser
+from .name_notes import name_warning
 from .profiles import ColumnSpec, CsvProfile
 
 __all__ = [
@@ -60,7 +67,7 @@ class Layout:
     unit: int | None = None
     tests: dict[str, LongTest] = field(default_factory=dict)
     width: int = 0
-    ignored: list[str] = field(default_factory=list)
+    notes: list[InputWarning] = field(default_factory=list)  # line 0: the adapter sets the header's
 
 
 def sniff_delimiter(sample_lines: list[str], declared: str | None) -> str:
@@ -102,6 +109,10 @@ def _profile_columns(profile: CsvProfile | None) -> dict[str, ColumnSpec]:
     return {fold(c.source): c for c in profile.columns} if profile else {}
 
 
+def _note(code: str, column: str, reason: str, name: str | None = None) -> InputWarning:
+    return InputWarning(line=0, code=code, column=column, field=name, reason=reason)
+
+
 def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bool
                 ) -> tuple[Layout | None, str]:
     """The layout a header describes, or ``None`` and why it is not recognised."""
@@ -110,7 +121,7 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
     roles: dict[str, int] = {}
     wide: list[tuple[int, str, CellParser]] = []
     keys: dict[str, int] = {}
-    ignored: list[str] = []
+    notes: list[InputWarning] = []
     for index, cell in enumerate(header):
         bare, header_unit = split_header(cell)
         spec = mapped.get(fold(cell)) or mapped.get(fold(bare))
@@ -119,35 +130,47 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
             name, scale = spec.field, spec.scale
             unit = spec.unit or (header_unit if fold(cell) not in mapped else None)
         elif only_mapped:
-            name, unit, scale = None, None, 1.0
+            if cell.strip():
+                named = profile.name if profile else ""
+                notes.append(_note("ignored_column", cell.strip(),
+                                   f"{cell.strip()!r} is not mapped by profile {named!r}, which reads "
+                                   "only the columns it maps: its values are not read"))
+            continue
         else:
             folded = fold(cell)
             role = next((r for r, labels in _ROLE_LABELS.items() if folded in labels), None)
             if role is not None:
                 roles.setdefault(role, index)
                 continue
-            name, unit = field_for_label(cell)
-            scale = 1.0
-        if name is None:
-            if cell.strip():
-                ignored.append(cell.strip())
-            continue
+            label = resolve_label(cell)
+            if label.field is None:
+                if cell.strip():
+                    notes.append(name_warning(cell.strip(), label, line=0))
+                continue
+            name, unit, scale = label.field, label.unit, 1.0
         if name in ("test", "value", "unit"):
             roles.setdefault(name, index)
         elif name in ("board", "circuit"):
+            if name in keys:
+                notes.append(_note("duplicate_column", cell.strip(),
+                                   f"{cell.strip()!r} also names the {name}, already read from column "
+                                   f"{header[keys[name]].strip()!r}: its values are not read", name))
             keys.setdefault(name, index)
         elif all(existing != name for _, existing, _ in wide):
             wide.append((index, name, CellParser(name, unit=unit, decimal_comma=decimal_comma,
                                                  scale=scale)))
         else:
-            ignored.append(cell.strip())
+            first = next(header[i].strip() for i, existing, _ in wide if existing == name)
+            notes.append(_note("duplicate_column", cell.strip(),
+                               f"{cell.strip()!r} also names {name}, already read from column "
+                               f"{first!r}: its values are not read", name))
     default_board = profile.defaults.get("board") if profile else None
     if "circuit" not in keys:
         return None, "no column names the circuit (Circuit, Cct, Way …)"
     if "board" not in keys and not default_board:
         return None, "no column names the board (DB, Board …) and the profile gives no default board"
     layout = Layout(kind="wide", board=keys.get("board"), circuit=keys["circuit"], width=len(header),
-                    ignored=ignored)
+                    notes=notes)
     wants_long = (profile.layout == "long") if profile and profile.layout else (
         "test" in roles and "value" in roles and not wide)
     if wants_long:
@@ -157,7 +180,10 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
         layout.test, layout.value, layout.unit = roles["test"], roles["value"], roles.get("unit")
         if profile:
             layout.tests = {fold(t.source): LongTest(t.field, t.unit, t.scale) for t in profile.tests}
-        layout.ignored += [header[i].strip() for i, _, _ in wide]
+        layout.notes += [_note("ignored_column", header[i].strip(),
+                               f"{header[i].strip()!r} names {name}, but a long layout takes readings from "
+                               "its test and value columns only: its values are not read", name)
+                         for i, name, _ in wide]
         return layout, ""
     if not wide and profile is None:
         return None, "no column names a reading or design value"

@@ -2,13 +2,20 @@
 
 Invariants:
 - Detection looks at a bounded sample (``SAMPLE_BYTES``), never the whole input.
-  Order: a byte-order mark (UTF-8, UTF-16 LE/BE); else UTF-8 if the sample
-  decodes as UTF-8; else charset-normalizer's best guess among the single-byte
-  encodings meters and spreadsheets in our market write (cp1252, ISO 8859-15);
-  else cp1252, which decodes nearly every byte. UTF-8 with a few bad bytes
-  among many good multi-byte characters stays UTF-8 (a damaged line).
-- UTF-16 is taken only with its byte-order mark: guessing it from bytes turns
-  noise into plausible-looking text.
+  Order: a byte-order mark (UTF-8, UTF-16 LE/BE); else UTF-16 without a mark
+  when the sample has the zero bytes of mostly-ASCII UTF-16 (one byte of every
+  pair zero in at least 90 % of the pairs, the other almost never: no UTF-8 or
+  single-byte text looks like that); else UTF-8 if the sample decodes as
+  UTF-8; else charset-normalizer's best guess among the single-byte encodings
+  meters and spreadsheets in our market write (cp1252, ISO 8859-15); else
+  cp1252, which decodes nearly every byte. UTF-8 with a few bad bytes among
+  many good multi-byte characters stays UTF-8 (a damaged line).
+- A single-byte encoding found that way is a *guess*
+  (:func:`detect_encoding_guess` says so): good enough for descriptions and
+  units (``°C``, ``µ``), never trusted for a board or circuit reference (the
+  CSV adapter rejects such a line unless the encoding was declared).
+- UTF-16 is decoded to text before it is split into lines, and a byte-order
+  mark never reaches the first line's text.
 - Lines are split on CR, LF or CRLF before decoding wherever the encoding is
   ASCII-compatible, so a byte that does not decode costs its own line only
   (:class:`DecodedLine` with ``problem`` set), never its neighbours.
@@ -30,8 +37,10 @@ __all__ = [
     "DecodedLine",
     "checked_encoding",
     "detect_encoding",
+    "detect_encoding_guess",
     "iter_decoded_lines",
     "read_sample",
+    "sniff_unicode",
 ]
 
 SAMPLE_BYTES = 64 * 1024
@@ -39,8 +48,8 @@ _CHUNK = 1 << 16
 _SINGLE_BYTE_CANDIDATES = ["cp1252", "iso8859_15"]
 _BOMS: tuple[tuple[bytes, str], ...] = (
     (codecs.BOM_UTF8, "utf-8-sig"),
-    (codecs.BOM_UTF16_LE, "utf-16"),
-    (codecs.BOM_UTF16_BE, "utf-16"),
+    (codecs.BOM_UTF16_LE, "utf-16-le"),
+    (codecs.BOM_UTF16_BE, "utf-16-be"),
 )
 
 
@@ -71,20 +80,41 @@ def checked_encoding(name: str | None) -> str | None:
                            details={"option": "encoding"}) from exc
 
 
-def detect_encoding(sample: bytes) -> str:
-    """The codec name to read the input with (see the module's order of tests)."""
+def sniff_unicode(sample: bytes) -> str | None:
+    """A Unicode encoding the sample shows for certain (byte-order mark, UTF-16 zero bytes), else None."""
     for bom, name in _BOMS:
         if sample.startswith(bom):
             return name
+    pairs = len(sample) // 2
+    if pairs >= 2:
+        even, odd = sample[0 : 2 * pairs : 2], sample[1 : 2 * pairs : 2]
+        zero_even, zero_odd = even.count(0), odd.count(0)
+        if zero_odd >= 0.9 * pairs and zero_even <= 0.1 * pairs:
+            return "utf-16-le"
+        if zero_even >= 0.9 * pairs and zero_odd <= 0.1 * pairs:
+            return "utf-16-be"
+    return None
+
+
+def detect_encoding_guess(sample: bytes) -> tuple[str, bool]:
+    """The codec name to read the input with, and whether it is a guess (see the module's order)."""
+    found = sniff_unicode(sample)
+    if found is not None:
+        return found, False
     if _is_utf8(sample) or _mostly_utf8(sample):
-        return "utf-8"
+        return "utf-8", False
     from charset_normalizer import from_bytes  # imported on use: most inputs are UTF-8
 
     try:
         best = from_bytes(sample, cp_isolation=_SINGLE_BYTE_CANDIDATES).best()
     except Exception:  # a detector failure must not fail the input; cp1252 reads anything
         best = None
-    return best.encoding if best is not None else "cp1252"
+    return (best.encoding if best is not None else "cp1252"), True
+
+
+def detect_encoding(sample: bytes) -> str:
+    """The codec name to read the input with (see the module's order of tests)."""
+    return detect_encoding_guess(sample)[0]
 
 
 def _is_utf8(sample: bytes) -> bool:
@@ -143,8 +173,8 @@ def _bytes_first(stream: IO[bytes], encoding: str, max_line_length: int
                 # the cut fell inside a character; the line is reported as overlong anyway
                 return DecodedLine(number, raw[: exc.start].decode(encoding, "replace")), overlong
             return (DecodedLine(number, raw.decode(encoding, "replace"), code="bad_encoding",
-                                problem=f"byte {raw[exc.start]:#04x} at column {exc.start + 1} "
-                                        f"is not valid {encoding}"), overlong)
+                                problem=f"line {number}: byte {raw[exc.start]:#04x} at column "
+                                        f"{exc.start + 1} is not valid {encoding}"), overlong)
 
     while True:
         chunk = stream.read(_CHUNK)
@@ -167,9 +197,11 @@ def _text_first(stream: IO[bytes], encoding: str, max_line_length: int
     def mark(text: str, overlong: bool) -> tuple[DecodedLine, bool]:
         nonlocal number
         number += 1
+        if number == 1 and text.startswith("\ufeff"):
+            text = text[1:]
         if "\ufffd" in text:
             return DecodedLine(number, text, code="bad_encoding",
-                               problem=f"the line has bytes that are not valid {encoding}"), overlong
+                               problem=f"line {number} has bytes that are not valid {encoding}"), overlong
         return DecodedLine(number, text), overlong
 
     while True:

@@ -12,6 +12,13 @@ Invariants (beyond those of :mod:`adapters.base`):
   the fragment of the good fields.
 - Line accounting is per record, not per physical line (a pretty-printed
   record spans many lines): the ``line`` is where the record starts.
+- A member that names no field (unknown or ambiguous) is a warning, once per
+  input, as a CSV column or a line key would be; the record's other members
+  are taken.
+- Text is UTF-8 (RFC 8259 §8.1), or UTF-16 found by its byte-order mark or its
+  zero bytes. A string holding bytes that did not decode (U+FFFD) or a lone
+  surrogate (``"\ud800"``) is an error for its member; as a board or circuit
+  it rejects the record: such text never keys a circuit.
 """
 
 from __future__ import annotations
@@ -19,11 +26,13 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import IO, Any, ClassVar
 
-from .aliases import field_for_label
-from .base import AdapterOptions, Fragment, LineError, Result
+from .aliases import resolve_label
+from .base import AdapterOptions, Fragment, InputWarning, LineError, Result
 from .cells import CellParser, CellProblem
-from .encoding import checked_encoding, read_sample
+from .encoding import checked_encoding, read_sample, sniff_unicode
+from .identifiers import key_problem
 from .json_stream import iter_json_records
+from .name_notes import NameNotes, name_warning
 
 __all__ = ["JsonAdapter"]
 
@@ -42,22 +51,22 @@ class JsonAdapter:
 
     def read(self, stream: IO[bytes], options: AdapterOptions) -> Iterator[Result]:
         sample, replay = read_sample(stream)
-        # RFC 8259 §8.1: JSON is UTF-8; a BOM'd UTF-16 file from an old tool is still read
+        # RFC 8259 §8.1: JSON is UTF-8; UTF-16 from an old tool (marked, or by its zero bytes) is read
         if options.encoding:
             encoding = checked_encoding(options.encoding) or "utf-8"
-        elif sample[:2] in (b"\xff\xfe", b"\xfe\xff"):
-            encoding = "utf-16"
         else:
-            encoding = "utf-8"  # a UTF-8 BOM is skipped by the scanner
+            found = sniff_unicode(sample)
+            encoding = found if found and found.startswith("utf-16") else "utf-8"  # a UTF-8 BOM: skipped
         del sample
         parsers: dict[str, CellParser] = {}
         decimal_comma = bool(options.decimal_comma)
+        names = NameNotes()
         for item in iter_json_records(replay, encoding, options.max_line_length):
             if item.problem is not None:
                 yield LineError(line=item.line, code=item.code, pointer=item.pointer, reason=item.problem)
                 continue
             yield from _record(item.line, item.pointer, item.value, parsers, decimal_comma,
-                               options.max_columns)
+                               options.max_columns, names)
 
 
 def _key(value: Any) -> str | None:
@@ -68,8 +77,19 @@ def _key(value: Any) -> str | None:
     return None
 
 
+def _bad_text(value: Any) -> str | None:
+    """Why a string member cannot be taken as text (undecodable bytes, a lone surrogate), or None."""
+    if not isinstance(value, str):
+        return None
+    if "\ufffd" in value:
+        return "holds bytes that are not valid text in the input's encoding"
+    if any("\ud800" <= ch <= "\udfff" for ch in value):
+        return "holds a lone surrogate (an escape such as \\ud800 that is no character)"
+    return None
+
+
 def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser], decimal_comma: bool,
-            max_columns: int) -> Iterator[Result]:
+            max_columns: int, names: NameNotes) -> Iterator[Result]:
     if not isinstance(value, dict):
         yield LineError(line=line, pointer=pointer, code="bad_record",
                         reason=f"a circuit record must be an object, not {type(value).__name__}")
@@ -80,19 +100,33 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
         return
     fields: dict[str, Any] = {}
     errors: list[LineError] = []
+    notes: list[InputWarning] = []
     board = circuit = None
     for key, raw in value.items():
         where = f"{pointer}/{_escape(key)}"
-        name, unit = field_for_label(key)
+        if _bad_text(key):
+            errors.append(LineError(line=line, pointer=pointer, code="bad_encoding",
+                                    reason=f"a member name {_bad_text(key)}"))
+            continue
+        label = resolve_label(key)
+        name, unit = label.field, label.unit
         if name is None:
-            errors.append(LineError(line=line, pointer=where, code="unknown_field", column=key,
-                                    reason=f"{key!r} is not a circuit record field"))
+            note = names.first(name_warning(key, label, line=line, pointer=where))
+            if note is not None:
+                notes.append(note)
+            continue
+        bad_text = _bad_text(raw)
+        if bad_text is not None:
+            errors.append(LineError(line=line, pointer=where, field=name, code="bad_encoding",
+                                    reason=f"{name} {bad_text}"))
             continue
         if name in ("board", "circuit"):
             text = _key(raw)
-            if text is None:
-                errors.append(LineError(line=line, pointer=where, field=name, code="bad_value",
-                                        reason=f"{name} must be a non-empty string"))
+            problem = key_problem(name, text) if text is not None else None
+            if text is None or problem is not None:
+                errors.append(LineError(line=line, pointer=where, field=name,
+                                        code="bad_value" if text is None else "bad_key",
+                                        reason=problem or f"{name} must be a non-empty string"))
             elif name == "board":
                 board = text
             else:
@@ -114,10 +148,13 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
             fields[name] = typed
     if board is None or circuit is None:
         missing = "board" if board is None else "circuit"
-        yield LineError(line=line, pointer=f"{pointer}/{missing}", field=missing, code="missing_key",
-                        reason=f"{missing} is required to key the circuit record")
+        if not any(e.field == missing for e in errors):
+            yield LineError(line=line, pointer=f"{pointer}/{missing}", field=missing, code="missing_key",
+                            reason=f"{missing} is required to key the circuit record")
         yield from errors
+        yield from notes
         return
     if fields or not errors:
         yield Fragment(board=board, circuit=circuit, fields=fields, line=line)
     yield from errors
+    yield from notes

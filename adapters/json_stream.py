@@ -10,7 +10,8 @@ Invariants:
   followed by ``,``; in NDJSON: at the next line), so good records after a bad
   one still come through. Records are flat objects, so ``},`` ends one.
 - Line numbers count from 1 at the start of the input and name the line where
-  a record (or a problem) starts. Pointers follow RFC 6901 (``/circuits/3``).
+  a record (or a problem) starts; CR, LF and CRLF each end one line (as in
+  the other adapters). Pointers follow RFC 6901 (``/circuits/3``).
 """
 
 from __future__ import annotations
@@ -31,6 +32,11 @@ _WS = re.compile(r"[ \t\r\n]*")
 _RESYNC_LIST = re.compile(r"\}[ \t\r\n]*,")  # the end of a (flat) record and its comma
 _DECODER = json.JSONDecoder()
 _RECORD_KEYS = frozenset(FIELDS)  # a top-level object starting with one of these is a record
+
+
+def _line_ends(text: str, start: int, end: int) -> int:
+    """Line ends in ``text[start:end]``: LF, CR and CRLF count one each."""
+    return text.count("\n", start, end) + text.count("\r", start, end) - text.count("\r\n", start, end)
 
 
 @dataclass(frozen=True, slots=True)
@@ -61,7 +67,7 @@ class _Text:
         if not chunk:
             self.eof = True
         if self.pos:
-            self._dropped_lines += self.buf.count("\n", 0, self.pos)
+            self._dropped_lines += _line_ends(self.buf, 0, self.pos)
             self.buf = self.buf[self.pos:]
             self.pos = 0
         self.buf += text
@@ -77,7 +83,7 @@ class _Text:
                 return ""
 
     def line(self) -> int:
-        return self._dropped_lines + self.buf.count("\n", 0, self.pos) + 1
+        return self._dropped_lines + _line_ends(self.buf, 0, self.pos) + 1
 
     def decode(self, max_record: int) -> tuple[Any, str | None]:
         """One JSON value at ``pos`` (reading more text as needed), or a problem."""
@@ -195,7 +201,7 @@ def _document(text: _Text, key: str, max_record: int) -> Iterator[JsonItem]:
             return
 
 
-_NEWLINE = re.compile(r"\n")
+_NEWLINE = re.compile(r"\r\n?|\n")
 
 
 def _ndjson(text: _Text, max_record: int) -> Iterator[JsonItem]:

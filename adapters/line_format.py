@@ -9,7 +9,9 @@ Format (one reading line)::
   spaces, or a value with spaces or ``;``, is quoted with ``"…"`` (``\\"``
   inside) or ``'…'``;
 - a value may carry its unit (``zs=350mΩ``), else it is in the field's unit;
-- a line starting with ``#`` is a comment.
+- a line starting with ``#`` is a comment, except one starting with ``#%``:
+  a directive, ``#% decimal=comma``, ``#% board=DB2 circuit=4`` (the lines
+  adapter's reader says what each key does).
 
 Checksum (optional): the line ends with ``*`` and four hex digits, the
 CRC-16/CCITT-FALSE (polynomial 0x1021, initial value 0xFFFF, no reflection, no
@@ -27,9 +29,22 @@ import binascii
 import re
 from dataclasses import dataclass
 
-__all__ = ["ChecksumResult", "PairsResult", "append_checksum", "check_suffix", "checksum", "parse_pairs"]
+__all__ = [
+    "DIRECTIVE",
+    "ChecksumResult",
+    "PairsResult",
+    "append_checksum",
+    "check_suffix",
+    "check_text_suffix",
+    "checksum",
+    "format_pairs",
+    "parse_pairs",
+]
+
+DIRECTIVE = "#%"  # a line starting so declares how the lines after it read (see the adapters README)
 
 _SUFFIX = re.compile(rb"\*([0-9A-Fa-f]{4})[ \t]*$")
+_TEXT_SUFFIX = re.compile(r"\*([0-9A-Fa-f]{4})[ \t]*$")
 _PAIR = re.compile(
     r"""(?P<key>"(?:[^"\\]|\\.)*"|'[^']*'|[^\s;="']+)\s*=\s*
         (?P<value>"(?:[^"\\]|\\.)*"|'[^']*'|[^\s;"']*)""",
@@ -70,6 +85,17 @@ def check_suffix(raw: bytes) -> ChecksumResult:
     return ChecksumResult(payload, present=True, ok=given == expected, given=given, expected=expected)
 
 
+def check_text_suffix(text: str, encoding: str) -> tuple[str, ChecksumResult]:
+    """:func:`check_suffix` for a line decoded before splitting (UTF-16): the sum is over its bytes."""
+    match = _TEXT_SUFFIX.search(text)
+    if match is None:
+        return text, ChecksumResult(b"", present=False, ok=True)
+    payload = text[: match.start()].rstrip(" \t")
+    given = match.group(1).upper()
+    expected = checksum(payload.encode(encoding))
+    return payload, ChecksumResult(b"", present=True, ok=given == expected, given=given, expected=expected)
+
+
 @dataclass(frozen=True, slots=True)
 class PairsResult:
     pairs: list[tuple[str, str]]
@@ -101,3 +127,19 @@ def parse_pairs(text: str) -> PairsResult:
             return PairsResult(pairs, f"expected a space, tab or ';' at column {after + 1}", after + 1)
         pos = sep
     return PairsResult(pairs)
+
+
+_NEEDS_QUOTES = re.compile(r"""[\s;="'\\]""")
+
+
+def _quoted(token: str) -> str:
+    if token and not _NEEDS_QUOTES.search(token):
+        return token
+    if not token:
+        return '""'
+    return '"' + token.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+
+def format_pairs(pairs: list[tuple[str, str]]) -> str:
+    """``key=value`` pairs written so that :func:`parse_pairs` reads them back exactly."""
+    return " ".join(f"{_quoted(key)}={_quoted(value)}" for key, value in pairs)

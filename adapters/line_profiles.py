@@ -8,35 +8,43 @@ field names, or are mapped to fields (with a unit and scale) under ``groups``::
      "groups": {"zs": {"field": "zs_ohm", "unit": "mΩ"}}}
 
 Invariants:
-- The pattern is compiled once per read, with the group → parser plan beside it.
+- The pattern is compiled once per read, by RE2 (:mod:`adapters.profile_regex`),
+  so matching a line takes time linear in its length whatever the operator wrote.
 - A line that does not match is an error for that line only (``no_match``).
 - Groups that did not take part in the match are absent fields, not errors.
 """
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
-from .cells import CellParser
+from .profile_regex import ProfilePattern, compile_pattern
 from .profiles import RegexProfile
 
-__all__ = ["CompiledLineProfile", "compile_line_profile"]
+__all__ = ["CompiledLineProfile", "GroupPlan", "compile_line_profile"]
+
+
+@dataclass(frozen=True, slots=True)
+class GroupPlan:
+    group: str
+    field: str
+    unit: str | None
+    scale: float
 
 
 @dataclass(frozen=True, slots=True)
 class CompiledLineProfile:
     name: str
-    pattern: re.Pattern[str]
-    plan: tuple[tuple[str, str, CellParser], ...]  # (group, field, parser) for reading fields
+    pattern: ProfilePattern
+    plan: tuple[GroupPlan, ...]  # reading and design fields
     key_groups: tuple[tuple[str, str], ...]  # (group, "board"/"circuit")
 
 
-def compile_line_profile(profile: RegexProfile, *, decimal_comma: bool) -> CompiledLineProfile:
-    """The profile's pattern and a cached parser per group."""
-    pattern = re.compile(profile.pattern)
+def compile_line_profile(profile: RegexProfile) -> CompiledLineProfile:
+    """The profile's pattern (already validated when the profile was loaded) and its group plan."""
+    pattern = compile_pattern(profile.pattern)
     specs = {g.source: g for g in profile.groups}
-    plan: list[tuple[str, str, CellParser]] = []
+    plan: list[GroupPlan] = []
     keys: list[tuple[str, str]] = []
     for group in pattern.groupindex:
         spec = specs.get(group)
@@ -44,7 +52,5 @@ def compile_line_profile(profile: RegexProfile, *, decimal_comma: bool) -> Compi
         if name in ("board", "circuit"):
             keys.append((group, name))
             continue
-        plan.append((group, name, CellParser(name, unit=spec.unit if spec else None,
-                                             decimal_comma=decimal_comma,
-                                             scale=spec.scale if spec else 1.0)))
+        plan.append(GroupPlan(group, name, spec.unit if spec else None, spec.scale if spec else 1.0))
     return CompiledLineProfile(profile.name, pattern, tuple(plan), tuple(keys))

@@ -7,7 +7,8 @@ Invariants:
 - Unknown members are errors, not ignored: a misspelt ``delimeter`` would
   otherwise silently fall back to detection.
 - Every ``unit`` is resolved against its field's canonical unit here, once.
-- Every regex compiles and its named groups are fields (or mapped to fields).
+- Every regex compiles with RE2 (:mod:`adapters.profile_regex`: linear-time
+  matching) and its named groups are fields (or mapped to fields).
 
 Document (csv):  {"name", "description", "kind": "csv", "layout": "wide"|"long",
 "delimiter", "decimal": "."|",", "encoding", "comment", "only_mapped",
@@ -15,6 +16,9 @@ Document (csv):  {"name", "description", "kind": "csv", "layout": "wide"|"long",
 "tests": {label: field | {...}} (long layout: test labels beyond the aliases)}.
 Document (regex): {"name", "description", "kind": "regex", "pattern",
 "groups": {group: field | {...}}, "decimal", "encoding", "comment", "defaults"}.
+Document (lines): {"name", "description", "kind": "lines", "keys": {key: field | {...}},
+"decimal", "encoding", "comment", "defaults"} — our key=value line format with a
+logger's own key names, decimal convention and encoding.
 """
 
 from __future__ import annotations
@@ -30,6 +34,7 @@ from engine.units import UnitMismatch, UnknownUnit, unit_factor
 
 from .aliases import fold
 from .base import AdapterError
+from .profile_regex import PatternError, compile_pattern
 
 __all__ = ["LONG_ROLES", "parse_profile"]
 
@@ -38,6 +43,8 @@ _NAME = re.compile(r"^[a-z0-9][a-z0-9_.-]{0,63}$")
 _COMMON = {"name", "description", "kind", "decimal", "encoding", "comment", "defaults"}
 _CSV_ONLY = {"layout", "delimiter", "columns", "tests", "only_mapped"}
 _REGEX_ONLY = {"pattern", "groups"}
+_LINES_ONLY = {"keys"}
+_KIND_MEMBERS = {"csv": _CSV_ONLY, "regex": _REGEX_ONLY, "lines": _LINES_ONLY}
 
 
 def _escape(token: str) -> str:
@@ -137,8 +144,8 @@ def parse_profile(data: Any) -> dict[str, Any]:
     """Checked keyword data for :class:`CsvProfile` / :class:`RegexProfile` (plus ``kind``)."""
     if not isinstance(data, dict):
         raise _bad("", "a profile must be a JSON object")
-    kind = _choice(data, "kind", ("csv", "regex")) or "csv"
-    allowed = _COMMON | (_CSV_ONLY if kind == "csv" else _REGEX_ONLY)
+    kind = _choice(data, "kind", ("csv", "regex", "lines")) or "csv"
+    allowed = _COMMON | _KIND_MEMBERS[kind]
     for key in data:
         if key not in allowed:
             raise _bad(f"/{_escape(key)}", f"is not a member of a {kind} profile")
@@ -172,11 +179,14 @@ def parse_profile(data: Any) -> dict[str, Any]:
         if out["decimal"] == "," and delimiter == ",":
             raise _bad("/decimal", "a decimal comma needs a delimiter other than ','")
         return out
+    if kind == "lines":
+        out["columns"] = _entries(data, "keys", allow_roles=False, required=False)
+        return out
     pattern = _text(data, "pattern", required=True)
     assert pattern is not None
     try:
-        compiled = re.compile(pattern)
-    except re.error as exc:
+        compiled = compile_pattern(pattern)
+    except PatternError as exc:
         raise _bad("/pattern", f"does not compile: {exc}") from exc
     groups = _entries(data, "groups", allow_roles=False, required=False)
     mapped = {g["source"] for g in groups}

@@ -9,7 +9,8 @@ Invariants:
   and a user's directory (``AdapterOptions.profile_dir``, else the
   ``OHMTALLY_PROFILE_DIR`` environment variable). A user's profile with a
   built-in's name replaces it (a firm may tune our example layouts).
-- ``kind`` is ``csv`` (the default) or ``regex``; an adapter asks only for its kind.
+- ``kind`` is ``csv`` (the default), ``regex`` or ``lines``; an adapter asks
+  only for the kinds it reads (the ``lines`` adapter: ``regex`` and ``lines``).
 - Loaded profiles are cached by (file, modification time): editing a profile
   takes effect without a restart, and a million rows do not reread it.
 """
@@ -30,6 +31,7 @@ __all__ = [
     "PROFILE_DIR_ENV",
     "ColumnSpec",
     "CsvProfile",
+    "LinesProfile",
     "Profile",
     "RegexProfile",
     "get_profile",
@@ -38,7 +40,7 @@ __all__ = [
 ]
 
 PROFILE_DIR_ENV = "OHMTALLY_PROFILE_DIR"
-ProfileKind = Literal["csv", "regex"]
+ProfileKind = Literal["csv", "regex", "lines"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -82,7 +84,22 @@ class RegexProfile:
     kind: Literal["regex"] = "regex"
 
 
-Profile = CsvProfile | RegexProfile
+@dataclass(frozen=True, slots=True, kw_only=True)
+class LinesProfile:
+    """Our key=value line format as one logger writes it: its key names, decimals, encoding."""
+
+    name: str
+    description: str
+    origin: str
+    keys: tuple[ColumnSpec, ...] = ()
+    decimal: Literal[".", ","] | None = None
+    encoding: str | None = None
+    comment: str = "#"
+    defaults: dict[str, str] = field(default_factory=dict)
+    kind: Literal["lines"] = "lines"
+
+
+Profile = CsvProfile | RegexProfile | LinesProfile
 _cache: dict[tuple[str, float], Profile] = {}
 
 
@@ -118,8 +135,10 @@ def _build(data: Any, origin: str, where: str) -> Profile:
         raise
     kind = parsed.pop("kind")
     parsed["origin"] = origin
-    parsed["columns" if kind == "csv" else "groups"] = tuple(
+    parsed[{"csv": "columns", "regex": "groups", "lines": "keys"}[kind]] = tuple(
         ColumnSpec(**c) for c in parsed.pop("columns"))
+    if kind == "lines":
+        return LinesProfile(**parsed)
     if kind == "csv":
         parsed["tests"] = tuple(ColumnSpec(**t) for t in parsed["tests"])
         return CsvProfile(**parsed)
@@ -156,17 +175,19 @@ def _all(profile_dir: str | None) -> dict[str, Profile]:
     return found
 
 
-def get_profile(name: str, *, kind: ProfileKind, profile_dir: str | None = None) -> Profile:
-    """The profile called ``name`` of ``kind``; ``unknown_profile`` lists the choices."""
-    found = {n: p for n, p in _all(profile_dir).items() if p.kind == kind}
+def get_profile(name: str, *, kind: ProfileKind | tuple[ProfileKind, ...],
+                profile_dir: str | None = None) -> Profile:
+    """The profile called ``name`` of ``kind`` (or one of several); ``unknown_profile`` lists the choices."""
+    kinds = (kind,) if isinstance(kind, str) else kind
+    found = {n: p for n, p in _all(profile_dir).items() if p.kind in kinds}
     if name in found:
         return found[name]
     path = Path(name)
     if path.suffix == ".json" and path.is_file():  # a profile given as a file path
         profile = load_profile_file(path, origin="file")
-        if profile.kind == kind:
+        if profile.kind in kinds:
             return profile
-    raise AdapterError(f"unknown {kind} profile {name!r}", code="unknown_profile",
+    raise AdapterError(f"unknown {' or '.join(kinds)} profile {name!r}", code="unknown_profile",
                        details={"choices": sorted(found)})
 
 

@@ -45,7 +45,7 @@ _BUILTINS = {
     "lines": "adapters.lines_adapter:LinesAdapter",
     "json": "adapters.json_adapter:JsonAdapter",
 }
-_PROFILE_KIND = {"csv": "csv", "lines": "regex"}
+_PROFILE_KINDS: dict[str, tuple[str, ...]] = {"csv": ("csv",), "lines": ("regex", "lines")}
 
 _cache: tuple[tuple[str, ...], dict[str, metadata.EntryPoint]] | None = None
 _loaded: dict[tuple[str, str], Any] = {}
@@ -142,12 +142,13 @@ def list_adapters(profile_dir: str | None = None) -> list[dict[str, Any]]:
     profiles = list_profiles(profile_dir)
     out: list[dict[str, Any]] = []
     for name, adapter in _working().items():
-        kind = _PROFILE_KIND.get(name) or getattr(adapter, "profile_kind", None)
+        own = getattr(adapter, "profile_kind", None)
+        kinds = _PROFILE_KINDS.get(name) or ((own,) if own else ())
         out.append({
             "name": name,
             "description": adapter.description,
             "media_types": list(adapter.media_types),
             "extensions": list(adapter.extensions),
-            "profiles": [p["name"] for p in profiles if kind and p["kind"] == kind],
+            "profiles": [p["name"] for p in profiles if p["kind"] in kinds],
         })
     return out

@@ -7,10 +7,10 @@ import io
 
 import pytest
 
-from adapters import AdapterOptions, Fragment, LineError, Skipped, collect
+from adapters import AdapterOptions, Fragment, InputWarning, LineError, Skipped, collect
 from adapters.line_format import append_checksum, check_suffix, checksum, parse_pairs
 from adapters.lines_adapter import LinesAdapter
-from engine import record_to_dict
+from engine import Reading, record_to_dict
 
 
 def _read(data: bytes, **options: object) -> list[object]:
@@ -55,8 +55,8 @@ def test_context_lines_are_sticky() -> None:
 
 
 def test_every_fault_costs_one_line() -> None:
-    """Bad checksum, bad byte, control byte, syntax error, unknown key, over-long line: one line each;
-    the good lines around them still come through."""
+    """Bad checksum, bad byte, control byte, syntax error, over-long line: one line each; an unknown
+    key is a warning on its line and the rest of the line is taken; the good lines still come through."""
     good = append_checksum("board=DB1 circuit=1 zs=0.82").encode()
     bad_sum = good[:-1] + (b"0" if good[-1:] != b"0" else b"1")
     data = b"\n".join([
@@ -65,14 +65,16 @@ def test_every_fault_costs_one_line() -> None:
         b"circuit=2 zs=0.9 desc=K\xfcche",     # 3 bad_encoding
         b"circuit=3 zs=0.9\x07",               # 4 control_bytes
         b"circuit=4 zs 0.9",                   # 5 bad_syntax
-        b"circuit=5 zs=0.9 colour=red",        # 6 fragment + unknown_field
+        b"circuit=5 zs=0.9 colour=red",        # 6 fragment + unknown_field warning
         b"circuit=6 zs=" + b"9" * 300,         # 7 line_too_long
         b"circuit=7 zs=1.0",                   # 8 ok
     ])
     results = _read(data, max_line_length=120)
     codes = [(r.line, r.code) for r in results if isinstance(r, LineError)]
     assert codes == [(2, "bad_checksum"), (3, "bad_encoding"), (4, "control_bytes"), (5, "bad_syntax"),
-                     (6, "unknown_field"), (7, "line_too_long")]
+                     (7, "line_too_long")]
+    warnings = [(r.line, r.code, r.column) for r in results if isinstance(r, InputWarning)]
+    assert warnings == [(6, "unknown_field", "colour")]
     assert [f.circuit for f in results if isinstance(f, Fragment)] == ["1", "5", "7"]
     assert collect(results).lines == 8
 
@@ -109,3 +111,40 @@ def test_readme_example_line_verifies() -> None:
     result = check_suffix(line.encode())
     assert result.present and result.ok
     assert collect(_read(line.encode())).errors == []
+
+
+def test_decimal_comma_directive_holds_from_its_line_on() -> None:
+    """'#% decimal=comma' makes 0,82 read as 0.82 on the lines after it; '#% decimal=point' ends it;
+    without a declaration a comma is refused, never guessed."""
+    data = (b"board=DB1\ncircuit=1 zs=0,82\n#% decimal=comma\ncircuit=2 zs=0,82\n"
+            b"#% decimal=point\ncircuit=3 zs=0,5\n")
+    results = _read(data)
+    got = collect(results)
+    assert [(r.circuit, r.zs_ohm.value if r.zs_ohm else None) for r in got.records] == [("2", 0.82)]
+    assert [(e.line, e.code) for e in got.errors] == [(2, "bad_value"), (6, "bad_value")]
+    assert [r.reason for r in results if isinstance(r, Skipped)].count("directive") == 2
+
+
+def test_decimal_comma_option_and_lines_profile() -> None:
+    """AdapterOptions.decimal_comma (the API's query parameter) and a 'lines' profile's decimal both
+    declare commas for the whole input."""
+    assert collect(_read(b"board=DB1 circuit=1 zs=0,82\n", decimal_comma=True)).records[0].zs_ohm \
+        == Reading(value=0.82, text="0,82")
+    got = collect(_read(b"board=DB1 circuit=1 Schleife=0,82\n", profile="example-lines-decimal-comma"))
+    assert got.errors == [] and got.records[0].zs_ohm == Reading(value=0.82, text="0,82")
+
+
+def test_unknown_directive_is_an_error_and_changes_nothing() -> None:
+    """A directive we do not know could change how later lines read: it is refused on its line."""
+    results = _read(b"#% units=mohm\nboard=DB1 circuit=1 zs=0.8\n")
+    assert [(e.line, e.code) for e in results if isinstance(e, LineError)] == [(1, "bad_directive")]
+    assert collect(results).records[0].zs_ohm == Reading(value=0.8, text="0.8")
+
+
+def test_context_directive_sets_board_and_circuit_exactly() -> None:
+    """'#% board=DB2 circuit=4' puts the following reading on DB2/4; an empty value clears the key, so a
+    reading after '#% board=DB2 circuit=""' has no circuit (what capture relies on)."""
+    data = b'#% board=DB2 circuit=4\nzs=0.5\n#% board=DB2 circuit=""\nzs=0.6\n'
+    results = _read(data)
+    assert [(f.board, f.circuit) for f in results if isinstance(f, Fragment)] == [("DB2", "4")]
+    assert [(e.line, e.code) for e in results if isinstance(e, LineError)] == [(4, "missing_key")]

@@ -25,7 +25,7 @@ def test_builtins_listed() -> None:
     assert {"csv", "lines", "json"} <= set(listed)
     assert "text/csv" in listed["csv"]["media_types"]
     assert "example-long-tab" in listed["csv"]["profiles"]
-    assert listed["lines"]["profiles"] == ["example-logger-regex"]
+    assert listed["lines"]["profiles"] == ["example-lines-decimal-comma", "example-logger-regex"]
     assert all(isinstance(get_adapter(name), Adapter) for name in ("csv", "lines", "json"))
 
 
