@@ -6,12 +6,16 @@ A ruleset is data. The built-in ones are folders under ``engine/rulesets/``: a
 mapping ``key -> entry``. An entry is::
 
     {"value": <number | text | table>, "source": "<standard, table or clause>",
-     "marker": "S" | "C2" | "M" | "CP" | "D", "note": "<optional>"}
+     "marker": "standard" | "secondary" | "memory" | "practice" | "derived",
+     "note": "<optional>"}
 
-Markers (see REFERENCE-VALUES.md): ``S`` the standard's own figure; ``C2``
-confirmed in a secondary transcription; ``M`` from memory; ``CP`` common
-practice; ``D`` derived from a cited formula. Keys starting with ``_`` are
-comments.
+Markers say how sure the figure is: ``standard`` the standard's own figure;
+``secondary`` confirmed in a secondary source that transcribes the standard or
+a handbook; ``memory`` recalled, not confirmed; ``practice`` common practice
+with no published source; ``derived`` derived from the formula the source
+names. The one-letter codes of earlier releases (``S``, ``C2``, ``M``, ``CP``,
+``D``) are still read in a user's file and become these words. Keys starting
+with ``_`` are comments.
 
 A user's ruleset (local codes) is one JSON document of the same shape with the
 sections under ``"sections"`` and an optional ``"base"``: the id of a built-in
@@ -32,6 +36,7 @@ from .errors import RulesetError
 
 __all__ = [
     "DEFAULT_RULESET",
+    "LEGACY_MARKERS",
     "MARKERS",
     "Entry",
     "Ruleset",
@@ -44,12 +49,15 @@ __all__ = [
 DEFAULT_RULESET = "bs7671-2018-a2"
 
 MARKERS: dict[str, str] = {
-    "S": "standard",
-    "C2": "confirmed in a secondary source",
-    "M": "from memory",
-    "CP": "common practice",
-    "D": "derived",
+    "standard": "the standard's own figure",
+    "secondary": "confirmed in a secondary source that transcribes the standard or a handbook",
+    "memory": "from memory, not confirmed",
+    "practice": "common practice, no published source",
+    "derived": "derived from the formula its source names",
 }
+#: One-letter codes of earlier releases, still read in a user's ruleset file.
+LEGACY_MARKERS: dict[str, str] = {"S": "standard", "C2": "secondary", "M": "memory",
+                                  "CP": "practice", "D": "derived"}
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -135,7 +143,8 @@ def _entry(pointer: str, raw: Any) -> Entry:
     source = raw.get("source")
     if not isinstance(source, str) or not source.strip():
         raise RulesetError(f"{pointer}: every value needs a 'source'", field=pointer)
-    marker = raw.get("marker", "S")
+    marker = raw.get("marker", "standard")
+    marker = LEGACY_MARKERS.get(marker, marker) if isinstance(marker, str) else marker
     if marker not in MARKERS:
         raise RulesetError(f"{pointer}: marker {marker!r} is not one of {sorted(MARKERS)}",
                            field=pointer)

@@ -21,7 +21,7 @@ def one(**fields: Any) -> CheckResult:
     return check
 
 
-# E1: 50 m of twin & earth at 20 °C, Guide to the Wiring Regulations App. 4 Table 4.3 [C2]
+# E1: 50 m of twin & earth at 20 °C, Guide to the Wiring Regulations App. 4 Table 4.3 [secondary]
 E1 = {(1.5, 1.0): 1.51, (2.5, 1.5): 0.98, (4, 1.5): 0.84, (6, 2.5): 0.52, (10, 4): 0.32, (16, 6): 0.211}
 
 
@@ -37,8 +37,8 @@ def test_e1_handbook_readings_pass_with_their_expected_value(pair: tuple[float, 
 
 
 def test_threshold_is_1_25_times_expected_plus_0_05() -> None:
-    """Investigate above 1.25 × expected + 0.05 Ω ('Choices' [CP]); E1 2.5/1.5: 1.269 Ω."""
-    expected = (7.41 + 12.1) * 50 / 1000  # IEC 60228 [S/C2], 20 °C
+    """Investigate above 1.25 × expected + 0.05 Ω ('Choices' [practice]); E1 2.5/1.5: 1.269 Ω."""
+    expected = (7.41 + 12.1) * 50 / 1000  # IEC 60228 [standard/secondary], 20 °C
     threshold = 1.25 * expected + 0.05
     below = one(r1_r2_ohm=round(threshold - 0.001, 4), line_mm2=2.5, cpc_mm2=1.5, length_m=50)
     above = one(r1_r2_ohm=round(threshold + 0.001, 4), line_mm2=2.5, cpc_mm2=1.5, length_m=50)
@@ -48,27 +48,28 @@ def test_threshold_is_1_25_times_expected_plus_0_05() -> None:
 
 
 def test_far_below_expected_is_investigate() -> None:
-    """Half the expected value, less 0.05 Ω, points to a wrong length or a parallel path [CP, our choice]."""
+    """Half the expected value, less 0.05 Ω, points to a wrong length or a parallel path [practice, our
+    choice]."""
     check = one(r1_r2_ohm=0.3, line_mm2=2.5, cpc_mm2=1.5, length_m=50)
     assert check.outcome == "investigate"
     assert "parallel" in check.detail
 
 
 def test_test_temperature_raises_the_expected_value() -> None:
-    """At 30 °C the IEC 60228 maxima rise by 1 + 0.00393 × 10 (IEC 60228 Annex B, copper [C2])."""
+    """At 30 °C the IEC 60228 maxima rise by 1 + 0.00393 × 10 (IEC 60228 Annex B, copper [secondary])."""
     check = one(r1_r2_ohm=1.0, line_mm2=2.5, cpc_mm2=1.5, length_m=50, test_temp_c=30)
     assert check.inputs["expected_ohm"] == pytest.approx(0.9755 * (254.5 + 10) / 254.5, rel=1e-4)
 
 
 def test_aluminium_expected_value() -> None:
-    """Aluminium 16/16 over 30 m: (1.91 + 1.91) Ω/km × 30 m (IEC 60228 Table 2, aluminium [C2])."""
+    """Aluminium 16/16 over 30 m: (1.91 + 1.91) Ω/km × 30 m (IEC 60228 Table 2, aluminium [secondary])."""
     check = one(r1_r2_ohm=0.12, line_mm2=16, cpc_mm2=16, length_m=30, conductor_material="aluminium")
     assert check.inputs["expected_ohm"] == pytest.approx(2 * 1.91 * 30 / 1000)
     assert check.outcome == "pass"
 
 
 def test_e2_measured_r2_against_r_cpc_times_length() -> None:
-    """E2: 22 m of 2.5/1.5 reads R2 = 0.266 Ω (OSG [C2]); expected 12.1 mΩ/m × 22 m, a pass."""
+    """E2: 22 m of 2.5/1.5 reads R2 = 0.266 Ω (OSG [secondary]); expected 12.1 mΩ/m × 22 m, a pass."""
     r1r2, r2 = continuity(r1_r2_ohm=0.429, r2_ohm=0.266, line_mm2=2.5, cpc_mm2=1.5, length_m=22)
     assert r1r2.outcome == r2.outcome == "pass"
     assert r2.method == "r2_expected_iec60228"
@@ -76,7 +77,7 @@ def test_e2_measured_r2_against_r_cpc_times_length() -> None:
 
 
 def test_r2_above_r1r2_is_investigate() -> None:
-    """R2 is part of R1+R2, so a larger R2 is a mis-recording (physics [D])."""
+    """R2 is part of R1+R2, so a larger R2 is a mis-recording (physics [derived])."""
     _, r2 = continuity(r1_r2_ohm=0.4, r2_ohm=0.5)
     assert r2.outcome == "investigate"
     assert r2.method == "r2_within_r1r2"
@@ -98,14 +99,14 @@ def test_missing_r1r2_is_incomplete_and_says_why() -> None:
 
 
 def test_missing_r1r2_on_a_ring_gives_the_end_to_end_estimate() -> None:
-    """E11 [D]: ring r1 = 0.3705, r2 = 0.605 Ω → R1+R2 should read (r1 + r2)/4 = 0.244 Ω."""
+    """E11 [derived]: ring r1 = 0.3705, r2 = 0.605 Ω → R1+R2 should read (r1 + r2)/4 = 0.244 Ω."""
     check = one(circuit_form="ring", ring_r1_ohm=0.3705, ring_rn_ohm=0.3705, ring_r2_ohm=0.605)
     assert check.outcome == "incomplete"
     assert check.inputs["ring_estimate_ohm"] == pytest.approx(0.244, abs=5e-4)
 
 
 def test_ring_expected_is_a_quarter_of_the_loop() -> None:
-    """E11 [D]: a 50 m ring of 2.5/1.5 expects R1+R2 = (7.41 + 12.1) × 50/4 mΩ = 0.244 Ω."""
+    """E11 [derived]: a 50 m ring of 2.5/1.5 expects R1+R2 = (7.41 + 12.1) × 50/4 mΩ = 0.244 Ω."""
     check = one(circuit_form="ring", r1_r2_ohm=0.25, line_mm2=2.5, cpc_mm2=1.5, length_m=50)
     assert check.inputs["expected_ohm"] == pytest.approx(0.244, abs=5e-4)
     assert check.outcome == "pass"

@@ -22,7 +22,8 @@ def _one(**fields: Any) -> CheckResult:
 
 @pytest.mark.parametrize(("earthing", "declared"), [("TN-S", 0.8), ("TN-C-S", 0.35), ("TT", 21)])
 def test_declared_maxima_boundaries(earthing: str, declared: float) -> None:
-    """OSG typical declared Ze: TN-S 0.8, TN-C-S 0.35, TT 21 Ω [C2]: below and at pass, above investigates."""
+    """OSG typical declared Ze: TN-S 0.8, TN-C-S 0.35, TT 21 Ω [secondary]: below and at pass, above
+    investigates."""
     assert _one(earthing=earthing, ze_ohm=declared * 0.99).outcome is Outcome.PASS
     assert _one(earthing=earthing, ze_ohm=declared).outcome is Outcome.PASS
     above = _one(earthing=earthing, ze_ohm=declared * 1.01)
@@ -31,7 +32,8 @@ def test_declared_maxima_boundaries(earthing: str, declared: float) -> None:
 
 
 def test_tt_takes_off_the_installation_electrode() -> None:
-    """TT 21 Ω is the operator's part [C2]: Ze 80 Ω less RA 65 Ω leaves 15 Ω, pass; no RA: investigate."""
+    """TT 21 Ω is the operator's part [secondary]: Ze 80 Ω less RA 65 Ω leaves 15 Ω, pass; no RA:
+    investigate."""
     found = _one(earthing="TT", ze_ohm=80, ra_ohm=65)
     assert found.outcome is Outcome.PASS and found.method == "operator_part_ze_minus_ra"
     assert found.value == pytest.approx(15)
@@ -42,7 +44,7 @@ def test_tt_takes_off_the_installation_electrode() -> None:
 @pytest.mark.parametrize(("ze", "outcome"), [("< 0.2", Outcome.PASS), ("> 0.35", Outcome.INVESTIGATE),
                                              ("OL", Outcome.INVESTIGATE), ("> 0.1", Outcome.INVESTIGATE)])
 def test_bounded_readings(ze: str, outcome: Outcome) -> None:
-    """TN-C-S 0.35 Ω [C2]: < 0.2 passes; > 0.35, OL and the unsettled > 0.1 investigate."""
+    """TN-C-S 0.35 Ω [secondary]: < 0.2 passes; > 0.35, OL and the unsettled > 0.1 investigate."""
     assert _one(earthing="TN-C-S", ze_ohm=ze).outcome is outcome
 
 

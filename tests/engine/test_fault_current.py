@@ -24,17 +24,19 @@ def _one(ruleset: str | None = None, **fields: Any) -> CheckResult:
                                               (6.01, Outcome.INVESTIGATE), (16.0, Outcome.INVESTIGATE),
                                               (16.01, Outcome.FAIL)])
 def test_6ka_breaker_and_the_16ka_conditional_rating(pfc: float, outcome: Outcome) -> None:
-    """6 kA Icn (BS EN 60898, Table C4.3) [C2]; above, to 16 kA: Annex ZB conditional [C2] → investigate."""
+    """6 kA Icn (BS EN 60898, Table C4.3) [secondary]; above, to 16 kA: Annex ZB conditional [secondary] →
+    investigate."""
     assert _one(pfc_ka=pfc, device_breaking_ka=6).outcome is outcome
 
 
 def test_conditional_rating_does_not_cover_three_phase() -> None:
-    """Annex ZB is for single-phase consumer units ≤ 100 A [C2]: 8 kA on a three-phase 6 kA device fails."""
+    """Annex ZB is for single-phase consumer units ≤ 100 A [secondary]: 8 kA on a three-phase 6 kA device
+    fails."""
     assert _one(pfc_ka=8, device_breaking_ka=6, phases=3).outcome is Outcome.FAIL
 
 
 def test_iec_ruleset_has_no_conditional_rating() -> None:
-    """Annex ZB is a UK deviation [C2]: under IEC, 6.01 kA on a 6 kA device fails."""
+    """Annex ZB is a UK deviation [secondary]: under IEC, 6.01 kA on a 6 kA device fails."""
     assert _one("iec-60364", pfc_ka=6.01, device_breaking_ka=6).outcome is Outcome.FAIL
 
 
@@ -42,7 +44,8 @@ def test_iec_ruleset_has_no_conditional_rating() -> None:
                                               ("< 1.5", Outcome.PASS), ("> 2", Outcome.INVESTIGATE),
                                               ("980 A", Outcome.PASS)])
 def test_bounded_readings(pfc: str, outcome: Outcome) -> None:
-    """Against 6 kA [C2]: > 20 kA and OL fail, < 1.5 kA passes, > 2 kA settles nothing; 980 A = 0.98 kA."""
+    """Against 6 kA [secondary]: > 20 kA and OL fail, < 1.5 kA passes, > 2 kA settles nothing; 980 A = 0.98
+    kA."""
     assert _one(pfc_ka=pfc, device_breaking_ka=6).outcome is outcome
 
 

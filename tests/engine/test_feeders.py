@@ -11,7 +11,7 @@ from engine.context import Context
 from engine.feeders import FeederProblem, feeder_chain, upstream_drop
 from engine.ruleset import load_builtin
 
-F_70C = 1.2  # (1 + 0.004·50)/(1 + 0) for 70 °C cable tested at 20 °C [D, DESIGN.md]
+F_70C = 1.2  # (1 + 0.004·50)/(1 + 0) for 70 °C cable tested at 20 °C [derived, DESIGN.md]
 
 # Our own invented installation: origin DB0 → DB1 → DB2 → DB3, three distribution circuits deep.
 CHAIN: list[dict[str, Any]] = [
@@ -66,7 +66,8 @@ def test_three_deep_chain_total_is_the_sum_of_its_parts() -> None:
 
 
 def test_upstream_drop_can_turn_a_pass_into_a_fail() -> None:
-    """Within 5 % on its own, a circuit exceeds 11.5 V (Table G.52.1 [C2]) once its feeder's drop is added."""
+    """Within 5 % on its own, a circuit exceeds 11.5 V (Table G.52.1 [secondary]) once its feeder's drop is
+    added."""
     rows = [{"board": "M", "circuit": "1", "r1_r2_ohm": 0.2, "line_mm2": 16, "cpc_mm2": 16,
              "design_current_a": 40},
             {"board": "S", "circuit": "1", "board_fed_from": "M/1", "r1_r2_ohm": 0.5, "line_mm2": 2.5,

@@ -29,13 +29,14 @@ def _le(value: Any, ruleset: str | None = None, **fields: Any) -> CheckResult:
                                                               (230, 500, 1.0), (500, 500, 1.0),
                                                               (501, 1000, 1.0), (690, 1000, 1.0)])
 def test_minimum_by_band(rid: str, circuit_v: float, test_v: float, minimum: float) -> None:
-    """SELV/PELV 250 V 0.5 MΩ; ≤ 500 V 500 V 1.0 MΩ; > 500 V 1000 V 1.0 MΩ (Table 64 / Table 6.1) [C2]."""
+    """SELV/PELV 250 V 0.5 MΩ; ≤ 500 V 500 V 1.0 MΩ; > 500 V 1000 V 1.0 MΩ (Table 64 / Table 6.1)
+    [secondary]."""
     band = band_for(load_builtin(rid), circuit_v)
     assert (band.test_v, band.min_mohm) == (test_v, minimum)
 
 
 def test_three_phase_band_uses_line_to_line_voltage() -> None:
-    """U0 = 400 V three-phase is a 693 V circuit: 1000 V test (Table 64, by circuit voltage) [C2]."""
+    """U0 = 400 V three-phase is a 693 V circuit: 1000 V test (Table 64, by circuit voltage) [secondary]."""
     found = _le(50, ir_test_v=500, nominal_voltage_v=400, phases=3)
     assert found.inputs["required_test_v"] == 1000
     assert found.outcome is Outcome.INVESTIGATE
@@ -45,14 +46,15 @@ def test_three_phase_band_uses_line_to_line_voltage() -> None:
                                                   (1.01, Outcome.INVESTIGATE), (1.99, Outcome.INVESTIGATE),
                                                   (2.0, Outcome.PASS), (2.01, Outcome.PASS)])
 def test_boundaries_at_the_minimum_and_the_attention_level(reading: float, outcome: Outcome) -> None:
-    """230 V circuit: 1.0 MΩ minimum (Table 64) [C2]; below 2 MΩ → investigate (GN3; common practice)."""
+    """230 V circuit: 1.0 MΩ minimum (Table 64) [secondary]; below 2 MΩ → investigate (GN3; common
+    practice)."""
     assert _le(reading).outcome is outcome
 
 
 @pytest.mark.parametrize(("reading", "outcome"), [(0.49, Outcome.FAIL), (0.5, Outcome.INVESTIGATE),
                                                   (2.0, Outcome.PASS)])
 def test_selv_boundaries(reading: float, outcome: Outcome) -> None:
-    """SELV/PELV (24 V) at 250 V: 0.5 MΩ minimum (Table 64) [C2]; the 2 MΩ flag is common practice."""
+    """SELV/PELV (24 V) at 250 V: 0.5 MΩ minimum (Table 64) [secondary]; the 2 MΩ flag is common practice."""
     assert _le(reading, nominal_voltage_v=24, ir_test_v=250).outcome is outcome
 
 
@@ -62,7 +64,8 @@ def test_selv_boundaries(reading: float, outcome: Outcome) -> None:
                                                   ("> 0.5", Outcome.INVESTIGATE),
                                                   ("> 1.5", Outcome.INVESTIGATE)])
 def test_bounded_readings_on_both_sides(reading: str, outcome: Outcome) -> None:
-    """Against 1.0 MΩ (Table 64) [C2]: > 999 and OL pass, < 0.5 fails, an unsettling bound investigates."""
+    """Against 1.0 MΩ (Table 64) [secondary]: > 999 and OL pass, < 0.5 fails, an unsettling bound
+    investigates."""
     assert _le(reading).outcome is outcome
 
 
@@ -74,7 +77,8 @@ def test_both_readings_judged_separately() -> None:
 
 
 def test_low_test_voltage_between_live_conductors_is_investigate() -> None:
-    """250 V on a 230 V circuit: Table 64 requires 500 V; the 643.3.3 allowance covers L–E only [C2]."""
+    """250 V on a 230 V circuit: Table 64 requires 500 V; the 643.3.3 allowance covers L–E only
+    [secondary]."""
     results = {c.inputs["field"]: c for c in _ir(ir_test_v=250, ir_ll_mohm=">999", ir_le_mohm=">999")}
     assert results["ir_ll_mohm"].outcome is Outcome.INVESTIGATE
     assert results["ir_le_mohm"].outcome is Outcome.PASS
@@ -82,13 +86,14 @@ def test_low_test_voltage_between_live_conductors_is_investigate() -> None:
 
 
 def test_below_the_reduced_voltage_is_investigate_and_low_reading_still_fails() -> None:
-    """100 V L–E is below the 250 V allowance (643.3.3) [C2]: investigate; 0.8 MΩ fails at any voltage."""
+    """100 V L–E is below the 250 V allowance (643.3.3) [secondary]: investigate; 0.8 MΩ fails at any
+    voltage."""
     assert _le(">999", ir_test_v=100).outcome is Outcome.INVESTIGATE
     assert _le(0.8, ir_test_v=100).outcome is Outcome.FAIL
 
 
 def test_higher_test_voltage_is_accepted() -> None:
-    """1000 V on a 230 V circuit exceeds the 500 V Table 64 asks for [C2]: judged normally."""
+    """1000 V on a 230 V circuit exceeds the 500 V Table 64 asks for [secondary]: judged normally."""
     assert _le(">999", ir_test_v=1000).outcome is Outcome.PASS
 
 
@@ -104,6 +109,6 @@ def test_missing_data_is_incomplete() -> None:
 
 
 def test_iec_ruleset_same_minima() -> None:
-    """IEC 60364-6 Table 6.1 gives the same 1.0 MΩ at 500 V [C2]."""
+    """IEC 60364-6 Table 6.1 gives the same 1.0 MΩ at 500 V [secondary]."""
     assert _le(0.99, "iec-60364").outcome is Outcome.FAIL
     assert _le(2.0, "iec-60364").outcome is Outcome.PASS

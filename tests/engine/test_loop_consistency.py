@@ -26,19 +26,19 @@ def loop(verdict: Verdict) -> dict[str, CheckResult]:
 
 
 def test_e10_measured_zs_equals_ze_plus_r1r2() -> None:
-    """E10 [D]: TN-C-S Ze 0.35 Ω + 40 m of 2.5/1.5 (0.780 Ω) → Zs 1.130 Ω agrees."""
+    """E10 [derived]: TN-C-S Ze 0.35 Ω + 40 m of 2.5/1.5 (0.780 Ω) → Zs 1.130 Ω agrees."""
     [verdict] = run([{"board": "B", "circuit": "1", "ze_ohm": 0.35, "r1_r2_ohm": 0.780,
                       "zs_ohm": 1.130}]).values()
     check = loop(verdict)["ze_plus_r1r2"]
     assert check.outcome == "pass"
     assert check.inputs["expected_zs_ohm"] == pytest.approx(1.130)
-    assert check.limit == pytest.approx(0.05 + 0.10 * 1.130)  # ±(0.05 Ω + 10 %), our choice [CP]
+    assert check.limit == pytest.approx(0.05 + 0.10 * 1.130)  # ±(0.05 Ω + 10 %), our choice [practice]
 
 
 @pytest.mark.parametrize(("zs", "outcome"), [(1.29, "pass"), (1.30, "investigate"), (0.97, "pass"),
                                              (0.96, "investigate")])
 def test_tolerance_both_ways(zs: float, outcome: str) -> None:
-    """E10's loop: beyond ±(0.05 + 0.113) Ω either side of 1.130 Ω → investigate [CP]."""
+    """E10's loop: beyond ±(0.05 + 0.113) Ω either side of 1.130 Ω → investigate [practice]."""
     [verdict] = run([{"board": "B", "circuit": "1", "ze_ohm": 0.35, "r1_r2_ohm": 0.780,
                       "zs_ohm": zs}]).values()
     assert loop(verdict)["ze_plus_r1r2"].outcome == outcome
@@ -68,7 +68,7 @@ def test_board_consensus_names_the_outlier_and_the_median() -> None:
 
 
 def test_consensus_needs_three_circuits() -> None:
-    """Fewer than three estimates are no consensus (our choice [CP]): no board_consensus result."""
+    """Fewer than three estimates are no consensus (our choice [practice]): no board_consensus result."""
     verdicts = run(BOARD[:2])
     assert "board_consensus" not in loop(verdicts[("DB1", "2")])
 
@@ -82,7 +82,7 @@ def test_no_ze_is_incomplete_but_consensus_still_judges() -> None:
 
 
 def test_sub_board_adds_the_feeders_r1r2_and_uses_the_origin_ze() -> None:
-    """Zs on a sub-board = Ze(origin) + R1+R2 of the feeder + R1+R2 of the circuit (series loop [D])."""
+    """Zs on a sub-board = Ze(origin) + R1+R2 of the feeder + R1+R2 of the circuit (series loop [derived])."""
     rows = [{"board": "MAIN", "circuit": "1", "ze_ohm": 0.35, "r1_r2_ohm": 0.1, "zs_ohm": 0.45},
             {"board": "SUB", "circuit": "1", "board_fed_from": "MAIN/1", "r1_r2_ohm": 0.5,
              "zs_ohm": 0.95}]

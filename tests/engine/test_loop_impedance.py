@@ -36,13 +36,14 @@ def _seconds(**fields: Any) -> float:
     return found.seconds
 
 
-# --- disconnection time: BS 7671:2018 Table 41.1 and its scope (411.3.2.2–411.3.2.4) [C2] ---
+# --- disconnection time: BS 7671:2018 Table 41.1 and its scope (411.3.2.2–411.3.2.4) [secondary] ---
 
 @pytest.mark.parametrize(("u0", "tn", "tt"), [(51, 0.8, 0.3), (120, 0.8, 0.3), (121, 0.4, 0.2),
                                               (230, 0.4, 0.2), (231, 0.2, 0.07), (400, 0.2, 0.07),
                                               (401, 0.1, 0.04)])
 def test_table_41_1_bands(u0: float, tn: float, tt: float) -> None:
-    """Table 41.1 a.c. times by U0 band, each band edge on both sides (BS 7671:2018 Table 41.1) [C2]."""
+    """Table 41.1 a.c. times by U0 band, each band edge on both sides (BS 7671:2018 Table 41.1)
+    [secondary]."""
     common = {"nominal_voltage_v": u0, "device_rating_a": 16}
     assert _seconds(earthing="TN-S", **common) == tn
     assert _seconds(earthing="TT", **common) == tt
@@ -51,12 +52,13 @@ def test_table_41_1_bands(u0: float, tn: float, tt: float) -> None:
 @pytest.mark.parametrize(("rating", "sockets", "expected"),
                          [(63, True, 0.4), (64, True, 5), (32, False, 0.4), (33, False, 5), (40, False, 5)])
 def test_table_41_1_scope_of_2018(rating: float, sockets: bool, expected: float) -> None:
-    """BS 7671:2018 411.3.2.2: ≤ 63 A with socket-outlets, ≤ 32 A fixed; else TN 5 s (411.3.2.3) [C2]."""
+    """BS 7671:2018 411.3.2.2: ≤ 63 A with socket-outlets, ≤ 32 A fixed; else TN 5 s (411.3.2.3)
+    [secondary]."""
     assert _seconds(earthing="TN-C-S", device_rating_a=rating, socket_outlets=sockets) == expected
 
 
 def test_ring_counts_as_having_socket_outlets() -> None:
-    """DESIGN.md: a ring has socket-outlets, so a 40 A ring takes the 0.4 s of Table 41.1 [C2]."""
+    """DESIGN.md: a ring has socket-outlets, so a 40 A ring takes the 0.4 s of Table 41.1 [secondary]."""
     assert _seconds(earthing="TN-S", device_rating_a=40, circuit_form="ring") == 0.4
 
 
@@ -68,7 +70,7 @@ def test_between_32_and_63_a_without_socket_outlet_flag_is_missing() -> None:
 
 @pytest.mark.parametrize(("earthing", "expected"), [("TN-S", 5), ("TN-C-S", 5), ("TT", 1)])
 def test_distribution_circuits(earthing: str, expected: float) -> None:
-    """Distribution circuits: TN 5 s (411.3.2.3), TT 1 s (411.3.2.4) [C2]."""
+    """Distribution circuits: TN 5 s (411.3.2.3), TT 1 s (411.3.2.4) [secondary]."""
     assert _seconds(earthing=earthing, circuit_role="distribution", device_rating_a=100) == expected
 
 
@@ -83,7 +85,7 @@ def test_record_disconnection_time_overrides_and_it_is_missing() -> None:
 # --- the check ---
 
 def test_e10_rule_of_thumb_fails_but_exact_check_passes() -> None:
-    """E10: Ze 0.35 + 0.780 = 1.130 Ω > 0.8 × 1.37; Ze + 0.780 × 1.20 = 1.286 ≤ 1.37 passes [D]."""
+    """E10: Ze 0.35 + 0.780 = 1.130 Ω > 0.8 × 1.37; Ze + 0.780 × 1.20 = 1.286 ≤ 1.37 passes [derived]."""
     without_ze = _loop(zs_ohm=1.130, **B32)
     assert without_ze.outcome is Outcome.INVESTIGATE and without_ze.method == "rule_of_thumb"
     assert without_ze.inputs["rule_of_thumb_factor"] == 0.8
@@ -98,7 +100,7 @@ def test_e10_rule_of_thumb_fails_but_exact_check_passes() -> None:
                                              (1.10, Outcome.INVESTIGATE), (1.37, Outcome.INVESTIGATE),
                                              (1.38, Outcome.FAIL)])
 def test_b32_boundaries(zs: float, outcome: Outcome) -> None:
-    """B32: 0.8 rule limit 1.09 Ω (0.8 × 1.37 rounded down) and max 1.37 Ω (Table 41.3) [C2], no Ze."""
+    """B32: 0.8 rule limit 1.09 Ω (0.8 × 1.37 rounded down) and max 1.37 Ω (Table 41.3) [secondary], no Ze."""
     assert _loop(zs_ohm=zs, **B32).outcome is outcome
 
 
@@ -127,7 +129,7 @@ def test_bounded_readings(zs: str, outcome: Outcome) -> None:
 
 @pytest.mark.parametrize(("idn", "limit"), [(30, 1667), (100, 500), (300, 167), (500, 100)])
 def test_rcd_fault_protection_limits_table_41_5(idn: float, limit: float) -> None:
-    """Above the breaker's max with an RCD: Zs ≤ 50 V / IΔn, Table 41.5 (to its whole ohms) [C2]."""
+    """Above the breaker's max with an RCD: Zs ≤ 50 V / IΔn, Table 41.5 (to its whole ohms) [secondary]."""
     found = _loop(zs_ohm=50, rcd_residual_ma=idn, **B32)
     assert found.method == "rcd_fault_protection"
     assert found.limit == pytest.approx(limit, abs=0.5)
@@ -136,20 +138,22 @@ def test_rcd_fault_protection_limits_table_41_5(idn: float, limit: float) -> Non
 
 
 def test_rcd_fault_protection_fails_above_table_41_5() -> None:
-    """30 mA: 1667 Ω is the Table 41.5 limit [C2]; 1700 Ω fails even with the RCD."""
+    """30 mA: 1667 Ω is the Table 41.5 limit [secondary]; 1700 Ω fails even with the RCD."""
     assert _loop(zs_ohm=1700, rcd_residual_ma=30, **B32).outcome is Outcome.FAIL
     assert _loop(zs_ohm=1666, rcd_residual_ma=30, **B32).outcome is Outcome.PASS
 
 
 def test_tt_with_rcd_is_judged_by_the_rcd_condition() -> None:
-    """TT + 30 mA RCD: Zs 120 Ω is judged against 50 V / IΔn (Table 41.5 1667 Ω) [C2], not Table 41.3."""
+    """TT + 30 mA RCD: Zs 120 Ω is judged against 50 V / IΔn (Table 41.5 1667 Ω) [secondary], not Table
+    41.3."""
     found = _loop(earthing="TT", rcd_residual_ma=30, zs_ohm=120, device_kind="breaker", device_curve="B",
                   device_rating_a=32)
     assert found.outcome is Outcome.PASS and found.method == "rcd_fault_protection"
 
 
 def test_tt_without_rcd_uses_the_breaker_at_0_2_s() -> None:
-    """TT without RCD: Table 41.1 0.2 s [C2]; a B32 still gives 1.37 Ω (instantaneous trip, from memory)."""
+    """TT without RCD: Table 41.1 0.2 s [secondary]; a B32 still gives 1.37 Ω (instantaneous trip, from
+    memory)."""
     found = _loop(zs_ohm=1.5, **{**B32, "earthing": "TT"})
     assert found.outcome is Outcome.FAIL and found.limit == 1.37
     assert found.inputs["disconnection_s"] == 0.2
@@ -162,14 +166,15 @@ def test_device_max_zs_overrides_the_tables() -> None:
 
 
 def test_d_curve_takes_the_time_the_rules_give() -> None:
-    """D32: 0.34 Ω at 0.4 s and 0.68 Ω at 5 s (Table 41.3) [C2]; a distribution circuit takes 5 s."""
+    """D32: 0.34 Ω at 0.4 s and 0.68 Ω at 5 s (Table 41.3) [secondary]; a distribution circuit takes 5 s."""
     d32 = {**B32, "device_curve": "D"}
     assert _loop(zs_ohm=0.5, **d32).limit == 0.34
     assert _loop(zs_ohm=0.5, circuit_role="distribution", **d32).inputs["max_zs"] == 0.68
 
 
 def test_fuse_distribution_circuit_uses_table_41_4() -> None:
-    """100 A BS 88-2 distribution circuit, TN: 5 s, 0.42 Ω (Table 41.4) [C2]; 0.30 Ω passes the 0.8 rule."""
+    """100 A BS 88-2 distribution circuit, TN: 5 s, 0.42 Ω (Table 41.4) [secondary]; 0.30 Ω passes the 0.8
+    rule."""
     found = _loop(earthing="TN-S", circuit_role="distribution", device_kind="fuse", device_standard="BS 88-2",
                   device_rating_a=100, zs_ohm=0.30)
     assert found.outcome is Outcome.PASS and found.inputs["max_zs"] == 0.42
@@ -203,7 +208,7 @@ def test_rule_of_thumb_sentence_prints_the_rulesets_factor() -> None:
     """The factor is ruleset data: a local ruleset with 0.5 prints and applies 0.5, never "0.8"."""
     local = ruleset_from_data({"id": "local-half", "title": "local", "base": "bs7671-2018-a2",
                                "sections": {"max_zs": {"rule_of_thumb_factor": {
-                                   "value": 0.5, "source": "a local code (test)", "marker": "CP"}}}})
+                                   "value": 0.5, "source": "a local code (test)", "marker": "practice"}}}})
     [verdict] = verify([_record(zs_ohm=0.6, **B32)], local)
     found = next(c for c in verdict.checks if c.check == "loop_impedance")
     assert found.outcome is Outcome.PASS and found.limit == 0.68  # 0.5 × 1.37 = 0.685 → 0.68

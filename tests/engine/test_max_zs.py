@@ -10,7 +10,7 @@ from engine.protection import MaxZs, Missing, breaker_max_zs, fuse_max_zs, rule_
 BS = load_builtin("bs7671-2018-a2")
 IEC = load_builtin("iec-60364")
 
-# BS 7671:2018 Table 41.3 (same in 2008+A3:2015), Ω at U0 = 230 V [C2: two transcriptions agree].
+# BS 7671:2018 Table 41.3 (same in 2008+A3:2015), Ω at U0 = 230 V [secondary: two transcriptions agree].
 # Columns: B (0.4 s and 5 s), C (0.4 s and 5 s), D 0.4 s, D 5 s.
 TABLE_41_3 = {
     6: (7.28, 3.64, 1.82, 3.64),
@@ -41,35 +41,36 @@ def _ohm(found: MaxZs | Missing) -> float:
 
 @pytest.mark.parametrize(("curve", "rating", "seconds", "expected"), _CELLS)
 def test_breaker_max_zs_equals_table_41_3(curve: str, rating: int, seconds: float, expected: float) -> None:
-    """Cmin × U0 / Ia, rounded half-up to 2 dp, reproduces every cell of BS 7671:2018 Table 41.3 [C2]."""
+    """Cmin × U0 / Ia, rounded half-up to 2 dp, reproduces every cell of BS 7671:2018 Table 41.3
+    [secondary]."""
     assert _ohm(breaker_max_zs(BS, curve, rating, 230, seconds)) == expected
 
 
 def test_breaker_b3_and_bracketed_3a_values() -> None:
-    """B3 = 14.57 Ω is Table 41.3 [C2]; C3 7.28 and D3 3.64 are derived from 218.5/Ia [D]."""
+    """B3 = 14.57 Ω is Table 41.3 [secondary]; C3 7.28 and D3 3.64 are derived from 218.5/Ia [derived]."""
     assert _ohm(breaker_max_zs(BS, "B", 3, 230, 0.4)) == 14.57
     assert _ohm(breaker_max_zs(BS, "C", 3, 230, 0.4)) == 7.28  # derived from 218.5 / 30
     assert _ohm(breaker_max_zs(BS, "D", 3, 230, 0.4)) == 3.64  # derived from 218.5 / 60
 
 
 def test_b20_rounds_half_up_to_2_19() -> None:
-    """E14: 218.5 / 100 = 2.185 must come out as 2.19 (Table 41.3 rounding) [C2/D]."""
+    """E14: 218.5 / 100 = 2.185 must come out as 2.19 (Table 41.3 rounding) [secondary/derived]."""
     assert _ohm(breaker_max_zs(BS, "B", 20, 230, 0.4)) == 2.19
 
 
 def test_untabulated_b45_and_its_rule_of_thumb() -> None:
-    """E3: B45 = 218.5/225 = 0.97 Ω, and the 0.8 rule gives 0.77 Ω [C2]."""
+    """E3: B45 = 218.5/225 = 0.97 Ω, and the 0.8 rule gives 0.77 Ω [secondary]."""
     found = breaker_max_zs(BS, "B", 45, 230, 0.4)
     assert _ohm(found) == 0.97
     assert rule_of_thumb_limit(BS, 0.97) == 0.77
 
 
 def test_rule_of_thumb_is_rounded_down() -> None:
-    """E4: 32 A BS 88-3 at 0.4 s: 0.91 × 0.8 = 0.728 → 0.72 Ω, rounded down (trade article) [C2]."""
+    """E4: 32 A BS 88-3 at 0.4 s: 0.91 × 0.8 = 0.728 → 0.72 Ω, rounded down (trade article) [secondary]."""
     assert rule_of_thumb_limit(BS, _ohm(fuse_max_zs(BS, "BS 88-3", 32, 230, 0.4))) == 0.72
 
 
-# BS 7671:2018 Table 41.2 (0.4 s) and Table 41.4 (5 s), Ω at 230 V [C2, single source].
+# BS 7671:2018 Table 41.2 (0.4 s) and Table 41.4 (5 s), Ω at 230 V [secondary, single source].
 FUSES = {
     ("BS 88-2", 0.4): {2: 33.1, 4: 15.6, 6: 7.80, 10: 4.65, 16: 2.43, 20: 1.68, 25: 1.29, 32: 0.99,
                        40: 0.75, 50: 0.57, 63: 0.44},
@@ -88,7 +89,8 @@ _FUSE_CELLS = [(std, s, a, z) for (std, s), table in FUSES.items() for a, z in t
 @pytest.mark.parametrize(("standard", "seconds", "rating", "expected"), _FUSE_CELLS)
 def test_fuse_max_zs_equals_tables_41_2_and_41_4(standard: str, seconds: float, rating: int,
                                                  expected: float) -> None:
-    """Each fuse lookup returns the literal value of BS 7671:2018 Table 41.2 / 41.4 [C2, single source]."""
+    """Each fuse lookup returns the literal value of BS 7671:2018 Table 41.2 / 41.4 [secondary, single
+    source]."""
     assert _ohm(fuse_max_zs(BS, standard, rating, 230, seconds)) == expected
 
 
@@ -97,7 +99,8 @@ def test_fuse_max_zs_equals_tables_41_2_and_41_4(standard: str, seconds: float, 
                           (25, 1.35, 1.29), (32, 1.04, 0.99)])
 def test_bs88_2_table_agrees_with_the_2011_values_times_cmin(rating: int, at_230_without_cmin: float,
                                                              expected: float) -> None:
-    """BS 88-2 0.4 s values ≈ 0.95 × the 2011 article's 230 V values (cross-check 1) [C2/D], ±0.01 Ω."""
+    """BS 88-2 0.4 s values ≈ 0.95 × the 2011 article's 230 V values (cross-check 1) [secondary/derived],
+    ±0.01 Ω."""
     found = _ohm(fuse_max_zs(BS, "BS 88-2", rating, 230, 0.4))
     assert found == expected
     assert found == pytest.approx(0.95 * at_230_without_cmin, abs=0.01)  # the article rounds its inputs

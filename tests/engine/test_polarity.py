@@ -19,7 +19,7 @@ def _polarity(ruleset: str | None = None, **fields: Any) -> CheckResult:
 @pytest.mark.parametrize(("recorded", "outcome"), [(True, Outcome.PASS), ("yes", Outcome.PASS),
                                                    (False, Outcome.FAIL), ("✗", Outcome.FAIL)])
 def test_recorded_polarity(recorded: Any, outcome: Outcome) -> None:
-    """643.6 requires polarity verified [C2]: a recorded correct result passes, incorrect fails."""
+    """643.6 requires polarity verified [secondary]: a recorded correct result passes, incorrect fails."""
     assert _polarity(polarity_ok=recorded).outcome is outcome
 
 
@@ -31,5 +31,5 @@ def test_missing_polarity_is_incomplete() -> None:
 
 @pytest.mark.parametrize(("rid", "clause"), [("bs7671-2018-a2", "643.6"), ("iec-60364", "6.4.3.6")])
 def test_basis_names_the_clause(rid: str, clause: str) -> None:
-    """The result cites the ruleset's clause (BS 7671 643.6 [C2]; IEC 60364-6 6.4.3.6, from memory)."""
+    """The result cites the ruleset's clause (BS 7671 643.6 [secondary]; IEC 60364-6 6.4.3.6, from memory)."""
     assert clause in (_polarity(rid, polarity_ok=True).basis or "")

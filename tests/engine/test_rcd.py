@@ -23,7 +23,7 @@ def _at(method: str, **fields: Any) -> CheckResult:
 
 @pytest.mark.parametrize(("ms", "outcome"), [(299, Outcome.PASS), (300, Outcome.PASS), (301, Outcome.FAIL)])
 def test_general_at_idn(ms: float, outcome: Outcome) -> None:
-    """General type at IΔn: ≤ 300 ms (BS EN 61008-1 / 61009-1 Table 1; BS 7671 643.8) [C2]."""
+    """General type at IΔn: ≤ 300 ms (BS EN 61008-1 / 61009-1 Table 1; BS 7671 643.8) [secondary]."""
     assert _at("trip_time_at_idn", rcd_trip_ms=ms).outcome is outcome
 
 
@@ -36,7 +36,7 @@ def test_delayed_at_idn(ms: float, outcome: Outcome) -> None:
 
 @pytest.mark.parametrize(("ms", "outcome"), [(39, Outcome.PASS), (40, Outcome.PASS), (41, Outcome.FAIL)])
 def test_general_at_5idn(ms: float, outcome: Outcome) -> None:
-    """General type at 5 IΔn: ≤ 40 ms (BS EN 61008-1 / 61009-1 Table 1) [C2]."""
+    """General type at 5 IΔn: ≤ 40 ms (BS EN 61008-1 / 61009-1 Table 1) [secondary]."""
     assert _at("trip_time_at_5idn", rcd_trip_ms=20, rcd_trip_5x_ms=ms).outcome is outcome
 
 
@@ -52,12 +52,14 @@ def test_delayed_at_5idn(ms: float, outcome: Outcome) -> None:
                                                   ("< 25", Outcome.PASS), ("< 400", Outcome.INVESTIGATE),
                                                   ("> 100", Outcome.INVESTIGATE)])
 def test_bounded_times(reading: str, outcome: Outcome) -> None:
-    """Against 300 ms (Table 1) [C2]: > 300 and OL (no trip) fail, < 25 passes, other bounds investigate."""
+    """Against 300 ms (Table 1) [secondary]: > 300 and OL (no trip) fail, < 25 passes, other bounds
+    investigate."""
     assert _at("trip_time_at_idn", rcd_trip_ms=reading).outcome is outcome
 
 
 def test_missing_idn_time_is_incomplete_missing_5x_is_not() -> None:
-    """A2:2022 643.8 requires the IΔn test only [C2]: no IΔn time → incomplete; no 5× time → no result."""
+    """A2:2022 643.8 requires the IΔn test only [secondary]: no IΔn time → incomplete; no 5× time → no
+    result."""
     (only,) = _rcd()
     assert only.outcome is Outcome.INCOMPLETE and only.inputs["missing"] == ["rcd_trip_ms"]
     assert [c.method for c in _rcd(rcd_trip_ms=20)] == ["trip_time_at_idn"]
@@ -65,7 +67,7 @@ def test_missing_idn_time_is_incomplete_missing_5x_is_not() -> None:
 
 
 def test_half_idn_trip_fails() -> None:
-    """Tripping at ½ IΔn fails: the device must not operate at half its rating (Table 1) [C2]."""
+    """Tripping at ½ IΔn fails: the device must not operate at half its rating (Table 1) [secondary]."""
     assert _at("half_idn_no_trip", rcd_trip_ms=20, rcd_half_no_trip=False).outcome is Outcome.FAIL
     assert _at("half_idn_no_trip", rcd_trip_ms=20, rcd_half_no_trip=True).outcome is Outcome.PASS
 
@@ -75,7 +77,7 @@ def test_applies_to_rcbo_without_residual_rating_and_not_without_rcd() -> None:
     record, _ = build_record({"board": "B", "circuit": "1", "device_kind": "rcbo", "rcd_trip_ms": 350})
     assert record is not None
     checks = [c for c in verify([record])[0].checks if c.check == "rcd_time"]
-    assert [c.outcome for c in checks] == [Outcome.FAIL]  # 350 ms > 300 ms (Table 1) [C2]
+    assert [c.outcome for c in checks] == [Outcome.FAIL]  # 350 ms > 300 ms (Table 1) [secondary]
     record, _ = build_record({"board": "B", "circuit": "1", "rcd_trip_ms": 20})
     assert record is not None
     assert not [c for c in verify([record])[0].checks if c.check == "rcd_time"]

@@ -8,7 +8,7 @@ import pytest
 
 from engine import CheckResult, build_record, verify
 
-# E11 [D]: a 50 m ring of 2.5/1.5 T&E: r1 = rn = 0.3705 Ω, r2 = 0.605 Ω (IEC 60228 ratio 1.633),
+# E11 [derived]: a 50 m ring of 2.5/1.5 T&E: r1 = rn = 0.3705 Ω, r2 = 0.605 Ω (IEC 60228 ratio 1.633),
 # R1+R2 = (r1 + r2)/4 = 0.244 Ω.
 E11 = {"circuit_form": "ring", "line_mm2": 2.5, "cpc_mm2": 1.5, "ring_r1_ohm": 0.3705,
        "ring_rn_ohm": 0.3705, "ring_r2_ohm": 0.605, "r1_r2_ohm": 0.244}
@@ -26,7 +26,7 @@ def ring(**fields: Any) -> dict[str, CheckResult]:
 
 
 def test_e11_ring_passes_all_three_comparisons() -> None:
-    """E11's readings pass r1 vs rn, r2 vs r1 × 1.633 and R1+R2 vs (r1 + r2)/4 [D]."""
+    """E11's readings pass r1 vs rn, r2 vs r1 × 1.633 and R1+R2 vs (r1 + r2)/4 [derived]."""
     results = ring(**E11)
     assert set(results) == {"r1_vs_rn", "r2_vs_r1", "cross_connected"}
     assert all(c.outcome == "pass" for c in results.values())
@@ -35,7 +35,7 @@ def test_e11_ring_passes_all_three_comparisons() -> None:
 
 
 def test_r1_vs_rn_tolerance_is_0_05_ohm() -> None:
-    """r1 and rn within 0.05 Ω of each other (GN3/OSG guidance [C2]); 0.06 Ω apart → investigate."""
+    """r1 and rn within 0.05 Ω of each other (GN3/OSG guidance [secondary]); 0.06 Ω apart → investigate."""
     assert ring(**{**E11, "ring_rn_ohm": 0.41})["r1_vs_rn"].outcome == "pass"
     off = ring(**{**E11, "ring_rn_ohm": 0.4305})["r1_vs_rn"]
     assert off.outcome == "investigate"
@@ -44,7 +44,7 @@ def test_r1_vs_rn_tolerance_is_0_05_ohm() -> None:
 
 def test_r2_uses_the_larger_of_5_percent_and_0_05_ohm() -> None:
     """r2 vs r1 × ratio: ±5 % (common practice) or 0.05 Ω, whichever is larger; 1.67 area ratio (E11's 0.619
-    [C2]) sits inside, a 1.0 mm² cpc's ratio does not."""
+    [secondary]) sits inside, a 1.0 mm² cpc's ratio does not."""
     assert ring(**{**E11, "ring_r2_ohm": 0.619})["r2_vs_r1"].outcome == "pass"
     long_ring = {**E11, "ring_r1_ohm": 1.5, "ring_rn_ohm": 1.5, "r1_r2_ohm": (1.5 + 2.45) / 4}
     assert ring(**{**long_ring, "ring_r2_ohm": 2.45})["r2_vs_r1"].outcome == "pass"
@@ -63,7 +63,7 @@ def test_area_ratio_when_a_size_is_not_tabulated() -> None:
 @pytest.mark.parametrize(("r1r2", "outcome"), [(0.244, "pass"), (0.29, "pass"), (0.30, "investigate"),
                                                (0.18, "investigate")])
 def test_cross_connected_within_0_05_ohm(r1r2: float, outcome: str) -> None:
-    """R1+R2 within 0.05 Ω of (r1 + r2)/4 = 0.244 Ω (GN3/OSG [C2]); higher (spur) or lower flagged."""
+    """R1+R2 within 0.05 Ω of (r1 + r2)/4 = 0.244 Ω (GN3/OSG [secondary]); higher (spur) or lower flagged."""
     assert ring(**{**E11, "r1_r2_ohm": r1r2})["cross_connected"].outcome == outcome
 
 

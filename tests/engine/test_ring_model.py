@@ -62,7 +62,7 @@ def vd(**fields: Any) -> CheckResult:
                          [("0.3705", "0.3705", 32, 20), ("0.52", "0.55", 30, 20), ("0.21", "0.24", 20, 12)])
 def test_mid_point_closed_form_equals_network_model(r1: str, rn: str, amps: int, test_temp: float) -> None:
     """Concentrated load at the mid-point: engine's I·(r1 + rn)/4·F equals nodal analysis × F to 1e-9
-    (E11's 50 m 2.5/1.5 ring, r1 = rn = 0.3705 Ω [D], and two rings of our own)."""
+    (E11's 50 m 2.5/1.5 ring, r1 = rn = 0.3705 Ω [derived], and two rings of our own)."""
     r1_f, rn_f, i_f = Fraction(r1), Fraction(rn), Fraction(amps)
     mid = SEGMENTS // 2
     network = (conductor_drop_by_nodal_analysis(r1_f, mid, i_f)
@@ -70,7 +70,7 @@ def test_mid_point_closed_form_equals_network_model(r1: str, rn: str, amps: int,
     paths = i_f * (two_parallel_paths(r1_f, Fraction(1, 2)) + two_parallel_paths(rn_f, Fraction(1, 2)))
     assert network == paths  # the two independent models agree exactly
     check = vd(ring_r1_ohm=r1, ring_rn_ohm=rn, device_rating_a=amps, test_temp_c=test_temp)
-    factor = (1 + 0.004 * 50) / (1 + 0.004 * (test_temp - 20))  # F, DESIGN.md (α = 0.004 [D])
+    factor = (1 + 0.004 * 50) / (1 + 0.004 * (test_temp - 20))  # F, DESIGN.md (α = 0.004 [derived])
     assert check.method == "ring_end_to_end"
     assert check.value == pytest.approx(float(network) * factor, abs=1e-9)
 
@@ -85,7 +85,7 @@ def test_mid_point_is_the_worst_place_for_the_load() -> None:
 
 
 def test_e11_end_to_end_agrees_with_ring_tabulated_from_iec60228() -> None:
-    """E11 [D]: a 50 m 2.5 mm² ring reads r1 = rn = 0.3705 Ω at 20 °C; the end-to-end method and the
+    """E11 [derived]: a 50 m 2.5 mm² ring reads r1 = rn = 0.3705 Ω at 20 °C; the end-to-end method and the
     tabulated method (2·r(70 °C)·I·L/4 from IEC 60228) give the same drop."""
     ends = vd(ring_r1_ohm=0.3705, ring_rn_ohm=0.3705, device_rating_a=32)
     tab = vd(line_mm2=2.5, length_m=50, device_rating_a=32)

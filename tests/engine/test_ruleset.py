@@ -37,7 +37,7 @@ def test_user_ruleset_overrides_one_value_of_its_base() -> None:
     """A local-code file with a base overrides only the entries it names."""
     base = load_builtin("bs7671-2018-a2")
     doc = _doc(base="bs7671-2018-a2", sections={
-        "defaults": {"nominal_voltage_v": {"value": 240, "source": "local code 1.2", "marker": "S"}}
+        "defaults": {"nominal_voltage_v": {"value": 240, "source": "local code 1.2", "marker": "standard"}}
     })
     rules = ruleset_from_data(doc)
     assert rules.value("defaults", "nominal_voltage_v") == 240
@@ -68,3 +68,16 @@ def test_unknown_builtin_lists_the_valid_ids() -> None:
     """An unknown ruleset id is an error that names the ids that exist."""
     with pytest.raises(RulesetError, match="bs7671-2018-a2"):
         load_builtin("nope")
+
+
+def test_markers_are_words_and_old_codes_still_load() -> None:
+    """Markers read as words (no "C2", which is also a trade observation code); an older file's codes load."""
+    assert set(MARKERS) == {"standard", "secondary", "memory", "practice", "derived"}
+    for rid in builtin_ruleset_ids():
+        for entries in load_builtin(rid).sections.values():
+            assert all(entry.marker in MARKERS for entry in entries.values())
+    old = ruleset_from_data(_doc(base="bs7671-2018-a2", sections={"defaults": {
+        "nominal_voltage_v": {"value": 240, "source": "local code 1.2", "marker": "C2"},
+        "phases": {"value": 1, "source": "local code 1.3", "marker": "M"}}}))
+    assert old.entry("defaults", "nominal_voltage_v").marker == "secondary"
+    assert old.entry("defaults", "phases").as_dict()["marker"] == "memory"

@@ -15,8 +15,8 @@ from engine.conductors import resistance_ohm_per_m_20c
 
 SIZES = (1.0, 1.5, 2.5, 4.0, 6.0, 10.0, 16.0, 25.0, 35.0)
 
-# Handbook R1+R2 at 20 °C, mΩ/m (Guide to the Wiring Regulations, App. 4 Table 4.3 [C2]);
-# the split of these must give back IEC 60228's line resistance (Table 2 [S/C2]).
+# Handbook R1+R2 at 20 °C, mΩ/m (Guide to the Wiring Regulations, App. 4 Table 4.3 [secondary]);
+# the split of these must give back IEC 60228's line resistance (Table 2 [standard/secondary]).
 HANDBOOK_PAIRS = {(6, 2.5): 10.49, (10, 4): 6.44, (2.5, 1.5): 19.51, (1.5, 1.0): 30.2}
 
 
@@ -32,7 +32,8 @@ def vd(**fields: Any) -> CheckResult:
 def test_split_of_handbook_r1r2_gives_iec60228_line_resistance(pair: tuple[float, float],
                                                                mohm_per_m: float) -> None:
     """Our cases 6/2.5, 10/4, 2.5/1.5, 1.5/1.0 over 40 m: R1 from the area split is within 1.5 % of r_line × L
-    (IEC 60228 [S/C2]), R1 + R2 sums back to R1+R2, and Rn = R1 for a neutral the size of the line."""
+    (IEC 60228 [standard/secondary]), R1 + R2 sums back to R1+R2, and Rn = R1 for a neutral the size of the
+    line."""
     line, cpc = pair
     length = 40.0
     r1r2 = mohm_per_m * length / 1000
@@ -58,7 +59,7 @@ currents = st.floats(min_value=1.0, max_value=125.0, allow_nan=False)
 def test_area_split_property(line: float, cpc: float, neutral: float, r1r2: float, amps: float,
                              test_temp: float) -> None:
     """For any sizes and readings: R1 + R2 = R1+R2, Rn = R1·A_line/A_neutral, VD = (R1 + Rn)·F·I,
-    and split ≤ quick exactly when cpc ≤ neutral (derived from the split formulas [D])."""
+    and split ≤ quick exactly when cpc ≤ neutral (derived from the split formulas [derived])."""
     check = vd(r1_r2_ohm=r1r2, line_mm2=line, cpc_mm2=cpc, neutral_mm2=neutral,
                design_current_a=amps, test_temp_c=test_temp)
     r1, rn, f = check.inputs["r1_ohm"], check.inputs["rn_ohm"], check.inputs["temp_factor"]
@@ -78,7 +79,7 @@ def test_area_split_property(line: float, cpc: float, neutral: float, r1r2: floa
        share=st.floats(min_value=0.0, max_value=1.0), amps=currents)
 def test_measured_r2_split_property(line: float, neutral: float, r1r2: float, share: float,
                                     amps: float) -> None:
-    """With R2 measured: R1 = (R1+R2) − R2 sums back, and split ≤ quick exactly when Rn ≤ R2 [D]."""
+    """With R2 measured: R1 = (R1+R2) − R2 sums back, and split ≤ quick exactly when Rn ≤ R2 [derived]."""
     r2 = math.floor(r1r2 * share * 1e6) / 1e6  # never above R1+R2 (that case is not split)
     check = vd(r1_r2_ohm=r1r2, r2_ohm=r2, line_mm2=line, neutral_mm2=neutral, design_current_a=amps)
     r1, rn = check.inputs["r1_ohm"], check.inputs["rn_ohm"]

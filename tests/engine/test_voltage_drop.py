@@ -10,10 +10,10 @@ import pytest
 from engine import CheckResult, build_record, verify
 
 RULESETS = ("bs7671-2018-a2", "iec-60364")
-# IEC 60364-5-52 Annex G: ρ1 = 1.25 × ρ20 = 0.0225 Ω·mm²/m for copper [C2]
+# IEC 60364-5-52 Annex G: ρ1 = 1.25 × ρ20 = 0.0225 Ω·mm²/m for copper [secondary]
 RHO1_COPPER = 0.0225
 IEC60228_CU_20C = {1.0: 18.1e-3, 1.5: 12.1e-3, 2.5: 7.41e-3, 4: 4.61e-3, 6: 3.08e-3, 10: 1.83e-3,
-                   16: 1.15e-3}  # Ω/m, IEC 60228 Table 2 [S/C2]
+                   16: 1.15e-3}  # Ω/m, IEC 60228 Table 2 [standard/secondary]
 
 
 def vd(ruleset: str = "bs7671-2018-a2", **fields: Any) -> CheckResult:
@@ -26,7 +26,7 @@ def vd(ruleset: str = "bs7671-2018-a2", **fields: Any) -> CheckResult:
 
 def annex_g_volts(b: int, area: float, length: float, current: float, cos_phi: float = 1.0,
                   reactance_ohm_per_m: float = 0.0) -> float:
-    """u = b·(ρ1·L·cos φ/S + λ·L·sin φ)·IB, IEC 60364-5-52 Annex G [C2]."""
+    """u = b·(ρ1·L·cos φ/S + λ·L·sin φ)·IB, IEC 60364-5-52 Annex G [secondary]."""
     sin_phi = math.sqrt(1 - cos_phi**2)
     return b * (RHO1_COPPER * length * cos_phi / area + reactance_ohm_per_m * length * sin_phi) * current
 
@@ -36,21 +36,22 @@ def annex_g_volts(b: int, area: float, length: float, current: float, cos_phi: f
                          [("public", "lighting", 6.9), ("public", "other", 11.5),
                           ("private", "lighting", 13.8), ("private", "other", 18.4)])
 def test_limits_of_table_g52_1(rid: str, supply: str, load: str, volts: float) -> None:
-    """Limits are 3/5 % (public) and 6/8 % (private) of 230 V: 6.9, 11.5, 13.8, 18.4 V (Table G.52.1 [C2])."""
+    """Limits are 3/5 % (public) and 6/8 % (private) of 230 V: 6.9, 11.5, 13.8, 18.4 V (Table G.52.1
+    [secondary])."""
     check = vd(rid, supply=supply, load_type=load, cable_mv_per_a_m=18, design_current_a=1, length_m=10)
     assert check.limit == pytest.approx(volts)
 
 
 @pytest.mark.parametrize(("length", "extra_pct"), [(100, 0.0), (150, 0.25), (200, 0.5), (300, 0.5)])
 def test_long_run_allowance_and_its_cap(length: float, extra_pct: float) -> None:
-    """+0.005 % per metre beyond 100 m, at most +0.5 % (Table G.52.1 / BS 7671 App. 4 §6.4 [C2])."""
+    """+0.005 % per metre beyond 100 m, at most +0.5 % (Table G.52.1 / BS 7671 App. 4 §6.4 [secondary])."""
     check = vd(cable_mv_per_a_m=0.1, design_current_a=1, length_m=length)
     assert check.limit == pytest.approx(230 * (5 + extra_pct) / 100)
     assert check.inputs["route_length_m"] == length
 
 
 def test_e9_tabulated_drop() -> None:
-    """E9: 18 mV/A/m × 16 A × 18 m / 1000 = 5.184 V = 2.25 % [D, BS 7671 App. 4 formula]."""
+    """E9: 18 mV/A/m × 16 A × 18 m / 1000 = 5.184 V = 2.25 % [derived, BS 7671 App. 4 formula]."""
     check = vd(cable_mv_per_a_m=18, design_current_a=16, length_m=18, load_type="lighting")
     assert check.method == "tabulated"
     assert check.value == pytest.approx(5.184)
@@ -64,7 +65,7 @@ def test_e9_tabulated_drop() -> None:
                           (4.4, 40, 45, 7.92, "pass"), (29, 10, 16, 4.64, "pass")])
 def test_e5_trade_tutorial_tabulated_examples(mv: float, length: float, amps: float, volts: float,
                                               outcome: str) -> None:
-    """E5 (trade tutorial [C2]): 4 mm² 20 m 30 A → 6.6 V; 6 mm² 40 m 45 A → 13.14 V, over 11.5 V; …"""
+    """E5 (trade tutorial [secondary]): 4 mm² 20 m 30 A → 6.6 V; 6 mm² 40 m 45 A → 13.14 V, over 11.5 V; …"""
     check = vd(cable_mv_per_a_m=mv, design_current_a=amps, length_m=length)
     assert check.value == pytest.approx(volts)
     assert check.outcome == outcome
@@ -90,7 +91,7 @@ def test_tabulated_from_iec60228_against_annex_g_formula(area: float) -> None:
 
 
 def test_e7_single_phase_annex_g() -> None:
-    """E7 [D]: 2.5 mm², 30 m, 20 A: Annex G gives 8.698 V = 3.78 % (fails 3 %, passes 5 %).
+    """E7 [derived]: 2.5 mm², 30 m, 20 A: Annex G gives 8.698 V = 3.78 % (fails 3 %, passes 5 %).
 
     The engine, given Annex G's own mV/A/m (2·ρ1/S = 18, which is also BS 7671's 2.5 mm² figure),
     assumes cos φ = 1: 10.8 V = 4.70 %, above the cos φ = 0.8 figure (conservative) and with the
@@ -107,7 +108,7 @@ def test_e7_single_phase_annex_g() -> None:
 
 
 def test_e8_three_phase_annex_g() -> None:
-    """E8 [D]: 3-ph 16 mm², 50 m, 40 A, b = 1: per-phase drop within 2 % of Annex G (cos φ = 1).
+    """E8 [derived]: 3-ph 16 mm², 50 m, 40 A, b = 1: per-phase drop within 2 % of Annex G (cos φ = 1).
 
     Derived from IEC 60228 at 70 °C (2.76 V) and from BS 7671's 3-ph 2.4 mV/A/m (from memory) ÷ √3
     (2.77 V), against u = ρ1·L/S·I = 2.8125 V; E8's cos φ = 0.8 figure 2.346 V = 1.02 % lies below.
@@ -141,7 +142,8 @@ def test_quick_over_the_limit_is_investigate_but_split_over_is_fail() -> None:
 
 
 def test_e1_e2_split_of_r1r2_for_2_5_over_1_5() -> None:
-    """E2: 22 m of 2.5/1.5: R1 = 0.163, R1+R2 = 0.429 Ω (OSG [C2]); the area split gives R1 within 3 %."""
+    """E2: 22 m of 2.5/1.5: R1 = 0.163, R1+R2 = 0.429 Ω (OSG [secondary]); the area split gives R1 within 3
+    %."""
     check = vd(r1_r2_ohm=0.429, line_mm2=2.5, cpc_mm2=1.5, design_current_a=20, length_m=22)
     assert check.method == "r1r2_split"
     assert check.inputs["r1_ohm"] == pytest.approx(0.163, rel=0.03)
@@ -150,7 +152,7 @@ def test_e1_e2_split_of_r1r2_for_2_5_over_1_5() -> None:
 
 
 def test_measured_r2_gives_r1_directly() -> None:
-    """With R2 measured, R1 = (R1+R2) − R2 (DESIGN.md method 2): E2's 0.429 − 0.266 = 0.163 Ω [C2]."""
+    """With R2 measured, R1 = (R1+R2) − R2 (DESIGN.md method 2): E2's 0.429 − 0.266 = 0.163 Ω [secondary]."""
     check = vd(r1_r2_ohm=0.429, r2_ohm=0.266, line_mm2=2.5, cpc_mm2=1.5, design_current_a=20)
     assert check.inputs["r1_basis"] == "r1r2_minus_measured_r2"
     assert check.inputs["r1_ohm"] == pytest.approx(0.163)
@@ -164,7 +166,8 @@ def test_readings_beat_tabulated_and_tabulated_is_reported_beside() -> None:
 
 
 def test_temperature_factor_for_90c_and_a_cold_test() -> None:
-    """F = 1.28 for 90 °C tested at 20 °C; 70 °C cable tested at 10 °C: 1.20/0.96 = 1.25 (α = 0.004 [D])."""
+    """F = 1.28 for 90 °C tested at 20 °C; 70 °C cable tested at 10 °C: 1.20/0.96 = 1.25 (α = 0.004
+    [derived])."""
     hot = vd(r1_r2_ohm=0.5, device_rating_a=10, insulation_temp_c=90)
     cold = vd(r1_r2_ohm=0.5, device_rating_a=10, test_temp_c=10)
     assert hot.inputs["temp_factor"] == pytest.approx(1.28)
@@ -173,7 +176,7 @@ def test_temperature_factor_for_90c_and_a_cold_test() -> None:
 
 
 def test_aluminium_tabulated_from_iec60228() -> None:
-    """Aluminium 16 mm² (IEC 60228 1.91 Ω/km [C2]) at 70 °C: 2 × 1.91e-3 × 1.20 × L × I."""
+    """Aluminium 16 mm² (IEC 60228 1.91 Ω/km [secondary]) at 70 °C: 2 × 1.91e-3 × 1.20 × L × I."""
     check = vd(conductor_material="aluminium", line_mm2=16, length_m=40, design_current_a=50)
     assert check.value == pytest.approx(2 * 1.91e-3 * 1.2 * 40 * 50)
     assert "aluminium" in check.inputs["mv_basis"]
