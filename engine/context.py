@@ -53,7 +53,7 @@ class CircuitView:
         value = getattr(self.record, name)
         if value is not None:
             return value
-        if name == "neutral_mm2":  # DESIGN.md: the neutral defaults to the line size
+        if name == "neutral_mm2":  # engine/README.md: the neutral defaults to the line size
             line = self.record.line_mm2
             if line is not None:
                 self.defaults_applied[name] = line

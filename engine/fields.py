@@ -1,6 +1,6 @@
 """The circuit record's fields: name, kind and canonical unit, as one table.
 
-Field names are part of the API (DESIGN.md, "Circuit record"); units are in
+Field names are part of the API (engine/README.md, "The circuit record"); units are in
 the names. Every other module asks this table what a field is, so adding a
 field is one line here and one attribute on :class:`engine.records.CircuitRecord`.
 

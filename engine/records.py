@@ -1,7 +1,8 @@
 """The normalised circuit record, and turning loose data into one.
 
 Invariants:
-- :class:`CircuitRecord` has exactly the fields of DESIGN.md; ``board`` and
+- :class:`CircuitRecord` has exactly the fields of :mod:`engine.fields` (the
+  record table of engine/README.md); ``board`` and
   ``circuit`` are required, every other field is optional (``None``).
 - Measured fields hold :class:`Reading`; design values hold plain floats;
   choices hold their canonical spelling; flags hold bools.

@@ -19,7 +19,7 @@ from functools import lru_cache
 from types import MappingProxyType
 from typing import Any, Literal
 
-__all__ = ["CHECK_IDS", "CheckResult", "LimitKind", "Outcome", "Verdict", "worst"]
+__all__ = ["CHECK_IDS", "OUTCOME_MEANINGS", "CheckResult", "LimitKind", "Outcome", "Verdict", "worst"]
 
 CHECK_IDS: tuple[str, ...] = (
     "continuity",
@@ -51,6 +51,16 @@ class Outcome(StrEnum):
     def severity(self) -> int:
         return _SEVERITY[self]
 
+
+#: What each outcome tells the person who signs (engine/README.md prints this table).
+OUTCOME_MEANINGS: dict[Outcome, str] = {
+    Outcome.FAIL: "the readings show the limit is not met",
+    Outcome.INVESTIGATE: "within the limits as far as they go, but a reading looks wrong, implausible "
+                         "or marginal, or a bound settles nothing: a person must look",
+    Outcome.INCOMPLETE: "the check applies but a value it needs is missing or was rejected: "
+                        "nothing was shown either way",
+    Outcome.PASS: "the readings show the limit met",
+}
 
 _SEVERITY = {Outcome.PASS: 0, Outcome.INCOMPLETE: 1, Outcome.INVESTIGATE: 2, Outcome.FAIL: 3}
 

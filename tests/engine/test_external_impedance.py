@@ -1,4 +1,4 @@
-"""Ze against the typical maxima network operators declare (OSG; REFERENCE-VALUES.md §11)."""
+"""Ze against the typical maxima network operators declare (IET On-Site Guide)."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""PFC against breaking capacity, and the Annex ZB conditional rating (REFERENCE-VALUES.md §11–12)."""
+"""PFC against breaking capacity, and the Annex ZB conditional rating (Reg. 434.5.1; Annex ZB)."""
 
 from __future__ import annotations
 

@@ -11,7 +11,7 @@ from engine.context import Context
 from engine.feeders import FeederProblem, feeder_chain, upstream_drop
 from engine.ruleset import load_builtin
 
-F_70C = 1.2  # (1 + 0.004·50)/(1 + 0) for 70 °C cable tested at 20 °C [derived, DESIGN.md]
+F_70C = 1.2  # (1 + 0.004·50)/(1 + 0) for 70 °C cable tested at 20 °C [derived from 1 + α(θ − 20)]
 
 # Our own invented installation: origin DB0 → DB1 → DB2 → DB3, three distribution circuits deep.
 CHAIN: list[dict[str, Any]] = [
@@ -27,7 +27,7 @@ CHAIN: list[dict[str, Any]] = [
 
 
 def split_drop(r1r2: float, line: float, cpc: float, amps: float) -> float:
-    """DESIGN.md method 2: R1 = (R1+R2)·A_cpc/(A_line + A_cpc), Rn = R1, VD = (R1 + Rn)·F·I."""
+    """Split method: R1 = (R1+R2)·A_cpc/(A_line + A_cpc), Rn = R1, VD = (R1 + Rn)·F·I."""
     r1 = r1r2 * cpc / (line + cpc)
     return 2 * r1 * F_70C * amps
 

@@ -1,4 +1,4 @@
-"""Insulation resistance against BS 7671:2018 Table 64 / IEC 60364-6 Table 6.1 (REFERENCE-VALUES.md §7)."""
+"""Insulation resistance against BS 7671:2018 Table 64 / IEC 60364-6 Table 6.1."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""Loop impedance check and disconnection times (BS 7671 Ch. 41; REFERENCE-VALUES.md §1, §3, §9, E10)."""
+"""Loop impedance check and disconnection times (BS 7671 Chapter 41, Tables 41.1–41.5)."""
 
 from __future__ import annotations
 
@@ -58,7 +58,7 @@ def test_table_41_1_scope_of_2018(rating: float, sockets: bool, expected: float)
 
 
 def test_ring_counts_as_having_socket_outlets() -> None:
-    """DESIGN.md: a ring has socket-outlets, so a 40 A ring takes the 0.4 s of Table 41.1 [secondary]."""
+    """A ring final circuit has socket-outlets, so a 40 A ring takes the 0.4 s of Table 41.1 [secondary]."""
     assert _seconds(earthing="TN-S", device_rating_a=40, circuit_form="ring") == 0.4
 
 

@@ -1,4 +1,4 @@
-"""Maximum Zs lookups against BS 7671:2018+A2:2022 Tables 41.2, 41.3 and 41.4 (REFERENCE-VALUES.md §1–2)."""
+"""Maximum Zs lookups against BS 7671:2018+A2:2022 Tables 41.2, 41.3 and 41.4."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""Reading strings: numbers, units, bounds and over-range markers (DESIGN.md, "Readings")."""
+"""Reading strings: numbers, units, bounds and over-range markers (engine/README.md, "Readings")."""
 
 from __future__ import annotations
 

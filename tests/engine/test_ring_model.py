@@ -70,7 +70,7 @@ def test_mid_point_closed_form_equals_network_model(r1: str, rn: str, amps: int,
     paths = i_f * (two_parallel_paths(r1_f, Fraction(1, 2)) + two_parallel_paths(rn_f, Fraction(1, 2)))
     assert network == paths  # the two independent models agree exactly
     check = vd(ring_r1_ohm=r1, ring_rn_ohm=rn, device_rating_a=amps, test_temp_c=test_temp)
-    factor = (1 + 0.004 * 50) / (1 + 0.004 * (test_temp - 20))  # F, DESIGN.md (α = 0.004 [derived])
+    factor = (1 + 0.004 * 50) / (1 + 0.004 * (test_temp - 20))  # F, derived from 1 + α(θ − 20), α = 0.004
     assert check.method == "ring_end_to_end"
     assert check.value == pytest.approx(float(network) * factor, abs=1e-9)
 

@@ -11,7 +11,7 @@ from engine.ruleset import MARKERS
 
 
 def test_builtin_rulesets_present() -> None:
-    """Both rulesets the contract asks for are packaged (DESIGN.md: UK default and IEC)."""
+    """Both rulesets the contract asks for are packaged (BS 7671:2018+A2:2022 default, IEC 60364)."""
     assert {"bs7671-2018-a2", "iec-60364"} <= set(builtin_ruleset_ids())
 
 

@@ -1,4 +1,4 @@
-"""The R1+R2 split (DESIGN.md method 2): it sums back, matches IEC 60228, and never exceeds the quick figure
+"""The R1+R2 split (split method): it sums back, matches IEC 60228, and never exceeds the quick figure
 when the cpc is no larger than the neutral."""
 
 from __future__ import annotations

@@ -124,7 +124,7 @@ def test_e8_three_phase_annex_g() -> None:
 
 
 def test_quick_method_when_only_r1r2_is_known() -> None:
-    """Quick VD = (R1+R2) × F × I, F = 1.20 for 70 °C cable tested at 20 °C (DESIGN.md method 1)."""
+    """Quick VD = (R1+R2) × F × I, F = 1.20 for 70 °C cable tested at 20 °C (quick method, derived)."""
     check = vd(r1_r2_ohm=0.98, device_rating_a=20)
     assert check.method == "r1r2_quick"
     assert check.value == pytest.approx(0.98 * 1.2 * 20)
@@ -152,14 +152,14 @@ def test_e1_e2_split_of_r1r2_for_2_5_over_1_5() -> None:
 
 
 def test_measured_r2_gives_r1_directly() -> None:
-    """With R2 measured, R1 = (R1+R2) − R2 (DESIGN.md method 2): E2's 0.429 − 0.266 = 0.163 Ω [secondary]."""
+    """With R2 measured, R1 = (R1+R2) − R2 (split method): E2's 0.429 − 0.266 = 0.163 Ω [secondary]."""
     check = vd(r1_r2_ohm=0.429, r2_ohm=0.266, line_mm2=2.5, cpc_mm2=1.5, design_current_a=20)
     assert check.inputs["r1_basis"] == "r1r2_minus_measured_r2"
     assert check.inputs["r1_ohm"] == pytest.approx(0.163)
 
 
 def test_readings_beat_tabulated_and_tabulated_is_reported_beside() -> None:
-    """With R1+R2 and sizes the split is chosen; the tabulated figure (DESIGN.md method 3) is in inputs."""
+    """With R1+R2 and sizes the split is chosen; the tabulated figure (BS 7671 Appendix 4) is in inputs."""
     check = vd(r1_r2_ohm=0.98, line_mm2=2.5, cpc_mm2=1.5, length_m=50, device_rating_a=20)
     assert check.method == "r1r2_split"
     assert check.inputs["tabulated_v"] == pytest.approx(2 * 7.41e-3 * 1.2 * 50 * 20)
@@ -183,7 +183,7 @@ def test_aluminium_tabulated_from_iec60228() -> None:
 
 
 def test_three_phase_per_phase_r1() -> None:
-    """Balanced three-phase: per-phase VD = R1 × F × I, R1 from R1+R2 − R2 (DESIGN.md method 5)."""
+    """Balanced three-phase: per-phase VD = R1 × F × I, R1 from R1+R2 − R2 (balanced three-phase)."""
     check = vd(phases=3, r1_r2_ohm=0.2, r2_ohm=0.14, device_rating_a=63)
     assert check.method == "three_phase_split"
     assert check.value == pytest.approx(0.06 * 1.2 * 63)
