@@ -1,21 +1,75 @@
-"""The body of a verify response, built in one place for the API and the CLI."""
+"""What the views answer, as data: the schemas of :mod:`api.schemas` turn it into JSON.
+
+Invariants:
+- A view returns one of these (or an ORM row) and its ``@blp.response`` schema
+  serialises it; nothing here builds JSON or a ``Response``.
+- :func:`verify_body` is the one way the body of a verify answer is produced, for
+  ``POST /v1/verify``, ``GET /v1/jobs/<id>/verdicts`` and the offline ``ohmtally
+  verify --format json`` alike, so all three give the same document.
+- Every answer that carries verdicts carries the safety notice (the schemas add it).
+"""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from datetime import datetime
 from typing import Any
 
-from engine import NOTICE, Ruleset, Verdict, summarise
+from api.db.models import Circuit, Upload
+from api.schemas.verdicts import VerifyResponseSchema
+from engine import CircuitRecord, Ruleset, Verdict
 
-__all__ = ["verify_body"]
+__all__ = ["CircuitState", "ReadingsAnswer", "VerifyAnswer", "circuit_state", "verify_body"]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class VerifyAnswer:
+    """Verdicts under a ruleset, and the inputs that were not taken."""
+
+    ruleset: Ruleset
+    verdicts: Sequence[Verdict]
+    rejected: Sequence[Mapping[str, Any]] = ()
+    job_id: int | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ReadingsAnswer:
+    """A readings post: what was merged, what was rejected, the upload, the touched verdicts."""
+
+    accepted: int
+    rejected: Sequence[Mapping[str, Any]]
+    upload: Upload
+    verdicts: Sequence[Verdict]
+    duplicate_of: int | None = None
+    extra: Mapping[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class CircuitState:
+    """A stored circuit: its merged record, the caller's id for it, and (when asked) its history."""
+
+    board: str
+    circuit: str
+    external_ref: str | None
+    record: CircuitRecord
+    updated_at: datetime
+    upload_id: int | None
+    history: Mapping[str, Any] | None = None
+
+
+def circuit_state(row: Circuit, record: CircuitRecord,
+                  history: Mapping[str, Any] | None = None) -> CircuitState:
+    return CircuitState(board=row.board, circuit=row.circuit, external_ref=row.external_ref, record=record,
+                        updated_at=row.updated_at, upload_id=row.upload_id, history=history)
+
+
+_VERIFY_SCHEMA = VerifyResponseSchema()
 
 
 def verify_body(ruleset: Ruleset, verdicts: Sequence[Verdict],
-                rejected: Sequence[dict[str, Any]]) -> dict[str, Any]:
-    return {
-        "ruleset": ruleset.summary(),
-        "summary": {**summarise(verdicts), "rejected": len(rejected)},
-        "verdicts": [v.as_dict() for v in verdicts],
-        "rejected": list(rejected),
-        "notice": NOTICE,
-    }
+                rejected: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
+    """The verify answer's JSON document (as ``POST /v1/verify`` answers it)."""
+    body: dict[str, Any] = _VERIFY_SCHEMA.dump(VerifyAnswer(ruleset=ruleset, verdicts=verdicts,
+                                                            rejected=rejected))
+    return body

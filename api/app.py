@@ -7,29 +7,31 @@ Invariants:
   webargs'/marshmallow's (422) or an unexpected exception (500, logged),
   leaves as ``application/problem+json`` from :meth:`OhmtallyApi.handle_http_exception`
   or :func:`_api_error`; no traceback reaches a client.
-- ``OHMTALLY_AUTH=on`` fails closed: until an API-key module (``api.http.auth``)
-  is installed every route but ``/v1/health`` answers 401. ``api.http.auth`` also
-  resolves each request's organisation, rate-limits and handles Idempotency-Key.
+- Every request passes the middleware of :mod:`api.http` in one order: the request
+  log (a request id on every answer), the API key and its organisation
+  (``OHMTALLY_AUTH=on`` fails closed), the rate limit, Idempotency-Key.
+- Every JSON answer is encoded by one provider (:mod:`api.http.json_provider`).
 """
 
 from __future__ import annotations
 
 import http
-import importlib.util
 from collections.abc import Mapping
 from typing import Any
 
-from flask import Flask, current_app, request
+from flask import Flask, current_app
 from flask_smorest import Api
 from werkzeug.exceptions import HTTPException
 from werkzeug.routing import IntegerConverter
 
 from api import db
 from api.errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
-from api.http import request_log
+from api.http import auth, idempotency, limits, request_log
+from api.http.json_provider import OrjsonProvider
+from api.routes import BLUEPRINTS
 from api.schemas import json_types_attribute
 from api.schemas.errors import ProblemSchema
-from api.settings import Settings, load_settings
+from api.settings import load_settings
 from engine import __version__
 
 __all__ = ["OhmtallyApi", "create_app", "default_instance_path"]
@@ -94,24 +96,6 @@ def _api_error(error: ApiError) -> Any:
     return problem_response(error)
 
 
-def _init_auth(app: Flask, settings: Settings) -> None:
-    if importlib.util.find_spec("api.http.auth") is not None:  # it also handles OHMTALLY_AUTH=off
-        from importlib import import_module
-
-        import_module("api.http.auth").init_app(app)
-        return
-    if not settings.auth:
-        return
-
-    @app.before_request
-    def _closed() -> Any:
-        if request.path.rstrip("/") in ("/v1/health", "/v1/openapi.json"):
-            return None
-        raise ApiError(401, "auth_unavailable",
-                       "API keys are required (OHMTALLY_AUTH=on) but this build has no key store; "
-                       "for a loopback demo or test set OHMTALLY_AUTH=off")
-
-
 def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     settings = load_settings(config)
     app = Flask("api", instance_path=settings.instance_path, instance_relative_config=False)
@@ -129,21 +113,22 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     for key, value in (config or {}).items():
         if not str(key).startswith("OHMTALLY_") and str(key).isupper():
             app.config[key] = value
-    app.json.sort_keys = False  # type: ignore[attr-defined]
-    app.json.ensure_ascii = False  # type: ignore[attr-defined]
+    app.json = OrjsonProvider(app)  # one encoder for every answer (api.http.json_provider)
     app.extensions["ohmtally.settings"] = settings
     request_log.init_app(app, settings.log_level)
     url = db.database_url_for(app.instance_path, settings.database_url)
     app.config["OHMTALLY_DATABASE_URL"] = url
     db.init_app(app, url)
-    _init_auth(app, settings)
+    # Request middleware, in this order: the key check, then the rate limit (it counts per
+    # key), then Idempotency-Key (a key's reservation belongs to an organisation).
+    auth.init_app(app)
+    limits.init_app(app)
+    idempotency.init_app(app)
 
     api = OhmtallyApi(app)
     app.extensions["ohmtally.openapi"] = api
     api.ma_plugin.converter.add_attribute_function(json_types_attribute)
     app.register_error_handler(ApiError, _api_error)
-    from api.routes import BLUEPRINTS
-
     for blueprint in BLUEPRINTS:
         api.register_blueprint(blueprint)
     return app

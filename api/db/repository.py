@@ -8,9 +8,13 @@ Invariants:
   PostgreSQL; SQLite's ``BEGIN IMMEDIATE`` in ``api.db``), so two writers to
   one job apply one after the other and lose nothing.
 - A job's records are loaded in one query (no N+1); its history in one more.
-- Tenancy: inside a request every job query is limited to the request's
-  organisation (``api.http.auth.current_organisation_id``); another organisation's
-  job is "there is no job N", word for word what a missing job gets.
+- Tenancy: every job query takes the organisation it is limited to as an
+  argument (the request's, from ``api.http.auth.tenant``; ``None`` only for the
+  administrator's CLI); another organisation's job is "there is no job N", word
+  for word what a missing job gets.
+- Values are passed explicitly: :func:`merge_items` takes the job's rows that the
+  caller read (:func:`job_rows`) and returns the records after the merge; no
+  function reads a side channel left by another.
 """
 
 from __future__ import annotations
@@ -19,8 +23,8 @@ import base64
 import binascii
 import hashlib
 import json
-from collections.abc import Iterable, Sequence
-from datetime import datetime, timedelta
+from collections.abc import Iterable, Mapping, Sequence
+from datetime import datetime
 from functools import lru_cache
 from typing import Any, NamedTuple
 
@@ -34,34 +38,46 @@ from engine import CircuitRecord, build_record
 
 __all__ = [
     "LOCAL_ORGANISATION",
+    "Merged",
+    "Row",
+    "bump_revision",
     "create_job",
     "decode_cursor",
     "encode_cursor",
-    "find_recent_duplicate",
-    "find_upload_by_key",
     "get_job",
     "get_upload",
     "job_circuits",
     "job_history",
     "job_records",
+    "job_rows",
     "list_jobs",
     "list_uploads",
     "lock_job",
     "merge_items",
     "records_of",
+    "records_of_rows",
     "store_upload",
     "upload_circuit_keys",
 ]
 
 LOCAL_ORGANISATION = "local"
-_MERGED_ROWS = "ohmtally.merged_rows"  # session.info: (job id, rows, merged fields) from merge_items
 
 
-class _Row(NamedTuple):
+class Row(NamedTuple):
+    """One stored circuit as plain columns."""
+
     id: int
     board: str
     circuit: str
     text: str | None  # the fields as stored JSON text; None for a circuit inserted by this merge
+
+
+class Merged(NamedTuple):
+    """What :func:`merge_items` did: values merged, circuits touched, every record after it."""
+
+    accepted: int
+    touched: list[tuple[str, str]]
+    records: list[CircuitRecord]
 
 
 def local_organisation(session: Session) -> Organisation:
@@ -72,17 +88,15 @@ def local_organisation(session: Session) -> Organisation:
     return found
 
 
-def _tenant() -> int | None:
-    from api.http.auth import current_organisation_id
+def bump_revision(job: Job) -> None:
+    """A change to the job or its records: +1 revision (the verdicts' ETag), ``updated_at`` now."""
+    job.updated_at = utcnow()
+    job.revision += 1
 
-    return current_organisation_id()
 
-
-def create_job(session: Session, *, reference: str, site: str, ruleset: str,
-               external_ref: str | None, organisation: Organisation | None = None) -> Job:
-    org_id = organisation.id if organisation is not None else _tenant()
-    if org_id is None:
-        org_id = local_organisation(session).id
+def create_job(session: Session, organisation_id: int, *, reference: str, site: str, ruleset: str,
+               external_ref: str | None) -> Job:
+    org_id = organisation_id
     now = utcnow()
     job = Job(organisation_id=org_id, reference=reference, site=site, ruleset=ruleset,
               external_ref=external_ref, created_at=now, updated_at=now)
@@ -110,7 +124,8 @@ def decode_cursor(cursor: str) -> int:
                                 "reason": "use next_cursor from the previous page"}]) from None
 
 
-def list_jobs(session: Session, *, limit: int, cursor: str | None, reference: str | None,
+def list_jobs(session: Session, tenant: int | None, *, limit: int, cursor: str | None,
+              reference: str | None,
               external_ref: str | None = None, updated_since: datetime | None = None
               ) -> tuple[list[Job], str | None]:
     """One page in creation order, and the cursor of the next page (``None`` at the end).
@@ -119,7 +134,6 @@ def list_jobs(session: Session, *, limit: int, cursor: str | None, reference: st
     after the cursor, never shifts a page it has seen (``updated_since`` uses ``>=``).
     """
     query = select(Job).order_by(Job.id).limit(limit + 1)
-    tenant = _tenant()
     if tenant is not None:
         query = query.where(Job.organisation_id == tenant)
     if cursor:
@@ -136,9 +150,9 @@ def list_jobs(session: Session, *, limit: int, cursor: str | None, reference: st
     return page, encode_cursor(page[-1].id) if more and page else None
 
 
-def get_job(session: Session, job_id: int) -> Job:
+def get_job(session: Session, tenant: int | None, job_id: int) -> Job:
+    """The job, if it is the organisation's (``tenant``; ``None``: any), else a 404."""
     job = session.get(Job, job_id)
-    tenant = _tenant()
     if job is None or (tenant is not None and job.organisation_id != tenant):
         raise ApiError(404, "job_not_found", f"there is no job {job_id}",
                        errors=[{"parameter": "job_id", "code": "job_not_found",
@@ -146,37 +160,15 @@ def get_job(session: Session, job_id: int) -> Job:
     return job
 
 
-def lock_job(session: Session, job_id: int) -> Job:
+def lock_job(session: Session, tenant: int | None, job_id: int) -> Job:
     """The job, locked for this transaction against other writers."""
     query = select(Job).where(Job.id == job_id)
-    tenant = _tenant()
     if tenant is not None:
         query = query.where(Job.organisation_id == tenant)
     job = session.scalars(query.with_for_update()).first()
     if job is None:
-        return get_job(session, job_id)
+        return get_job(session, tenant, job_id)
     return job
-
-
-def find_recent_duplicate(session: Session, job: Job, *, sha256: str, content_type: str,
-                          window_s: int) -> Upload | None:
-    """The job's latest upload if it is this very body, merged, within ``window_s`` seconds.
-
-    Only the *latest*: re-sending an older body after another upload is a
-    deliberate correction (later wins) and must merge again.
-    """
-    latest = session.scalars(select(Upload).where(Upload.job_id == job.id)
-                             .order_by(Upload.id.desc()).limit(1)).first()
-    if (latest is None or latest.sha256 != sha256 or latest.status != "merged"
-            or latest.content_type != content_type
-            or utcnow() - latest.received_at > timedelta(seconds=window_s)):
-        return None
-    return latest
-
-
-def find_upload_by_key(session: Session, job: Job, idempotency_key: str) -> Upload | None:
-    query = select(Upload).where(Upload.job_id == job.id, Upload.idempotency_key == idempotency_key)
-    return session.scalars(query).first()
 
 
 def upload_circuit_keys(session: Session, upload: Upload) -> set[tuple[str, str]]:
@@ -197,7 +189,7 @@ def store_upload(session: Session, job: Job, *, body: bytes, content_type: str,
     return upload
 
 
-def _job_rows(session: Session, job_id: int) -> list[_Row]:
+def job_rows(session: Session, job_id: int) -> list[Row]:
     """(id, board, circuit, fields as stored JSON text) of every circuit of the job, in id order.
 
     Plain columns, no ORM objects: a logger's post reads the whole job each time, and
@@ -205,14 +197,14 @@ def _job_rows(session: Session, job_id: int) -> list[_Row]:
     """
     query = (select(Circuit.id, Circuit.board, Circuit.circuit, cast(Circuit.fields, Text))
              .where(Circuit.job_id == job_id).order_by(Circuit.id))
-    return [_Row(id, board, circuit, text) for id, board, circuit, text in session.execute(query)]
+    return [Row(id, board, circuit, text) for id, board, circuit, text in session.execute(query)]
 
 
-def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item]
-                ) -> tuple[int, list[tuple[str, str]]]:
-    """Merge items into the job's circuits; returns (field values merged, keys touched)."""
+def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item],
+                stored: Sequence[Row]) -> Merged:
+    """Merge items into the job's circuits, whose ``stored`` rows the caller read under the job's lock."""
     items = list(items)  # walked twice: once to merge, once for the history rows
-    rows = {(r.board, r.circuit): r for r in _job_rows(session, job.id)}
+    rows = {(r.board, r.circuit): r for r in stored}
     now = utcnow()
     merged: dict[tuple[str, str], dict[str, Any]] = {}
     for item in items:  # later wins, per circuit and per field
@@ -233,16 +225,15 @@ def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item
             [{"job_id": job.id, "board": board, "circuit": circuit, "fields": merged[(board, circuit)],
               "updated_at": now, "upload_id": upload.id} for board, circuit in fresh]).all()
         for (board, circuit), new_id in zip(fresh, ids, strict=True):
-            rows[(board, circuit)] = _Row(new_id, board, circuit, None)
+            rows[(board, circuit)] = Row(new_id, board, circuit, None)
     history = [{"circuit_id": rows[(item.board, item.circuit)].id, "field": name, "value": value,
                 "upload_id": upload.id, "location": item.location, "recorded_at": now}
                for item in items for name, value in item.fields.items()]
     if history:  # one multi-row INSERT, in arrival order, instead of an ORM object per value
         session.execute(insert(FieldHistory), history)
-    job.updated_at = now
-    job.revision += 1  # the verdicts' ETag (migration 0004)
-    session.info[_MERGED_ROWS] = (job.id, sorted(rows.values(), key=lambda r: r.id), merged)
-    return len(history), list(merged)
+    bump_revision(job)
+    after = records_of_rows(sorted(rows.values(), key=lambda r: r.id), merged)
+    return Merged(accepted=len(history), touched=list(merged), records=after)
 
 
 def job_circuits(session: Session, job: Job) -> list[Circuit]:
@@ -259,11 +250,14 @@ def records_of(circuits: Sequence[Circuit]) -> list[CircuitRecord]:
 
 
 def job_records(session: Session, job: Job) -> list[CircuitRecord]:
-    """The job's records in circuit order; right after :func:`merge_items`, from what it read
-    and merged (no second query)."""
-    found = session.info.pop(_MERGED_ROWS, None)
-    rows, merged = (found[1], found[2]) if found is not None and found[0] == job.id else (
-        _job_rows(session, job.id), {})
+    """The job's records in circuit order."""
+    return records_of_rows(job_rows(session, job.id))
+
+
+def records_of_rows(rows: Iterable[Row], merged: Mapping[tuple[str, str], dict[str, Any]] | None = None
+                    ) -> list[CircuitRecord]:
+    """Records of stored rows, in their order; ``merged`` holds fields that replace a row's stored ones."""
+    merged = merged or {}
     out: list[CircuitRecord] = []
     for row in rows:
         values = merged.get((row.board, row.circuit))
@@ -297,7 +291,7 @@ def job_history(session: Session, job: Job) -> dict[int, dict[str, list[dict[str
     for row in session.scalars(query):
         out.setdefault(row.circuit_id, {}).setdefault(row.field, []).append({
             "value": row.value, "upload_id": row.upload_id, "location": row.location,
-            "recorded_at": row.recorded_at.isoformat()})
+            "recorded_at": row.recorded_at})
     return out
 
 

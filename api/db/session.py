@@ -1,11 +1,17 @@
-"""The database connection: one SQLAlchemy engine per app, one session per request.
+"""The database connection: a writer and a reader engine per app, one session per request.
 
 Invariants:
+- A request that can change something (any method but GET, HEAD, OPTIONS) gets a
+  session of the writer engine; a read gets one of the reader engine. On
+  PostgreSQL both are one engine. On SQLite they differ in how a transaction
+  starts, so that **reads never wait for a writer**:
 - The default database is an SQLite file in the Flask instance folder, in WAL
-  mode (readers never block the writer), with foreign keys on and a busy
-  timeout, and every transaction opened ``BEGIN IMMEDIATE``: two processes
-  merging into the same job queue one behind the other instead of failing
-  on a lock upgrade. Before ``BEGIN IMMEDIATE`` a writer takes an exclusive
+  mode (readers never block the writer, the writer never blocks readers), with
+  foreign keys on and a busy timeout. A reader's transaction is a plain deferred
+  ``BEGIN`` with ``PRAGMA query_only`` on: it sees the last committed state and
+  can never take the writer lock. A writer's transaction is opened
+  ``BEGIN IMMEDIATE``: two processes merging into the same job queue one behind
+  the other instead of failing on a lock upgrade. Before ``BEGIN IMMEDIATE`` a writer takes an exclusive
   ``flock`` on ``<database>-writers.lock``: the waiting process is woken the
   moment the lock is free, where SQLite's busy handler sleeps in steps of up
   to 100 ms (under two workers' load that made a logger's post wait ~1 s at
@@ -16,7 +22,10 @@ Invariants:
   row instead (``repository.lock_job``).
 - The app refuses to start on a database whose schema it cannot serve
   (:mod:`api.db.schema`).
-- A session lives for one request and is closed at teardown.
+- A session lives for one request: its one transaction (the request's unit of
+  work) commits after the answer is built when the answer is a success, or when
+  the view asked to keep what it refused (``g.commit_on_error``), and rolls back
+  otherwise; views never commit. The session is closed at teardown.
 """
 
 from __future__ import annotations
@@ -31,7 +40,7 @@ try:
 except ImportError:  # not POSIX: SQLite's own busy timeout alone queues the writers
     fcntl = None  # type: ignore[assignment]
 
-from flask import Flask, current_app, g
+from flask import Flask, Response, current_app, g, request
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session, sessionmaker
@@ -44,7 +53,11 @@ __all__ = [
     "get_session",
     "init_app",
     "make_engine",
+    "read_session",
+    "write_session",
 ]
+
+_READ_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
 
 SQLITE_FILE = "ohmtally.sqlite3"
 
@@ -69,6 +82,10 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
 _LOCK_PATH = "ohmtally.writer_lock_path"  # connection info: where this database's writer lock is
 _HOLDING = "ohmtally.writer_lock_fd"  # connection info: the descriptor holding it, while held
 _THREAD = threading.local()  # .holding: this thread holds the writer lock through some connection
+
+
+def _sqlite_begin_read(connection: Any) -> None:
+    connection.exec_driver_sql("BEGIN")
 
 
 def _sqlite_begin(connection: Any) -> None:
@@ -110,11 +127,22 @@ def _writer_lock(path: str) -> Any:
     return remember
 
 
-def make_engine(url: str) -> Engine:
+def _query_only(dbapi_connection: Any, _record: Any) -> None:
+    cursor = dbapi_connection.cursor()
+    cursor.execute("PRAGMA query_only=ON")
+    cursor.close()
+
+
+def make_engine(url: str, *, read_only: bool = False) -> Engine:
+    """An engine for ``url``; ``read_only`` (SQLite) opens deferred, query-only transactions."""
     parsed = make_url(url)
     if parsed.get_backend_name() == "sqlite":
         engine = create_engine(url, connect_args={"timeout": 30})
         event.listen(engine, "connect", _sqlite_pragmas)
+        if read_only:
+            event.listen(engine, "connect", _query_only)
+            event.listen(engine, "begin", _sqlite_begin_read)
+            return engine
         database = parsed.database or ""
         if fcntl is not None and database and database != ":memory:" and not database.startswith("file:"):
             event.listen(engine, "connect", _writer_lock(f"{database}-writers.lock"))
@@ -132,8 +160,24 @@ def init_app(app: Flask, url: str) -> None:
     except Exception:
         engine.dispose()
         raise
+    reader = make_engine(url, read_only=True) if engine.dialect.name == "sqlite" else engine
     app.extensions["ohmtally.db"] = sessionmaker(engine, expire_on_commit=False)
+    app.extensions["ohmtally.db.read"] = sessionmaker(reader, expire_on_commit=False)
     app.extensions["ohmtally.engine"] = engine
+    app.extensions["ohmtally.engine.read"] = reader
+
+    @app.after_request
+    def _finish_unit_of_work(response: Response) -> Response:
+        # The request's one transaction ends here, after the answer is built (and, for an
+        # Idempotency-Key, recorded beside the change): a success commits, a refusal rolls
+        # back, unless the view kept what it refused (a rejected upload: g.commit_on_error).
+        session: Session | None = g.get("db_session")
+        if session is not None:
+            if response.status_code < 400 or g.get("commit_on_error"):
+                session.commit()
+            else:
+                session.rollback()
+        return response
 
     @app.teardown_appcontext
     def _close(_exc: BaseException | None) -> None:
@@ -143,10 +187,25 @@ def init_app(app: Flask, url: str) -> None:
 
 
 def get_session() -> Session:
+    """The request's session: a reader's for GET/HEAD/OPTIONS, else a writer's (see above)."""
     if "db_session" not in g:
-        g.db_session = current_app.extensions["ohmtally.db"]()
+        name = "ohmtally.db.read" if request.method in _READ_METHODS else "ohmtally.db"
+        g.db_session = current_app.extensions[name]()
     session: Session = g.db_session
     return session
+
+
+def read_session() -> Session:
+    """A reader's session outside the request's own (authentication); the caller closes it."""
+    factory: sessionmaker[Session] = current_app.extensions["ohmtally.db.read"]
+    return factory()
+
+
+def write_session() -> Session:
+    """A writer's session for the rare write a read request makes (an API key's last use);
+    the caller commits and closes it."""
+    factory: sessionmaker[Session] = current_app.extensions["ohmtally.db"]
+    return factory()
 
 
 def database_url_for(instance_path: str, configured: str) -> str:

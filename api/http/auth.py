@@ -29,9 +29,12 @@ from datetime import timedelta
 from typing import Any, TypeVar
 
 from flask import Flask, Response, current_app, g, has_request_context, request
+from sqlalchemy import select, update
 
-from api.db.models import SCOPES, Organisation, utcnow
+from api.db.models import SCOPES, ApiKey, Organisation, utcnow
+from api.db.session import read_session, write_session
 from api.errors import ApiError
+from api.http.keys import find_key
 
 __all__ = [
     "PUBLIC_PATHS",
@@ -40,6 +43,7 @@ __all__ = [
     "init_app",
     "require_scope",
     "required_scope",
+    "tenant",
 ]
 
 PUBLIC_PATHS = frozenset({"/v1/health", "/v1/openapi.json"})
@@ -92,39 +96,46 @@ def _bearer_token() -> str:
 
 
 def _authenticate(app: Flask) -> None:
-    from api.db import get_session
-    from api.http.keys import find_key
+    # The key is looked up in a reader's session of its own: authenticating never takes
+    # the SQLite writer lock, and a write request's own transaction starts at its first
+    # real query (a view that parses a body first does not hold the lock while it parses).
+    with read_session() as session:
+        key = find_key(session, _bearer_token())
+        if key is None:  # never say which part was wrong, never echo the token
+            raise _unauthorised("invalid_api_key", "the API key is not valid", "invalid_token")
+        now = utcnow()
+        if key.revoked_at is not None:
+            raise _unauthorised("revoked_api_key", f"API key {key.id} was revoked", "invalid_token")
+        if key.expires_at is not None and now >= key.expires_at:
+            raise _unauthorised("expired_api_key", f"API key {key.id} has expired", "invalid_token")
+        needed = required_scope(app)
+        challenge = f'{_REALM}, error="insufficient_scope", scope="{needed}"'
+        held = key.scope_set
+        if needed not in held and "admin" not in held:
+            raise ApiError(403, "insufficient_scope",
+                           f"API key {key.id} has scope(s) {key.scopes}; this request needs {needed!r}",
+                           headers={"WWW-Authenticate": challenge})
+        g.api_key_id = key.id
+        g.organisation_id = key.organisation_id
+        stale = key.last_used_at is None or now - key.last_used_at >= _LAST_USED_STEP
+    if stale:  # kept to the hour, so this write is rare; its own short transaction
+        with write_session() as writer:
+            writer.execute(update(ApiKey).where(ApiKey.id == g.api_key_id).values(last_used_at=now))
+            writer.commit()
 
-    session = get_session()
-    key = find_key(session, _bearer_token())
-    if key is None:  # never say which part was wrong, never echo the token
-        raise _unauthorised("invalid_api_key", "the API key is not valid", "invalid_token")
-    now = utcnow()
-    if key.revoked_at is not None:
-        raise _unauthorised("revoked_api_key", f"API key {key.id} was revoked", "invalid_token")
-    if key.expires_at is not None and now >= key.expires_at:
-        raise _unauthorised("expired_api_key", f"API key {key.id} has expired", "invalid_token")
-    needed = required_scope(app)
-    challenge = f'{_REALM}, error="insufficient_scope", scope="{needed}"'
-    held = key.scope_set
-    if needed not in held and "admin" not in held:
-        raise ApiError(403, "insufficient_scope",
-                       f"API key {key.id} has scope(s) {key.scopes}; this request needs {needed!r}",
-                       headers={"WWW-Authenticate": challenge})
-    g.api_key_id = key.id
-    g.organisation_id = key.organisation_id
-    if key.last_used_at is None or now - key.last_used_at >= _LAST_USED_STEP:
-        key.last_used_at = now
-    # End the key lookup's transaction here, so the request's own transaction starts at its
-    # first real query: on SQLite every transaction holds the one writer lock (api.db), and a
-    # view that parses a body first should not hold it while it parses.
-    session.commit()
+
+def _safe_headers(response: Response) -> Response:
+    # Everything we return is data: an upload served back with the content type its
+    # sender claimed (text/html …) must not be sniffed or run by a browser.
+    response.headers.setdefault("X-Content-Type-Options", "nosniff")
+    response.headers.setdefault("Content-Security-Policy", "default-src 'none'; sandbox")
+    if g.get("api_key_id") is not None:  # a tenant's data: no shared cache may keep it
+        response.headers.setdefault("Cache-Control", "no-store")
+    return response
 
 
 def init_app(app: Flask) -> None:
-    """Install the key check (or, with OHMTALLY_AUTH=off, the local organisation) and rate limits."""
-    from api.http import idempotency, limits
-
+    """Install the key check (with OHMTALLY_AUTH=off: none; every request is the local organisation)."""
     auth_on = bool(app.extensions["ohmtally.settings"].auth)
 
     @app.before_request
@@ -133,16 +144,7 @@ def init_app(app: Flask) -> None:
             return
         _authenticate(app)
 
-    @app.after_request
-    def _safe_headers(response: Response) -> Response:
-        # Everything we return is data: an upload served back with the content type its
-        # sender claimed (text/html …) must not be sniffed or run by a browser.
-        response.headers.setdefault("X-Content-Type-Options", "nosniff")
-        response.headers.setdefault("Content-Security-Policy", "default-src 'none'; sandbox")
-        if g.get("api_key_id") is not None:  # a tenant's data: no shared cache may keep it
-            response.headers.setdefault("Cache-Control", "no-store")
-        return response
-
+    app.after_request(_safe_headers)
     options = dict(app.config.get("API_SPEC_OPTIONS") or {})
     options["components"] = {"securitySchemes": {"apiKey": {
         "type": "http", "scheme": "bearer", "bearerFormat": "oht_ API key",
@@ -150,8 +152,6 @@ def init_app(app: Flask) -> None:
     if auth_on:
         options["security"] = [{"apiKey": []}]
     app.config["API_SPEC_OPTIONS"] = options
-    limits.init_app(app)  # after the key check: the limit counts per key
-    idempotency.init_app(app)  # after both: a key's reservation needs the organisation
 
 
 def current_api_key_id() -> int | None:
@@ -162,6 +162,11 @@ def current_organisation_id() -> int | None:
     """The request's organisation id; ``None`` outside a request (CLI, scripts)."""
     if not has_request_context():
         return None
+    return tenant()
+
+
+def tenant() -> int:
+    """The request's organisation id, which every job query is limited to (inside a request only)."""
     found = g.get("organisation_id")
     if found is not None:
         return int(found)
@@ -169,11 +174,8 @@ def current_organisation_id() -> int | None:
         raise RuntimeError("no organisation for this request: the key check did not run")
     local = current_app.extensions.get("ohmtally.local_org_id")
     if local is None:
-        from sqlalchemy import select
-
-        from api.db import get_session
-
-        org = get_session().scalars(select(Organisation).where(Organisation.slug == "local")).first()
+        with read_session() as session:
+            org = session.scalars(select(Organisation).where(Organisation.slug == "local")).first()
         if org is None:
             raise ApiError(500, "no_organisation", "the 'local' organisation is missing; "
                            "re-run `ohmtally db upgrade` on a fresh database")

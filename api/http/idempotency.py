@@ -1,55 +1,73 @@
-"""``Idempotency-Key`` on every job-changing POST, scoped per organisation; the first answer replayed.
+"""What a repeated request gets, decided in one place: the first answer replayed, a 409, or
+"duplicate of" an upload moments ago.
 
 Invariants:
-- A POST under ``/v1/jobs`` with an ``Idempotency-Key`` reserves the key for
-  the request's organisation (one row in ``idempotency_records``) in the same
-  transaction as the change; the view fills in its response before it
-  commits (:func:`commit_with`, :func:`remember_problem`). So the change and
-  the answer are committed together or not at all: a retry after a crash
-  either finds both or neither.
-- Same key, same method, path, content type and body → the first response's
-  status and bytes, with ``Idempotent-Replayed: true``; nothing changes.
-  Same key, anything different → 409 ``idempotency_key_reused``.
-- Two requests racing with one key: the second's reservation waits on the
-  unique index (PostgreSQL) or on the write lock (SQLite ``BEGIN IMMEDIATE``)
-  and then sees the first's committed answer.
-- ``POST /v1/verify`` stores nothing and is the same function of its body
-  every time, so a key there is accepted and has no effect.
-- A request that fails before committing (404, 415, 422 on a bad JSON body)
-  leaves no reservation: sending it again re-checks it.
+- A state-changing request (POST, PUT, PATCH, DELETE) under ``/v1/jobs`` with an
+  ``Idempotency-Key`` reserves the key for the request's organisation (one row in
+  ``idempotency_records``) in the request's own transaction. After the view has
+  answered, :func:`_record_answer` stores that answer in the row, and the request's
+  unit of work (``api.db.session``) commits change and answer together, or neither:
+  a retry after a crash finds both or neither.
+- Same key, same method, path, content type and body → the first response's status
+  and bytes, with ``Ohmtally-Replay: <when the first answer was given>``; nothing
+  changes. Same key, anything different → 409 ``idempotency_key_reused``. A key
+  whose answer was never recorded → 409 ``idempotency_key_in_doubt``.
+- Two requests racing with one key: the second's reservation waits on the unique
+  index (PostgreSQL) or the writer lock (SQLite) and then sees the first's answer.
+- A request that fails without committing (404, 415, 422 on a bad JSON body) leaves
+  no reservation: sending it again re-checks it. A refusal that is committed anyway
+  (a readings body kept as a rejected upload, ``g.commit_on_error``) is the key's answer.
+- ``POST /v1/verify`` stores nothing and is the same function of its body every
+  time, so a key there is accepted and has no effect.
+- Without a key, an exact re-post of a job's latest upload within
+  ``OHMTALLY_DUPLICATE_WINDOW_S`` is a blind resend (:func:`recent_duplicate`): the
+  readings view answers it as ``duplicate_of`` that upload and merges nothing.
 """
 
 from __future__ import annotations
 
 import hashlib
 import re
+from datetime import timedelta
 
 from flask import Flask, Response, current_app, g, request
 from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
-from api.db.models import IdempotencyRecord, utcnow
-from api.errors import ApiError, problem_response
+from api.db.models import IdempotencyRecord, Job, Upload, utcnow
+from api.db.session import get_session
+from api.errors import ApiError
+from api.http.auth import tenant
 
-__all__ = ["IDEMPOTENCY_HEADER", "IDEMPOTENCY_PARAMETER_DOC", "KEY_PATTERN", "commit_with", "init_app",
-           "remember_problem"]
+__all__ = [
+    "IDEMPOTENCY_HEADER",
+    "IDEMPOTENCY_PARAMETER_DOC",
+    "KEY_PATTERN",
+    "REPLAY_HEADER",
+    "init_app",
+    "recent_duplicate",
+    "request_key",
+]
 
 IDEMPOTENCY_HEADER = "Idempotency-Key"
 KEY_PATTERN = re.compile(r"^[\x21-\x7e]{1,200}$")  # visible ASCII, as a header value carries safely
-REPLAYED_HEADER = "Idempotent-Replayed"
+REPLAY_HEADER = "Ohmtally-Replay"  # on a replayed answer: when the first answer was given (RFC 3339)
 IDEMPOTENCY_PARAMETER_DOC = {
     "in": "header", "name": IDEMPOTENCY_HEADER, "required": False,
     "schema": {"type": "string", "minLength": 1, "maxLength": 200, "pattern": "^[!-~]{1,200}$"},
     "description": "resending the same request with the same key (per organisation) is answered "
-                   "with the first response, changing nothing; the same key with another request is a 409"}
+                   f"with the first response (marked `{REPLAY_HEADER}`), changing nothing; the same "
+                   "key with another request is a 409"}
+_CHANGING = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 
 
 def _applies() -> bool:
-    return request.method == "POST" and request.path.startswith("/v1/jobs")
+    return request.method in _CHANGING and request.path.startswith("/v1/jobs")
 
 
 def request_key() -> str | None:
+    """The request's Idempotency-Key, or ``None``; a malformed one is a 400."""
     key = request.headers.get(IDEMPOTENCY_HEADER)
     if key is None:
         return None
@@ -61,7 +79,7 @@ def request_key() -> str | None:
     return key
 
 
-def fingerprint() -> str:
+def _fingerprint() -> str:
     digest = hashlib.sha256()
     for part in (request.method, request.full_path.rstrip("?"), request.mimetype or ""):
         digest.update(part.encode("utf-8", "surrogateescape") + b"\n")
@@ -75,7 +93,7 @@ def _find(session: Session, organisation_id: int, key: str) -> IdempotencyRecord
     return session.scalars(query).first()
 
 
-def _answer(found: IdempotencyRecord, wanted: str) -> Response:
+def _replay(found: IdempotencyRecord, wanted: str) -> Response:
     if found.request_sha256 != wanted:
         raise ApiError(409, "idempotency_key_reused",
                        "this Idempotency-Key was used with another request (method, path or body); "
@@ -92,24 +110,22 @@ def _answer(found: IdempotencyRecord, wanted: str) -> Response:
                                           content_type=found.content_type or "application/json")
     if found.location:
         response.headers["Location"] = found.location
-    response.headers[REPLAYED_HEADER] = "true"
+    response.headers[REPLAY_HEADER] = found.created_at.isoformat().replace("+00:00", "Z")
     return response
 
 
 def _reserve() -> Response | None:
-    from api.db import get_session
-    from api.http.auth import current_organisation_id
-
+    if not _applies():
+        return None
     key = request_key()
     if key is None:
         return None
-    organisation_id = current_organisation_id()
-    assert organisation_id is not None  # inside a request: auth has resolved one or raised
-    wanted = fingerprint()
+    organisation_id = tenant()
+    wanted = _fingerprint()
     session = get_session()
     found = _find(session, organisation_id, key)
     if found is not None:
-        return _answer(found, wanted)
+        return _replay(found, wanted)
     record = IdempotencyRecord(organisation_id=organisation_id, idempotency_key=key, method=request.method,
                                path=request.path[:2000], request_sha256=wanted, created_at=utcnow())
     session.add(record)
@@ -120,34 +136,41 @@ def _reserve() -> Response | None:
         found = _find(session, organisation_id, key)
         if found is None:  # pragma: no cover - the winner's row is committed before we can fail
             raise
-        return _answer(found, wanted)
+        return _replay(found, wanted)
     g.idempotency_record = record
     return None
 
 
-def commit_with(session: Session, response: Response) -> Response:
-    """Record ``response`` as the answer to this request's key (if any), then commit both."""
+def _record_answer(response: Response) -> Response:
+    """Store the answer in the key's row; the unit of work then commits it with the change."""
     record: IdempotencyRecord | None = g.pop("idempotency_record", None)
-    if record is not None:
-        record.status_code = response.status_code
-        record.content_type = response.content_type
-        record.location = response.headers.get("Location")
-        record.response_body = response.get_data()
-    session.commit()
+    if record is None:
+        return response
+    if response.status_code >= 400 and not g.get("commit_on_error"):
+        return response  # rolled back with everything else: no reservation is left
+    record.status_code = response.status_code
+    record.content_type = response.content_type
+    record.location = response.headers.get("Location")
+    record.response_body = response.get_data()
     return response
 
 
-def remember_problem(problem: ApiError) -> None:
-    """Record a refusal that is committed anyway (a rejected upload kept) as the key's answer."""
-    record: IdempotencyRecord | None = g.pop("idempotency_record", None)
-    if record is not None:
-        response = problem_response(problem)
-        record.status_code = response.status_code
-        record.content_type = response.content_type
-        record.response_body = response.get_data()
+def recent_duplicate(session: Session, job: Job, *, sha256: str, content_type: str,
+                     window_s: int) -> Upload | None:
+    """The job's latest upload if it is this very body, merged, within ``window_s`` seconds.
+
+    Only the *latest*: re-sending an older body after another upload is a deliberate
+    correction (later wins) and must merge again. The caller holds the job's lock.
+    """
+    latest = session.scalars(select(Upload).where(Upload.job_id == job.id)
+                             .order_by(Upload.id.desc()).limit(1)).first()
+    if (latest is None or latest.sha256 != sha256 or latest.status != "merged"
+            or latest.content_type != content_type
+            or utcnow() - latest.received_at > timedelta(seconds=window_s)):
+        return None
+    return latest
 
 
 def init_app(app: Flask) -> None:
-    @app.before_request
-    def _idempotency() -> Response | None:
-        return _reserve() if _applies() else None
+    app.before_request(_reserve)
+    app.after_request(_record_answer)

@@ -7,7 +7,9 @@ from typing import Any
 from flask.views import MethodView
 from flask_smorest import Blueprint
 
-from api.routes.common import json_response, resolve_ruleset, settings
+from adapters.profiles import list_profiles
+from adapters.registry import list_adapters
+from api.routes.common import resolve_ruleset, settings
 from api.schemas.catalogue import AdapterListSchema, HealthSchema, RulesetDetailSchema, RulesetListSchema
 from engine import DEFAULT_RULESET, __version__, builtin_ruleset_ids, load_ruleset
 
@@ -22,7 +24,7 @@ class Health(MethodView):
     @blp.response(200, HealthSchema)
     def get(self) -> Any:
         """Liveness and version (no auth, no database)."""
-        return json_response({"status": "ok", "version": __version__, "api": "v1"})
+        return {"status": "ok", "version": __version__, "api": "v1"}
 
 
 @blp.route("/rulesets")
@@ -30,8 +32,7 @@ class Rulesets(MethodView):
     @blp.response(200, RulesetListSchema)
     def get(self) -> Any:
         """The built-in rulesets and the default."""
-        return json_response({"default": DEFAULT_RULESET,
-                              "rulesets": [load_ruleset(r).summary() for r in builtin_ruleset_ids()]})
+        return {"default": DEFAULT_RULESET, "rulesets": [load_ruleset(r) for r in builtin_ruleset_ids()]}
 
 
 @blp.route("/rulesets/<string:ruleset_id>")
@@ -39,7 +40,7 @@ class RulesetDetail(MethodView):
     @blp.response(200, RulesetDetailSchema)
     def get(self, ruleset_id: str) -> Any:
         """The limits in force: every entry with its value, source and marker."""
-        return json_response(resolve_ruleset(ruleset_id, parameter="ruleset_id").as_dict())
+        return resolve_ruleset(ruleset_id, parameter="ruleset_id").as_dict()
 
 
 @blp.route("/adapters")
@@ -47,8 +48,5 @@ class Adapters(MethodView):
     @blp.response(200, AdapterListSchema)
     def get(self) -> Any:
         """Input adapters (with the media types they read) and mapping profiles."""
-        from adapters.profiles import list_profiles
-        from adapters.registry import list_adapters
-
-        return json_response({"adapters": list_adapters(settings().profile_dir),
-                              "profiles": list_profiles(settings().profile_dir)})
+        directory = settings().profile_dir
+        return {"adapters": list_adapters(directory), "profiles": list_profiles(directory)}

@@ -1,20 +1,23 @@
-"""Helpers the views share: the raw body, ruleset lookup, JSON responses, body documentation."""
+"""Helpers the views share: the raw body, a JSON document by its schema, ruleset lookup, body docs."""
 
 from __future__ import annotations
 
 from typing import Any
 
-from flask import Response, current_app, jsonify, request
+from flask import current_app, request
+from marshmallow import Schema, ValidationError
 
 from api.errors import ApiError
-from api.intake.bodies import JSON_MEDIA_TYPE
+from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
 from api.schemas.records import VerifyRequestSchema
 from api.settings import Settings
 from engine import DEFAULT_RULESET, EngineError, Ruleset, builtin_ruleset_ids, load_ruleset
 
 __all__ = [
     "READINGS_BODY_DOC",
-    "json_response",
+    "chosen_ruleset_id",
+    "json_body",
+    "json_body_doc",
     "raw_body",
     "resolve_ruleset",
     "settings",
@@ -62,9 +65,35 @@ def resolve_ruleset(ruleset_id: str | None, *, pointer: str | None = None,
         raise ApiError(500, "bad_ruleset", exc.message) from exc
 
 
-def json_response(data: Any, status: int = 200, headers: dict[str, str] | None = None) -> Response:
-    response = jsonify(data)
-    response.status_code = status
-    for name, value in (headers or {}).items():
-        response.headers[name] = value
-    return response
+def json_body(schema: Schema, *, media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> dict[str, Any]:
+    """The request's JSON document loaded by ``schema``: 415 for another media type, 400 for a
+    document that does not parse, 422 naming every bad field by pointer."""
+    body, media_type, _charset = raw_body()
+    if media_type not in media_types:
+        sent = media_type or "a body without a Content-Type"
+        raise ApiError(415, "unsupported_media_type", f"send {' or '.join(media_types)}, not {sent}",
+                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
+                                "reason": f"expected {media_types[0]}"}],
+                       extra={"choices": list(media_types)})
+    try:
+        loaded: dict[str, Any] = schema.load(read_json_document(body))
+    except ValidationError as exc:
+        raise validation_problem(exc) from None
+    return loaded
+
+
+def json_body_doc(schema: type[Schema], media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> dict[str, Any]:
+    """The OpenAPI ``requestBody`` of a view that reads :func:`json_body`."""
+    return {"required": True, "content": {m: {"schema": schema} for m in media_types}}
+
+
+def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | None, dict[str, str]]:
+    """The ruleset the request names, and where (for the pointer of a 404)."""
+    if query_id and body_id and query_id != body_id:
+        raise ApiError(422, "conflicting_ruleset",
+                       f"the query names ruleset {query_id!r} and the body {body_id!r}; name one",
+                       errors=[{"pointer": "/ruleset", "code": "conflicting_ruleset",
+                                "reason": f"differs from ?ruleset={query_id}"}])
+    if body_id:
+        return body_id, {"pointer": "/ruleset"}
+    return query_id, {"parameter": "ruleset"}

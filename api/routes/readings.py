@@ -1,22 +1,18 @@
 """``POST /v1/jobs/<id>/readings`` and the job's uploads, kept exactly as received.
 
 Invariants:
-- The body is stored (bytes, sha256, size, content type, time) before it is
-  read, in the same transaction as the merge; a body that cannot be taken
-  at all is still stored, with status ``rejected`` and the reasons, and the
-  problem response names its upload id. Nothing a client sent is lost.
+- The body is stored (bytes, sha256, size, content type, time) in the same
+  transaction as the merge; a body that cannot be taken at all is still stored,
+  with status ``rejected`` and the reasons (``g.commit_on_error``), and the
+  problem names its upload id. Nothing a client sent is lost.
 - The job row is locked for the whole post (``repository.lock_job``), so
-  concurrent posts to one job apply in turn.
+  concurrent posts to one job apply in turn. The body is parsed before the lock.
 - The verdicts returned are those of the circuits this upload touched,
   computed over all the job's records (board-level checks need the board).
-- A post with an ``Idempotency-Key`` the organisation has seen is answered
-  with the first response (``Idempotent-Replayed: true``, ``api.http.idempotency``),
-  never merged or stored twice; the same key with a different body is a 409
-  (as the issue asks; the IETF httpapi draft suggests 422). Uploads from before
-  migration 0003 are still found by their per-job key here.
-- Without a key, an exact re-post of the job's latest upload within
-  ``OHMTALLY_DUPLICATE_WINDOW_S`` is answered 200 with ``duplicate_of`` and
-  merges nothing (a logger's blind resend must not double the history).
+- Repeats are decided by :mod:`api.http.idempotency`: a keyed resend is the first
+  answer replayed; a key-less exact re-post of the job's latest upload within
+  ``OHMTALLY_DUPLICATE_WINDOW_S`` is answered with ``duplicate_of`` and merges
+  nothing (a logger's blind resend must not double the history).
 - One transaction: the upload is archived and every accepted value merged,
   or (on any error or a killed process) nothing changes at all.
 """
@@ -24,98 +20,70 @@ Invariants:
 from __future__ import annotations
 
 import hashlib
-import re
 from typing import Any
 
-from flask import Response, request
+from flask import Response, g
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
 
+from api.answers import ReadingsAnswer
 from api.db import get_session
 from api.db.models import Job, Upload
 from api.db.repository import (
-    find_recent_duplicate,
-    find_upload_by_key,
     get_job,
     get_upload,
-    job_records,
+    job_rows,
     list_uploads,
     lock_job,
     merge_items,
+    records_of_rows,
     store_upload,
     upload_circuit_keys,
 )
 from api.errors import ApiError
-from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, commit_with, remember_problem
+from api.http.auth import tenant
+from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key
 from api.http.limits import check_row_count, check_text_limits
 from api.intake.bodies import Intake, read_body
-from api.routes.common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
-from api.routes.verify import ReadingsQuerySchema, verdicts_response
+from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
+from api.routes.verify import ReadingsQuerySchema
 from api.schemas.jobs import ReadingsResponseSchema, UploadListSchema
 from api.webhooks.outbox import emit_readings, outcomes_before
-from engine import NOTICE, verify
+from engine import verify
 
 __all__ = ["blp"]
 
 blp = Blueprint("readings", __name__, url_prefix="/v1", description="Readings into a job; raw uploads")
 
 
-def upload_dict(upload: Upload) -> dict[str, Any]:
-    return {"id": upload.id, "job_id": upload.job_id, "content_type": upload.content_type,
-            "adapter": upload.adapter, "profile": upload.profile, "sha256": upload.sha256,
-            "size": upload.size, "received_at": upload.received_at.isoformat(),
-            "status": upload.status, "accepted": upload.accepted, "rejected": upload.rejected,
-            "href": f"/v1/jobs/{upload.job_id}/uploads/{upload.id}"}
+def _duplicate(job: Job, earlier: Upload, stored_records: list[Any]) -> ReadingsAnswer:
+    """The answer to a blind resend: the earlier upload's, recomputed on the job as it stands."""
+    touched = upload_circuit_keys(get_session(), earlier)
+    verdicts = verify(stored_records, resolve_ruleset(job.ruleset), only=touched)
+    return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected, upload=earlier,
+                          verdicts=verdicts, duplicate_of=earlier.id)
 
 
-IDEMPOTENCY_HEADER = "Idempotency-Key"
-_KEY = re.compile(r"^[\x21-\x7e]{1,200}$")  # visible ASCII, as a header value can carry safely
-_KEY_DOC = IDEMPOTENCY_PARAMETER_DOC
-
-
-def _idempotency_key() -> str | None:
-    key = request.headers.get(IDEMPOTENCY_HEADER)
-    if key is None:
-        return None
-    if not _KEY.match(key):
-        raise ApiError(400, "bad_idempotency_key",
-                       "the Idempotency-Key must be 1–200 visible ASCII characters",
-                       errors=[{"parameter": IDEMPOTENCY_HEADER, "code": "bad_idempotency_key",
-                                "reason": "1–200 visible ASCII characters"}])
-    return key
-
-
-def _replay(job: Job, earlier: Upload, body: bytes, *, duplicate: bool = False) -> Response:
-    session = get_session()
-    ref = {"id": earlier.id, "sha256": earlier.sha256, "size": earlier.size}
-    if hashlib.sha256(body).hexdigest() != earlier.sha256:
-        raise ApiError(409, "idempotency_key_reused",
-                       f"upload {earlier.id} of job {job.id} used this Idempotency-Key with another body",
-                       errors=[{"parameter": IDEMPOTENCY_HEADER, "code": "idempotency_key_reused",
-                                "reason": "a key names one body"}], extra={"upload": ref})
-    if earlier.status != "merged":
-        raise ApiError(422, "rejected_earlier", f"upload {earlier.id} with this key was refused: "
-                       "nothing in it was taken", errors=earlier.rejected, extra={"upload": ref},
-                       headers={"Idempotent-Replayed": "true"})
-    touched = upload_circuit_keys(session, earlier)
-    verdicts = verify(job_records(session, job), resolve_ruleset(job.ruleset), only=touched)
-    out: dict[str, Any] = {"accepted": earlier.accepted, "rejected": earlier.rejected, "upload": ref,
-                           "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}
-    if duplicate:
-        return verdicts_response({**out, "duplicate_of": earlier.id})
-    return verdicts_response(out, headers={"Idempotent-Replayed": "true"})
+def _refuse(upload: Upload, problem: ApiError) -> ApiError:
+    """Keep the refused body as a rejected upload (committed anyway) and name it in the problem."""
+    upload.rejected = problem.errors
+    problem.extra["upload"] = {"id": upload.id, "sha256": upload.sha256, "size": upload.size}
+    g.commit_on_error = True
+    return problem
 
 
 @blp.route("/jobs/<int:job_id>/readings")
 class JobReadings(MethodView):
     @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
-    @blp.doc(requestBody=READINGS_BODY_DOC, parameters=[_KEY_DOC])
+    @blp.doc(requestBody=READINGS_BODY_DOC, parameters=[IDEMPOTENCY_PARAMETER_DOC])
     @blp.response(200, ReadingsResponseSchema)
     def post(self, job_id: int, **query: Any) -> Any:
         """Merge readings into the job (per circuit and field, later wins; history kept)."""
+        if query.get("ruleset"):  # an unknown name is a 404 before anything is read or stored
+            resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
-        key = _idempotency_key()
+        key = request_key()
         # The body is read before the job is locked (the lock is the database's one writer
         # lock on SQLite); a body that cannot be read is still stored, below, as rejected.
         intake: Intake | None = None
@@ -127,53 +95,44 @@ class JobReadings(MethodView):
         except ApiError as problem:
             unreadable = problem
         session = get_session()
-        job = lock_job(session, job_id)
-        if key is not None:
-            earlier = find_upload_by_key(session, job, key)
-            if earlier is not None:
-                return _replay(job, earlier, body)
+        job = lock_job(session, tenant(), job_id)
+        stored = job_rows(session, job.id)
         content_type = _full_content_type(media_type, charset)
         if key is None:
-            same = find_recent_duplicate(session, job, sha256=hashlib.sha256(body).hexdigest(),
-                                         content_type=content_type, window_s=settings().duplicate_window_s)
+            same = recent_duplicate(session, job, sha256=hashlib.sha256(body).hexdigest(),
+                                    content_type=content_type, window_s=settings().duplicate_window_s)
             if same is not None:
-                return _replay(job, same, body, duplicate=True)
+                return _duplicate(job, same, records_of_rows(stored))
         upload = store_upload(session, job, body=body, content_type=content_type,
                               adapter=intake.adapter if intake is not None else query.get("adapter"),
-                              profile=query.get("profile"),
-                              idempotency_key=key)
+                              profile=query.get("profile"), idempotency_key=key)
+        if unreadable is not None:
+            raise _refuse(upload, unreadable)
+        assert intake is not None
         try:
-            if unreadable is not None:
-                raise unreadable
-            assert intake is not None
-            if intake.ruleset and intake.ruleset != job.ruleset:
+            named, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
+            if named and named != job.ruleset:
                 raise ApiError(422, "ruleset_mismatch",
-                               f"job {job.id} is verified under {job.ruleset!r}; the body names "
-                               f"{intake.ruleset!r} (change the job, or leave ruleset out)",
-                               errors=[{"pointer": "/ruleset", "code": "ruleset_mismatch",
+                               f"job {job.id} is verified under {job.ruleset!r}; the request names "
+                               f"{named!r} (change the job, or leave ruleset out)",
+                               errors=[{**where, "code": "ruleset_mismatch",
                                         "reason": f"the job's ruleset is {job.ruleset!r}"}])
             check_row_count(intake.items)
         except ApiError as problem:
-            upload.rejected = problem.errors
-            problem.extra["upload"] = {"id": upload.id, "sha256": upload.sha256, "size": upload.size}
-            remember_problem(problem)
-            session.commit()  # the body is kept even though nothing in it was taken
-            raise
+            raise _refuse(upload, problem) from None
         ruleset = resolve_ruleset(job.ruleset)
-        before = outcomes_before(session, job, ruleset)  # verdict.changed compares with these
-        accepted, touched = merge_items(session, job, upload, intake.items)
-        upload.status, upload.accepted, upload.rejected = "merged", accepted, intake.rejected
-        wanted = set(touched)
+        # verdict.changed compares with the outcomes before the merge (None: nobody listens)
+        before = outcomes_before(session, job, ruleset, records_of_rows(stored))
+        merged = merge_items(session, job, upload, intake.items, stored)
+        upload.status, upload.accepted, upload.rejected = "merged", merged.accepted, intake.rejected
+        wanted = set(merged.touched)
         # Every circuit sees the whole job (board-level checks), but only the touched ones are
         # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
-        all_verdicts = verify(job_records(session, job), ruleset, only=None if before is not None else wanted)
-        emit_readings(session, job, upload, touched=touched, before=before, after=all_verdicts)
+        all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted)
         # the webhook events commit with the merge, or neither does
-        verdicts = [v for v in all_verdicts if v.key in wanted]
-        return commit_with(session, verdicts_response({  # the answer is committed with the merge
-            "accepted": accepted, "rejected": intake.rejected,
-            "upload": {"id": upload.id, "sha256": upload.sha256, "size": upload.size},
-            "verdicts": [v.as_dict() for v in verdicts], "notice": NOTICE}))
+        emit_readings(session, job, upload, touched=merged.touched, before=before, after=all_verdicts)
+        return ReadingsAnswer(accepted=merged.accepted, rejected=intake.rejected, upload=upload,
+                              verdicts=[v for v in all_verdicts if v.key in wanted])
 
 
 def _full_content_type(media_type: str, charset: str | None) -> str:
@@ -188,9 +147,8 @@ class JobUploads(MethodView):
     def get(self, job_id: int) -> Any:
         """Every body posted to the job, oldest first, with what was taken and rejected."""
         session = get_session()
-        job = get_job(session, job_id)
-        uploads = [upload_dict(u) for u in list_uploads(session, job)]
-        return json_response({"job_id": job.id, "uploads": uploads})
+        job = get_job(session, tenant(), job_id)
+        return {"job_id": job.id, "uploads": list_uploads(session, job)}
 
 
 @blp.route("/jobs/<int:job_id>/uploads/<int:upload_id>")
@@ -200,7 +158,7 @@ class JobUpload(MethodView):
     def get(self, job_id: int, upload_id: int) -> Any:
         """The raw bytes of one upload, as received."""
         session = get_session()
-        upload = get_upload(session, get_job(session, job_id), upload_id)
+        upload = get_upload(session, get_job(session, tenant(), job_id), upload_id)
         response = Response(upload.body, status=200, content_type=upload.content_type)
         response.headers["ETag"] = f'"{upload.sha256}"'
         response.headers["Content-Disposition"] = f'attachment; filename="upload-{upload.id}"'

@@ -4,23 +4,28 @@ from __future__ import annotations
 
 from typing import Any
 
-import orjson
 from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE, Schema, fields, validate
 
-from api.answers import verify_body
-from api.errors import ApiError
+from api.answers import VerifyAnswer, verify_body
 from api.http.limits import check_row_count, check_text_limits
 from api.intake.bodies import read_body
-from api.render import FAIL_ON_CHOICES, FORMATS, MEDIA_TYPES, WARN_ON_CHOICES, policy_from_names, render
-from api.routes.common import READINGS_BODY_DOC, json_response, raw_body, resolve_ruleset, settings
+from api.render import (
+    FAIL_ON_CHOICES,
+    FORMATS,
+    MEDIA_TYPES,
+    WARN_ON_CHOICES,
+    Treatment,
+    policy_from_names,
+    render,
+)
+from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
 from api.schemas.verdicts import VerifyResponseSchema
-from engine import verify
-from engine.verify import collector_paused
+from engine import NOTICE, verify
 
-__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp", "verdicts_response"]
+__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp"]
 
 blp = Blueprint("verify", __name__, url_prefix="/v1", description="Stateless verification")
 
@@ -58,28 +63,6 @@ _FORMATS_DOC: dict[int, Any] = {200: {
                                     "description": "the safety caution, also in the JSON body's notice"}}}}
 
 
-def verdicts_response(data: dict[str, Any], headers: dict[str, str] | None = None) -> Response:
-    """``json_response`` for bodies of verdicts, encoded by orjson: the same JSON document, but
-    a 48-circuit answer is ~300 kB and the stdlib encoder took a tenth of the request (tests/bench)."""
-    try:
-        encoded = orjson.dumps(data, option=orjson.OPT_NON_STR_KEYS)
-    except TypeError:  # a type orjson does not know: Flask's provider knows more
-        return json_response(data, headers=headers)
-    return Response(encoded, status=200, mimetype="application/json", headers=headers)
-
-
-def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | None, dict[str, str]]:
-    """The ruleset the request names, and where (for the pointer of a 404)."""
-    if query_id and body_id and query_id != body_id:
-        raise ApiError(422, "conflicting_ruleset",
-                       f"the query names ruleset {query_id!r} and the body {body_id!r}; name one",
-                       errors=[{"pointer": "/ruleset", "code": "conflicting_ruleset",
-                                "reason": f"differs from ?ruleset={query_id}"}])
-    if body_id:
-        return body_id, {"pointer": "/ruleset"}
-    return query_id, {"parameter": "ruleset"}
-
-
 @blp.route("/verify")
 class Verify(MethodView):
     @blp.arguments(VerifyQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
@@ -101,13 +84,13 @@ class Verify(MethodView):
         check_row_count(intake.items)
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
-        records = intake.records()
-        with collector_paused():  # the body is fresh acyclic dicts: see engine.verify.collector_paused
-            answer = verify_body(ruleset, verify(records, ruleset), intake.rejected)
+        answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset),
+                              rejected=intake.rejected)
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
-        failing = {FAILING_HEADER: str(policy.failing_circuits(answer["verdicts"])),
-                   NOTICE_HEADER: answer["notice"]}
+        failing = sum(1 for v in answer.verdicts if policy.treat(v.outcome.value) is Treatment.FAIL)
+        headers = {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE}
         if query.get("format") is None:
-            return verdicts_response(answer, headers=failing)
-        text, media_type = render(answer, query["format"], policy)
-        return Response(text, status=200, content_type=media_type, headers=failing)
+            return answer, headers
+        text, media_type = render(verify_body(ruleset, answer.verdicts, answer.rejected), query["format"],
+                                  policy)
+        return Response(text, status=200, content_type=media_type, headers=headers)

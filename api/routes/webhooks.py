@@ -17,16 +17,16 @@ from typing import Any
 from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
-from marshmallow import RAISE, ValidationError
+from marshmallow import RAISE
 from sqlalchemy import delete, select
 from sqlalchemy.orm import Session
 
 from api.db import get_session
 from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription
-from api.db.repository import decode_cursor, encode_cursor, local_organisation
+from api.db.repository import decode_cursor, encode_cursor
 from api.errors import ApiError
-from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
-from api.routes.common import json_response, raw_body, settings
+from api.http.auth import require_scope, tenant
+from api.routes.common import json_body, json_body_doc, settings
 from api.schemas.webhooks import (
     DeliveryListSchema,
     DeliveryQuerySchema,
@@ -38,66 +38,36 @@ from api.schemas.webhooks import (
 from api.webhooks.signing import new_secret
 from api.webhooks.targets import TargetRefused, resolve_target
 
-__all__ = ["blp", "organisation_id"]
+__all__ = ["blp"]
 
 blp = Blueprint("webhooks", __name__, url_prefix="/v1", description="Webhook subscriptions and deliveries")
 
 
-def _admin(view: Any) -> Any:
-    """Making or removing a subscription needs the ``admin`` scope: it sends data off-site."""
-    try:
-        from api.http.auth import require_scope
-    except ImportError:  # a build without the key module
-        return view
-    return require_scope("admin")(view)
-
-
-def organisation_id(session: Session) -> int:
-    """The request's organisation: the API key's (api.http.auth), else the seeded ``local`` one."""
-    try:
-        from api.http.auth import current_organisation_id
-    except ImportError:  # a build without the key module: one organisation
-        return local_organisation(session).id
-    found = current_organisation_id()
-    return found if found is not None else local_organisation(session).id
+_admin = require_scope("admin")  # making or removing a subscription: it sends data off-site
 
 
 def _subscription_dict(row: WebhookSubscription) -> dict[str, Any]:
     return {"id": row.id, "url": row.url, "events": list(row.events), "description": row.description,
-            "created_at": row.created_at.isoformat(), "deliveries_href": f"/v1/webhooks/{row.id}/deliveries"}
+            "created_at": row.created_at, "deliveries_href": f"/v1/webhooks/{row.id}/deliveries"}
 
 
 def _get(session: Session, subscription_id: int) -> WebhookSubscription:
     row = session.get(WebhookSubscription, subscription_id)
-    if row is None or row.organisation_id != organisation_id(session):
+    if row is None or row.organisation_id != tenant():
         raise ApiError(404, "webhook_not_found", f"there is no webhook subscription {subscription_id}",
                        errors=[{"parameter": "webhook_id", "code": "webhook_not_found",
                                 "reason": f"no subscription with id {subscription_id}"}])
     return row
 
 
-def _create_body() -> dict[str, Any]:
-    body, media_type, _charset = raw_body()
-    if media_type != JSON_MEDIA_TYPE:
-        raise ApiError(415, "unsupported_media_type", "send application/json",
-                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
-                                "reason": "expected application/json"}], extra={"choices": [JSON_MEDIA_TYPE]})
-    try:
-        loaded: dict[str, Any] = SubscriptionCreateSchema().load(read_json_document(body))
-    except ValidationError as exc:
-        raise validation_problem(exc) from None
-    return loaded
-
-
 @blp.route("/webhooks")
 class Webhooks(MethodView):
-    @blp.doc(requestBody={"required": True,
-                          "content": {JSON_MEDIA_TYPE: {"schema": SubscriptionCreateSchema}}})
+    @blp.doc(requestBody=json_body_doc(SubscriptionCreateSchema))
     @blp.response(201, SubscriptionCreatedSchema)
     @_admin
     def post(self) -> Any:
         """Subscribe a URL to events; the answer shows the signing secret, once."""
-        data = _create_body()
+        data = json_body(SubscriptionCreateSchema())
         try:
             resolve_target(data["url"], allow_private=settings().webhook_allow_private)
         except TargetRefused as refused:
@@ -105,23 +75,22 @@ class Webhooks(MethodView):
                            errors=[{"pointer": "/url", "code": refused.code, "reason": refused.reason}]
                            ) from None
         session = get_session()
-        row = WebhookSubscription(organisation_id=organisation_id(session), url=data["url"],
+        row = WebhookSubscription(organisation_id=tenant(), url=data["url"],
                                   events=sorted(set(data["events"])),
                                   secret=data.get("secret") or new_secret(),
                                   description=data.get("description"))
         session.add(row)
-        session.commit()
-        return json_response({**_subscription_dict(row), "secret": row.secret}, 201,
-                             {"Location": f"/v1/webhooks/{row.id}"})
+        session.flush()
+        return {**_subscription_dict(row), "secret": row.secret}, 201, {"Location": f"/v1/webhooks/{row.id}"}
 
     @blp.response(200, SubscriptionListSchema)
     def get(self) -> Any:
         """The organisation's subscriptions (without their secrets)."""
         session = get_session()
         query = (select(WebhookSubscription)
-                 .where(WebhookSubscription.organisation_id == organisation_id(session))
+                 .where(WebhookSubscription.organisation_id == tenant())
                  .order_by(WebhookSubscription.id))
-        return json_response({"items": [_subscription_dict(r) for r in session.scalars(query)]})
+        return {"items": [_subscription_dict(r) for r in session.scalars(query)]}
 
 
 @blp.route("/webhooks/<int:webhook_id>")
@@ -129,7 +98,7 @@ class Webhook(MethodView):
     @blp.response(200, SubscriptionSchema)
     def get(self, webhook_id: int) -> Any:
         """One subscription (without its secret)."""
-        return json_response(_subscription_dict(_get(get_session(), webhook_id)))
+        return _subscription_dict(_get(get_session(), webhook_id))
 
     @blp.response(204)
     @_admin
@@ -139,7 +108,6 @@ class Webhook(MethodView):
         row = _get(session, webhook_id)
         session.execute(delete(WebhookDelivery).where(WebhookDelivery.subscription_id == row.id))
         session.delete(row)
-        session.commit()
         return Response(status=204)
 
 
@@ -163,5 +131,4 @@ class WebhookDeliveries(MethodView):
         found = list(session.execute(select_rows))
         page = found[:limit]
         cursor = encode_cursor(page[-1][0].id) if len(found) > limit and page else None
-        return json_response({"items": [d.as_dict(e) for d, e in page], "next_cursor": cursor,
-                              "limit": limit})
+        return {"items": [d.as_dict(e) for d, e in page], "next_cursor": cursor, "limit": limit}

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from marshmallow import INCLUDE, RAISE, Schema, fields
 
+from api.schemas.fields import Prepared
 from api.schemas.verdicts import RulesetRefSchema
 
 __all__ = [
@@ -71,5 +72,6 @@ class AdapterListSchema(Schema):
     class Meta:
         unknown = RAISE
 
-    adapters = fields.List(fields.Nested(AdapterSchema), required=True)
-    profiles = fields.List(fields.Nested(ProfileSchema), required=True)
+    # plug-ins may say more than these fields: their entries are answered as they are
+    adapters = Prepared(fields.Nested(AdapterSchema), dict, required=True)
+    profiles = Prepared(fields.Nested(ProfileSchema), dict, required=True)

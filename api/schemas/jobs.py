@@ -1,10 +1,17 @@
-"""Jobs (site visits), their merged circuits with field history, uploads and readings responses."""
+"""Jobs (site visits), their merged circuits with field history, uploads and readings answers.
+
+The response schemas dump what the views return (``Job`` and ``Upload`` rows, the
+answers of :mod:`api.answers`); they are also the OpenAPI document's description.
+"""
 
 from __future__ import annotations
 
-from marshmallow import RAISE, Schema, fields, validate
+from typing import Any
 
-from api.schemas.verdicts import RejectedSchema, RulesetRefSchema, SummarySchema, VerdictSchema
+from marshmallow import RAISE, Schema, fields, post_dump, validate
+
+from api.schemas.verdicts import VerifyResponseSchema, notice_field, rejected_list, verdict_list
+from engine import record_to_dict
 
 __all__ = [
     "CircuitStateSchema",
@@ -38,7 +45,7 @@ class JobCreateSchema(_Strict):
 
 class JobSchema(_Strict):
     id = fields.Integer(required=True)
-    organisation = fields.String(required=True)
+    organisation = fields.String(required=True, attribute="organisation.slug")
     reference = fields.String(required=True)
     site = fields.String(required=True)
     ruleset = fields.String(required=True)
@@ -75,13 +82,20 @@ class CircuitStateSchema(_Strict):
     circuit = fields.String(required=True)
     external_ref = fields.String(required=True, allow_none=True,
                                  metadata={"description": "the circuit's id in the caller's system"})
-    record = fields.Dict(required=True, metadata={"description": "the merged circuit record"})
+    record = fields.Function(lambda state: record_to_dict(state.record), required=True,
+                             metadata={"type": "object", "description": "the merged circuit record"})
     updated_at = fields.DateTime(required=True)
     upload_id = fields.Integer(required=True, allow_none=True,
                                metadata={"description": "the upload that last changed it"})
     history = fields.Dict(keys=fields.String(), values=fields.List(fields.Nested(HistoryEntrySchema)),
                           metadata={"description": "with ?history=true: every value of each field, "
                                                    "oldest first"})
+
+    @post_dump
+    def _history_only_when_asked(self, data: dict[str, Any], **_kwargs: Any) -> dict[str, Any]:
+        if data.get("history") is None:
+            data.pop("history", None)
+        return data
 
 
 class CircuitsQuerySchema(_Strict):
@@ -110,8 +124,9 @@ class UploadSchema(_Strict):
     received_at = fields.DateTime(required=True)
     status = fields.String(required=True, validate=validate.OneOf(("merged", "rejected")))
     accepted = fields.Integer(required=True)
-    rejected = fields.List(fields.Nested(RejectedSchema), required=True)
-    href = fields.String(required=True, metadata={"description": "the raw bytes as received"})
+    rejected = rejected_list()
+    href = fields.Function(lambda upload: f"/v1/jobs/{upload.job_id}/uploads/{upload.id}", required=True,
+                           metadata={"type": "string", "description": "the raw bytes as received"})
 
 
 class UploadListSchema(_Strict):
@@ -121,22 +136,26 @@ class UploadListSchema(_Strict):
 
 class ReadingsResponseSchema(_Strict):
     accepted = fields.Integer(required=True, metadata={"description": "field values merged"})
-    rejected = fields.List(fields.Nested(RejectedSchema), required=True)
+    rejected = rejected_list()
     upload = fields.Nested(UploadRefSchema, required=True)
-    verdicts = fields.List(fields.Nested(VerdictSchema), required=True,
-                           metadata={"description": "verdicts of the circuits this upload touched"})
-    notice = fields.String(required=True)
+    verdicts = verdict_list(metadata={"description": "verdicts of the circuits this upload touched"})
+    notice = notice_field()
     duplicate_of = fields.Integer(metadata={
         "description": "present when this exact body was the job's latest upload moments ago: "
                        "nothing merged; the answer is that upload's"})
 
+    @post_dump
+    def _duplicate_only_when_so(self, data: dict[str, Any], **_kwargs: Any) -> dict[str, Any]:
+        if data.get("duplicate_of") is None:
+            data.pop("duplicate_of", None)
+        return data
 
-class JobVerdictsSchema(_Strict):
+
+class JobVerdictsSchema(VerifyResponseSchema):
     job_id = fields.Integer(required=True)
-    ruleset = fields.Nested(RulesetRefSchema, required=True)
-    summary = fields.Nested(SummarySchema, required=True)
-    verdicts = fields.List(fields.Nested(VerdictSchema), required=True)
-    rejected = fields.List(fields.Nested(RejectedSchema), required=True)
-    notice = fields.String(required=True)
+
+    class Meta:
+        ordered = True
+        unknown = RAISE
 
 

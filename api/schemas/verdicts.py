@@ -1,10 +1,21 @@
-"""Verdicts and the verify response body (``api.answers.verify_body``), for the OpenAPI document."""
+"""Verdicts and the verify answer: the OpenAPI document's description and the serialiser in one.
+
+Invariants:
+- :class:`VerifyResponseSchema` dumps an ``api.answers.VerifyAnswer``: the ruleset's
+  summary, counts by outcome, the verdicts, what was rejected and the safety notice.
+- Verdicts serialise through their own ``as_dict`` (:class:`api.schemas.fields.Prepared`);
+  :class:`VerdictSchema` describes exactly that shape, and every answer in the tests is
+  validated against the served document.
+"""
 
 from __future__ import annotations
 
+from typing import Any
+
 from marshmallow import RAISE, Schema, fields, validate
 
-from engine import CHECK_IDS
+from api.schemas.fields import Prepared
+from engine import CHECK_IDS, NOTICE, summarise
 
 __all__ = [
     "CheckSchema",
@@ -84,9 +95,29 @@ class SummarySchema(_Strict):
     rejected = fields.Integer(required=True)
 
 
+def verdict_list(**kwargs: Any) -> Prepared:
+    """The ``verdicts`` member of an answer: engine verdicts, each as its ``as_dict()``."""
+    return Prepared(fields.Nested(VerdictSchema), lambda v: v.as_dict(), required=True, **kwargs)
+
+
+def rejected_list(**kwargs: Any) -> Prepared:
+    """The ``rejected`` member: each entry as recorded (pointer or line, code, reason …)."""
+    return Prepared(fields.Nested(RejectedSchema), dict, required=True, **kwargs)
+
+
+def notice_field() -> fields.Constant[str]:
+    return fields.Constant(NOTICE, required=True, metadata={
+        "description": "the safety caution: a decision aid on recorded readings; the person "
+                       "who signs decides; local codes and licensed practice prevail"})
+
+
 class VerifyResponseSchema(_Strict):
     ruleset = fields.Nested(RulesetRefSchema, required=True)
-    summary = fields.Nested(SummarySchema, required=True)
-    verdicts = fields.List(fields.Nested(VerdictSchema), required=True)
-    rejected = fields.List(fields.Nested(RejectedSchema), required=True)
-    notice = fields.String(required=True, metadata={"description": "the safety caution"})
+    summary = fields.Method("_summary", required=True,
+                            metadata={"description": "circuits counted by outcome, and rejected inputs"})
+    verdicts = verdict_list()
+    rejected = rejected_list()
+    notice = notice_field()
+
+    def _summary(self, answer: Any) -> dict[str, int]:
+        return {**summarise(answer.verdicts), "rejected": len(answer.rejected)}

@@ -5,6 +5,7 @@ from __future__ import annotations
 from marshmallow import RAISE, Schema, fields, validate
 
 from api.db.models import DELIVERY_STATUSES, EVENT_TYPES
+from api.schemas.fields import Prepared
 
 __all__ = [
     "DeliveryListSchema",
@@ -73,6 +74,6 @@ class DeliverySchema(_Strict):
 
 
 class DeliveryListSchema(_Strict):
-    items = fields.List(fields.Nested(DeliverySchema), required=True)
+    items = Prepared(fields.Nested(DeliverySchema), dict, required=True)  # WebhookDelivery.as_dict
     next_cursor = fields.String(required=True, allow_none=True)
     limit = fields.Integer(required=True)

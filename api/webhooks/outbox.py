@@ -24,8 +24,7 @@ from sqlalchemy import event, select
 from sqlalchemy.orm import Session, SessionTransaction
 
 from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription, utcnow
-from api.db.repository import job_records
-from engine import NOTICE, Ruleset, Verdict, verify
+from engine import NOTICE, CircuitRecord, Ruleset, Verdict, verify
 
 __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", "outcomes_before",
            "subscribed"]
@@ -72,11 +71,12 @@ def subscribed(session: Session, organisation_id: int, event_type: str) -> bool:
     return bool(_subscriptions(session, organisation_id, event_type))
 
 
-def outcomes_before(session: Session, job: Job, ruleset: Ruleset) -> Outcomes | None:
-    """The job's outcomes from its stored records, before a merge; ``None`` if nobody listens."""
+def outcomes_before(session: Session, job: Job, ruleset: Ruleset,
+                    records: Sequence[CircuitRecord]) -> Outcomes | None:
+    """The job's outcomes from its stored ``records``, before a merge; ``None`` if nobody listens."""
     if not subscribed(session, job.organisation_id, "verdict.changed"):
         return None
-    return outcomes(verify(job_records(session, job), ruleset))
+    return outcomes(verify(records, ruleset))
 
 
 def emit(session: Session, *, organisation_id: int, job_id: int | None, event_type: str,

@@ -12,6 +12,8 @@ from __future__ import annotations
 import json
 import time
 from collections.abc import Callable
+from datetime import datetime
+from typing import Any
 
 import pytest
 from flask import Flask
@@ -42,13 +44,22 @@ def _history(client: FlaskClient, job_id: int) -> list[dict[str, object]]:
             for c in circuits]
 
 
+def _replayed_at(response: Any) -> datetime | None:
+    """The replay signal: ``Ohmtally-Replay`` names, in RFC 3339 UTC, when the first answer was given."""
+    value = response.headers.get("Ohmtally-Replay")
+    if value is None:
+        return None
+    assert value.endswith("Z"), value
+    return datetime.fromisoformat(value.replace("Z", "+00:00"))
+
+
 def test_job_create_replays_the_first_answer(auth_client: FlaskClient) -> None:
     """POST /v1/jobs twice with one key: the same 201 body and Location, one job; another body → 409."""
     first = auth_client.post("/v1/jobs", json=JOB, headers={"Idempotency-Key": "job-1"})
     again = auth_client.post("/v1/jobs", json=JOB, headers={"Idempotency-Key": "job-1"})
     assert first.status_code == again.status_code == 201
     assert again.get_data() == first.get_data() and again.headers["Location"] == first.headers["Location"]
-    assert again.headers["Idempotent-Replayed"] == "true"
+    assert _replayed_at(again) is not None and "Ohmtally-Replay" not in first.headers
     listed = auth_client.get("/v1/jobs").get_json()["items"]
     assert [j["id"] for j in listed] == [first.get_json()["id"]]
     clash = auth_client.post("/v1/jobs", json={**JOB, "site": "elsewhere"},
@@ -94,7 +105,7 @@ def test_a_refused_body_is_replayed_as_refused(auth_client: FlaskClient) -> None
     again = auth_client.post(f"/v1/jobs/{job_id}/readings", data=bad, content_type="application/json",
                              headers={"Idempotency-Key": "bad-1"})
     assert first.status_code == again.status_code == 422
-    assert again.get_data() == first.get_data() and again.headers["Idempotent-Replayed"] == "true"
+    assert again.get_data() == first.get_data() and _replayed_at(again) is not None
     uploads = auth_client.get(f"/v1/jobs/{job_id}/uploads").get_json()["uploads"]
     assert [u["status"] for u in uploads] == ["rejected"]
 

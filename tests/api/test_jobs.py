@@ -195,7 +195,7 @@ def test_idempotency_key_resend_is_answered_not_merged_twice(client: FlaskClient
     again = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data=raw, content_type="text/plain",
                         headers=headers)
     assert first.status_code == again.status_code == 200
-    assert again.headers["Idempotent-Replayed"] == "true" and "Idempotent-Replayed" not in first.headers
+    assert again.headers["Ohmtally-Replay"].endswith("Z") and "Ohmtally-Replay" not in first.headers
     assert again.get_json() == first.get_json()
     assert len(client.get(f"/v1/jobs/{job}/uploads").get_json()["uploads"]) == 1
     history = client.get(f"/v1/jobs/{job}/circuits?history=true").get_json()["circuits"][0]["history"]

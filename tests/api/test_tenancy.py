@@ -119,6 +119,6 @@ def test_idempotency_keys_are_per_organisation(auth_app: Flask) -> None:
     first = client.post("/v1/jobs", json=body, headers={**alice, "Idempotency-Key": "k-1"})
     other = client.post("/v1/jobs", json=body, headers={**bob, "Idempotency-Key": "k-1"})
     assert first.status_code == other.status_code == 201
-    assert "Idempotent-Replayed" not in other.headers
+    assert "Ohmtally-Replay" not in other.headers
     assert first.get_json()["id"] != other.get_json()["id"]
     assert first.get_json()["organisation"] != other.get_json()["organisation"]

@@ -29,6 +29,7 @@ import pytest
 from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from api.cli.demo import free_port, wait_healthy
 from api.db import upgrade
@@ -226,12 +227,11 @@ def test_events_commit_with_the_change_or_not_at_all(hooks: FlaskClient, hook_ap
         {"board": "DB1", "circuit": "1", "polarity_ok": True}]})
     assert refused.status_code == 422  # ruleset_mismatch: the body is kept, nothing merged
 
-    readings = sys.modules["api.routes.readings"]  # the package re-exports a blueprint by that name
-
     def broken_commit(*_args: Any, **_kwargs: Any) -> Any:
         raise RuntimeError("the database went away before the commit")
 
-    monkeypatch.setattr(readings, "commit_with", broken_commit)
+    # the request's unit of work commits after the answer is built (api.db.session)
+    monkeypatch.setattr(Session, "commit", broken_commit)
     with pytest.raises(RuntimeError, match="went away"):  # TESTING: the test client re-raises it
         hooks.post(f"/v1/jobs/{job}/readings", json={"circuits": [
             {"board": "DB1", "circuit": "1", "polarity_ok": True}]})
