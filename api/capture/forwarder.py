@@ -7,9 +7,10 @@ Invariants:
 - Batches go in spool order; a batch being retried holds back the ones after
   it, so the job sees readings in the order the meter sent them (later
   readings win on the server, so order matters).
-- A per-line rejection inside a 2xx is recorded against its spool row (line n
-  of the body is the batch's n-th row); a whole-batch 4xx marks every row of
-  the batch rejected, with the server's code and detail, and moves on.
+- A per-line rejection inside a 2xx is recorded against its spool row
+  (:meth:`BatchRows.row_at` maps a body line to its row, past the context
+  directives the body carries); a whole-batch 4xx marks every row of the
+  batch rejected, with the server's code and detail, and moves on.
 - :meth:`Forwarder.step` does one unit of work and returns what happened; it
   never sleeps. :func:`run_forwarder` is the loop that waits (through an
   injected ``wait``), so the logic is tested without threads or a real clock.
@@ -122,7 +123,7 @@ class Forwarder:
         by_line: dict[int, tuple[str, str]] = {}
         for item in rejected:
             number = item.get("line")
-            if isinstance(number, int) and 1 <= number <= len(batch.rows) and number not in by_line:
+            if isinstance(number, int) and number not in by_line:
                 by_line[number] = (str(item.get("code") or "rejected"), str(item.get("reason") or ""))
         self.spool.settle_sent(batch, by_line)
         verdicts = tuple(v for v in body.get("verdicts") or [] if isinstance(v, dict))

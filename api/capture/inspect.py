@@ -30,7 +30,8 @@ def show_spool(spool: Spool, *, as_json: bool = False, stream: IO[str] | None = 
         doc = {"spool": str(spool.path), "job": meta.get("job"), "api": meta.get("api"),
                "spool_id": meta.get("spool_id"), "counts": counts.as_dict(),
                "lines": [{"id": r.id, "state": r.state, "text": r.text, "read_at": _when(r.read_at),
-                          "batch": r.batch, "code": r.code, "reason": r.reason} for r in waiting],
+                          "batch": r.batch, "code": r.code, "reason": r.reason, "context": r.ctx_before}
+                         for r in waiting],
                "events": spool.events()}
         out.write(json.dumps(doc, indent=2) + "\n")
         return

@@ -24,6 +24,7 @@ from types import FrameType
 from typing import Any
 
 from ..cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK
+from .context import ContextKeeper
 from .forwarder import BatchRejected, BatchRetrying, BatchSent, Forwarder, ForwardEvent, Halted, run_forwarder
 from .spool import Spool
 from .status import Reporter, Tally, verdict_line
@@ -193,6 +194,11 @@ def run_session(*, spool: Spool, job: str, api: str, api_key: str | None, port: 
     transport = HttpTransport(api, job, api_key=api_key, profile=profile)
     forwarder = Forwarder(spool=spool, transport=transport, max_lines=batch_lines, linger_s=linger_s)
     reporter = _reporter(mode)
+    if profile:
+        keeper = ContextKeeper(profile)
+        spool.keep_context_with(keeper)
+        if keeper.note:
+            reporter.event("context", keeper.note)
 
     def start_reader(tally: Tally, stop: threading.Event, wake: Callable[[], None]) -> threading.Thread:
         assert port is not None

@@ -16,6 +16,12 @@ Invariants:
   is kept as the last one used (``--replay`` without ``--api`` uses it).
 - Nothing is deleted. Rejected lines stay, with the server's code and reason,
   until a person replays them (``--replay``).
+- Every line is stored with the context in force before and after it (a
+  ``#%`` directive line, :mod:`api.capture.context`), in the same transaction
+  as the line, so a batch can always carry its board and circuit: after a
+  pause longer than the linger, a reconnect, a restart, or a ``--replay`` of
+  lines far apart. A spool written before contexts were kept gets them
+  rebuilt, in order, when it is opened for writing.
 """
 
 from __future__ import annotations
@@ -28,6 +34,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+
+from .context import EMPTY_CONTEXT, ContextKeeper
 
 __all__ = [
     "BatchRows",
@@ -52,7 +60,9 @@ CREATE TABLE IF NOT EXISTS lines (
     batch TEXT,
     code TEXT,
     reason TEXT,
-    sent_at REAL
+    sent_at REAL,
+    ctx_before TEXT,
+    ctx_after TEXT
 );
 CREATE INDEX IF NOT EXISTS lines_state ON lines (state, id);
 CREATE TABLE IF NOT EXISTS events (
@@ -85,6 +95,8 @@ class SpoolRow:
     batch: str | None = None
     code: str | None = None
     reason: str | None = None
+    ctx_before: str | None = None  # the directive line in force before this line (None: not known)
+    ctx_after: str | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -94,11 +106,33 @@ class BatchRows:
     key: str
     rows: tuple[SpoolRow, ...]
 
+    def _layout(self) -> tuple[list[str], list[int | None]]:
+        """Body lines, and for each the index of the row it carries (None: a context directive).
+
+        The server reads a body on its own, from an empty context: a row whose context before it is
+        not what the server would have reached is preceded by the directive that sets it, so each
+        batch is self-contained (one directive at the top of a batch of consecutive lines, one
+        before each jump in a replay of lines far apart)."""
+        lines: list[str] = []
+        owners: list[int | None] = []
+        state: str | None = EMPTY_CONTEXT
+        for index, row in enumerate(self.rows):
+            if row.ctx_before is not None and row.ctx_before != state:
+                lines.append(row.ctx_before)
+                owners.append(None)
+            lines.append(row.text)
+            owners.append(index)
+            state = row.ctx_after
+        return lines, owners
+
     @property
     def body(self) -> str:
-        # Line n of the body is rows[n-1]: the server's per-line rejections
-        # refer back to spool rows through that position.
-        return "".join(f"{row.text}\n" for row in self.rows)
+        return "".join(f"{line}\n" for line in self._layout()[0])
+
+    def row_at(self, line: int) -> int | None:
+        """The index in ``rows`` of the row on body line ``line`` (from 1), or None (a directive)."""
+        owners = self._layout()[1]
+        return owners[line - 1] if 1 <= line <= len(owners) else None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -149,7 +183,12 @@ class Spool:
             self._db.execute("PRAGMA synchronous=FULL")
             self._db.executescript(_SCHEMA)
         self._db.row_factory = sqlite3.Row
+        if not read_only:
+            self._migrate()
         self.spool_id = self._bind(job, api, read_only)
+        self._keeper = ContextKeeper()
+        if not read_only:
+            self._resume_context()
 
     # -- set-up -------------------------------------------------------------
     def _bind(self, job: str | None, api: str | None, read_only: bool) -> str:
@@ -165,6 +204,36 @@ class Spool:
                 if api is not None:  # the API last used: a server may move, the job stays
                     db.execute("INSERT OR REPLACE INTO meta VALUES ('api', ?)", (api,))
         return self.meta().get("spool_id", "")
+
+    def _migrate(self) -> None:
+        columns = {r[1] for r in self._db.execute("PRAGMA table_info(lines)")}
+        with self._tx() as db:
+            for name in ("ctx_before", "ctx_after"):
+                if name not in columns:  # a spool from before contexts were kept
+                    db.execute(f"ALTER TABLE lines ADD COLUMN {name} TEXT")
+
+    def _resume_context(self) -> None:
+        """Rebuild missing contexts (an older spool), then continue from the last line's."""
+        with self._lock:
+            missing = self._db.execute("SELECT COUNT(*) FROM lines WHERE ctx_after IS NULL").fetchone()[0]
+        if missing:
+            with self._tx() as db:
+                rows = db.execute("SELECT id, text FROM lines ORDER BY id").fetchall()
+                db.executemany("UPDATE lines SET ctx_before = ?, ctx_after = ? WHERE id = ?",
+                               [(*self._keeper.feed(r["text"]), r["id"]) for r in rows])
+            return
+        with self._lock:
+            last = self._db.execute("SELECT ctx_after FROM lines ORDER BY id DESC LIMIT 1").fetchone()
+        if last is not None:
+            self._keeper.restore(last[0])
+
+    def keep_context_with(self, keeper: ContextKeeper) -> None:
+        """Follow the context with ``keeper`` (a regex profile's) from the last spooled line on."""
+        with self._lock:
+            last = self._db.execute("SELECT ctx_after FROM lines ORDER BY id DESC LIMIT 1").fetchone()
+            if last is not None and last[0] is not None:
+                keeper.restore(last[0])
+            self._keeper = keeper
 
     def meta(self) -> dict[str, str]:
         with self._lock:
@@ -187,9 +256,11 @@ class Spool:
 
     # -- the reader's side --------------------------------------------------
     def append(self, text: str) -> int:
-        """Commit one complete line; returns its row id once it is on disk."""
+        """Commit one complete line, with its context; returns its row id once it is on disk."""
         with self._tx() as db:
-            cur = db.execute("INSERT INTO lines (text, read_at) VALUES (?, ?)", (text, self._clock()))
+            before, after = self._keeper.feed(text)
+            cur = db.execute("INSERT INTO lines (text, read_at, ctx_before, ctx_after) VALUES (?, ?, ?, ?)",
+                             (text, self._clock(), before, after))
         assert cur.lastrowid is not None
         return cur.lastrowid
 
@@ -220,11 +291,17 @@ class Spool:
         return BatchRows(key=key, rows=tuple(_row(r) for r in rows))
 
     def settle_sent(self, batch: BatchRows, line_rejections: dict[int, tuple[str, str]]) -> None:
-        """The API took the batch (2xx). ``line_rejections`` maps body line number → (code, reason)."""
+        """The API took the batch (2xx). ``line_rejections`` maps body line number → (code, reason);
+        a line that carried a context directive, not a row, has no row to mark."""
+        by_row: dict[int, tuple[str, str]] = {}
+        for number, why in line_rejections.items():
+            index = batch.row_at(number)
+            if index is not None:
+                by_row.setdefault(index, why)
         now = self._clock()
         with self._tx() as db:
-            for number, row in enumerate(batch.rows, start=1):
-                code, reason = line_rejections.get(number, (None, None))
+            for index, row in enumerate(batch.rows):
+                code, reason = by_row.get(index, (None, None))
                 db.execute("UPDATE lines SET state = ?, code = ?, reason = ?, sent_at = ? WHERE id = ?",
                            (LINE_REJECTED if code else SENT, code, reason, now, row.id))
 
@@ -281,4 +358,5 @@ class Spool:
 
 def _row(r: sqlite3.Row) -> SpoolRow:
     return SpoolRow(id=r["id"], text=r["text"], read_at=r["read_at"], state=r["state"],
-                    batch=r["batch"], code=r["code"], reason=r["reason"])
+                    batch=r["batch"], code=r["code"], reason=r["reason"], ctx_before=r["ctx_before"],
+                    ctx_after=r["ctx_after"])

@@ -95,6 +95,8 @@ class FakeApi:
         rejected: list[dict[str, Any]] = []
         verdicts: list[dict[str, Any]] = []
         for number, text in enumerate(body.decode("utf-8").splitlines(), start=1):
+            if text.startswith("#"):  # a comment or a context directive: not a reading
+                continue
             pairs = dict(p.split("=", 1) for p in text.split() if "=" in p)
             if "board" not in pairs or "circuit" not in pairs:
                 rejected.append({"line": number, "code": "no_key", "reason": "board and circuit needed"})

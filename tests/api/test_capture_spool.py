@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from api.capture.spool import Spool, SpoolMismatch, batch_key
+from api.capture.spool import BatchRows, Spool, SpoolMismatch, batch_key
 
 
 def _spool(tmp_path: Path, **kw: object) -> Spool:
@@ -109,3 +109,49 @@ def test_read_only_open_does_not_create(tmp_path: Path) -> None:
     with pytest.raises(SpoolError):
         Spool(tmp_path / "none.sqlite", read_only=True)
     assert not (tmp_path / "none.sqlite").exists()
+
+
+def test_each_line_keeps_its_context_and_a_reopened_spool_continues_it(tmp_path: Path) -> None:
+    """board=, circuit= and #% decimal= lines set the context each later line is stored with, also
+    across a close and reopen (a restart between a board line and its circuits)."""
+    spool = _spool(tmp_path)
+    spool.append("board=DB2")
+    spool.append("#% decimal=comma")
+    spool.close()
+    spool = _spool(tmp_path)
+    spool.append("circuit=4")
+    spool.append("zs=0,61")
+    rows = spool.rows()
+    assert rows[3].ctx_before == '#% board=DB2 circuit=4 decimal=comma'
+    assert rows[0].ctx_before == '#% board="" circuit="" decimal=""'
+
+
+def test_a_batch_of_lines_far_apart_carries_a_directive_before_each_jump(tmp_path: Path) -> None:
+    """Replayed rows 2 and 4 (not 3): the body sets the context before each, so the server reads them
+    as they were read in one piece; body lines map back to their rows past the directives."""
+    spool = _spool(tmp_path)
+    for text in ("board=DB1", "circuit=1 zs=0.5", "circuit=2", "zs=0.6"):
+        spool.append(text)
+    rows = spool.rows()
+    batch = BatchRows(key="k", rows=(rows[1], rows[3]))
+    assert batch.body.splitlines() == ['#% board=DB1 circuit="" decimal=""', "circuit=1 zs=0.5",
+                                       '#% board=DB1 circuit=2 decimal=""', "zs=0.6"]
+    assert [batch.row_at(n) for n in range(1, 5)] == [None, 0, None, 1]
+    spool.settle_sent(batch, {4: ("bad_value", "why")})
+    assert [r.state for r in spool.rows()[1:4:2]] == ["sent", "line_rejected"]
+
+
+def test_a_spool_from_before_contexts_gets_them_rebuilt(tmp_path: Path) -> None:
+    """A spool written by an older capture (no context columns) is given them, in order, on open."""
+    path = tmp_path / "old.sqlite"
+    db = sqlite3.connect(path)
+    db.executescript("CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);"
+                     "CREATE TABLE lines (id INTEGER PRIMARY KEY AUTOINCREMENT, text TEXT NOT NULL, "
+                     "read_at REAL NOT NULL, state TEXT NOT NULL DEFAULT 'unsent', batch TEXT, code TEXT, "
+                     "reason TEXT, sent_at REAL);"
+                     "INSERT INTO lines (text, read_at) VALUES ('board=DB7', 1), ('circuit=3', 2);")
+    db.commit()
+    db.close()
+    spool = Spool(path, job="J1")
+    spool.append("zs=0.4")
+    assert spool.rows()[2].ctx_before == '#% board=DB7 circuit=3 decimal=""'
