@@ -24,7 +24,7 @@ from flask_smorest import Api
 from werkzeug.exceptions import HTTPException
 from werkzeug.routing import IntegerConverter
 
-from api import db
+from api.db import session as db
 from api.errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
 from api.http import auth, idempotency, limits, request_log
 from api.http.json_provider import OrjsonProvider

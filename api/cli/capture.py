@@ -19,7 +19,17 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from serial.tools import list_ports  # type: ignore[import-untyped]
+
+from api.capture.inspect import show_spool
+from api.capture.runner import run_session
+from api.capture.spool import Spool, SpoolError
 from api.cli import EXIT_OK, EXIT_USAGE
+
+try:  # optional: the per-platform data folder; without it, the XDG default
+    import platformdirs
+except ImportError:  # pragma: no cover - depends on what is installed
+    platformdirs = None  # type: ignore[assignment]
 
 __all__ = ["default_spool_path", "read_api_key", "register", "run"]
 
@@ -54,11 +64,9 @@ def register(sub: Any) -> None:
 
 def default_spool_path(job: str) -> Path:
     """``<user data dir>/ohmtally/spool-<job>.sqlite`` (platformdirs where installed, else XDG)."""
-    try:
-        import platformdirs
-
+    if platformdirs is not None:
         base = Path(platformdirs.user_data_dir("ohmtally", appauthor=False))
-    except ImportError:
+    else:
         base = Path(os.environ.get("XDG_DATA_HOME") or Path.home() / ".local" / "share") / "ohmtally"
     safe = re.sub(r"[^A-Za-z0-9._-]", "_", job)
     return base / f"spool-{safe}.sqlite"
@@ -83,23 +91,17 @@ def run(args: argparse.Namespace) -> int:
     if args.spool is None and not args.job:
         return _usage("give --job (or --spool PATH)")
     spool_path: Path = args.spool or default_spool_path(args.job)
-    from api.capture.spool import Spool, SpoolError
-
     if args.show:
         try:
             spool = Spool(spool_path, read_only=True)
         except SpoolError as exc:
             return _usage(str(exc))
-        from api.capture.inspect import show_spool
-
         show_spool(spool, as_json=args.json_log)
         return EXIT_OK
     return _capture(args, spool_path)
 
 
 def _capture(args: argparse.Namespace, spool_path: Path) -> int:
-    from api.capture.spool import Spool, SpoolError
-
     if args.batch_lines < 1 or args.linger < 0 or args.drain < 0:
         return _usage("--batch-lines must be ≥ 1, --linger and --drain ≥ 0")
     existing = Spool(spool_path, read_only=True).meta() if spool_path.exists() else {}
@@ -117,8 +119,6 @@ def _capture(args: argparse.Namespace, spool_path: Path) -> int:
         spool = Spool(spool_path, job=job, api=api)
     except SpoolError as exc:
         return _usage(f"{exc}; give another --spool for this job")
-    from api.capture.runner import run_session
-
     return run_session(spool=spool, job=job, api=api, api_key=api_key, port=args.port,
                        baud=args.baud, profile=args.profile, batch_lines=args.batch_lines,
                        linger_s=args.linger, drain_s=args.drain, replay=args.replay,
@@ -126,8 +126,6 @@ def _capture(args: argparse.Namespace, spool_path: Path) -> int:
 
 
 def _list_ports(as_json: bool) -> int:
-    from serial.tools import list_ports  # type: ignore[import-untyped]
-
     ports = [{"device": p.device, "description": p.description, "hwid": p.hwid}
              for p in sorted(list_ports.comports(), key=lambda p: p.device)]
     if as_json:

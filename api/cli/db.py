@@ -10,7 +10,14 @@ import argparse
 import sys
 from typing import Any
 
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import SQLAlchemyError
+
+from api.app import default_instance_path
 from api.cli import EXIT_BAD_INPUT, EXIT_OK
+from api.db.schema import upgrade
+from api.db.session import database_url_for
+from api.settings import load_settings
 
 __all__ = ["register", "resolve_database_url", "run_upgrade"]
 
@@ -26,21 +33,12 @@ def register(sub: Any) -> None:
 
 
 def resolve_database_url(given: str | None = None) -> str:
-    from api.app import default_instance_path
-    from api.db import database_url_for
-    from api.settings import load_settings
-
     settings = load_settings()
     return database_url_for(settings.instance_path or default_instance_path(),
                             given or settings.database_url)
 
 
 def run_upgrade(args: argparse.Namespace) -> int:
-    from sqlalchemy.engine import make_url
-    from sqlalchemy.exc import SQLAlchemyError
-
-    from api.db import upgrade
-
     url = resolve_database_url(args.database_url)
     shown = make_url(url).render_as_string(hide_password=True)
     try:

@@ -15,7 +15,11 @@ import sys
 import threading
 from typing import Any
 
+from api.app import create_app
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.db.schema import SchemaNotCurrent
+from api.settings import SettingsError
+from api.webhooks.delivery import config_from_settings, run_once
 
 __all__ = ["register", "run"]
 
@@ -29,11 +33,6 @@ def register(sub: Any) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from api.app import create_app
-    from api.db import SchemaNotCurrent
-    from api.settings import SettingsError
-    from api.webhooks.delivery import config_from_settings, run_once
-
     if args.poll <= 0:
         print("ohmtally deliver: --poll must be positive", file=sys.stderr)
         return EXIT_USAGE

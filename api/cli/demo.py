@@ -4,13 +4,15 @@ Steps: migrate the SQLite database in the instance folder; start ``ohmtally
 serve`` as a child process on 127.0.0.1 (a free port unless ``--port``), with
 ``OHMTALLY_AUTH=off`` (allowed on loopback only); create the manifest's job;
 post its files; print the verdicts a person can read; leave the server
-running with its URL printed until Ctrl-C (``--no-wait``: stop and exit).
+running with its URL printed until Ctrl-C, SIGTERM or SIGHUP (``--no-wait``: stop
+and exit). However the demo ends, short of SIGKILL, its server is stopped with it.
 """
 
 from __future__ import annotations
 
 import argparse
 import os
+import signal
 import socket
 import subprocess
 import sys
@@ -18,7 +20,15 @@ import time
 from pathlib import Path
 from typing import Any
 
+import httpx
+
+from api.app import default_instance_path
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli.db import resolve_database_url
+from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
+from api.db.schema import upgrade
+from api.db.session import default_sqlite_url
+from api.settings import load_settings
 
 __all__ = ["format_report", "free_port", "register", "run", "wait_healthy"]
 
@@ -42,8 +52,6 @@ def free_port() -> int:
 
 
 def wait_healthy(base: str, child: subprocess.Popen[bytes], timeout: float = 30.0) -> bool:
-    import httpx
-
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
         if child.poll() is not None:
@@ -111,8 +119,6 @@ def format_report(job: dict[str, Any], posts: list[tuple[str, int, dict[str, Any
 
 def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str, int, dict[str, Any]]],
                                                 dict[str, Any]]:
-    import httpx
-
     with httpx.Client(base_url=base, timeout=30.0) as client:
         created = client.post("/v1/jobs", json=manifest.job)
         created.raise_for_status()
@@ -127,23 +133,25 @@ def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str,
         return job, posts, verdicts.json()
 
 
-def run(args: argparse.Namespace) -> int:
-    from api.cli.db import resolve_database_url
-    from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
-    from api.db import default_sqlite_url, upgrade
+def _stop_on_signal(signum: int, _frame: Any) -> None:
+    """SIGTERM or SIGHUP end the demo like Ctrl-C does: through ``finally``, which stops the server.
 
+    Without this a SIGTERM (a terminal closed, ``kill``, a supervisor) ended the demo at once
+    and left its server running on the port with no parent.
+    """
+    raise SystemExit(128 + signum)
+
+
+def run(args: argparse.Namespace) -> int:
+    for signum in (signal.SIGTERM, signal.SIGHUP):
+        signal.signal(signum, _stop_on_signal)
     try:
         manifest = load_manifest(args.manifest or DEFAULT_MANIFEST)
     except ManifestError as exc:
         print(f"ohmtally demo: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    if args.database_url:
-        url = args.database_url
-    else:  # the demo never writes into a configured production database
-        from api.app import default_instance_path
-        from api.settings import load_settings
-
-        url = default_sqlite_url(load_settings().instance_path or default_instance_path())
+    # the demo never writes into a configured production database
+    url = args.database_url or default_sqlite_url(load_settings().instance_path or default_instance_path())
     upgrade(resolve_database_url(url))
     port = args.port or free_port()
     base = f"http://127.0.0.1:{port}"

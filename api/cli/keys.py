@@ -53,7 +53,8 @@ def _open(args: argparse.Namespace) -> Iterator[Any]:
     from sqlalchemy.orm import Session
 
     from api.cli.db import resolve_database_url
-    from api.db import SchemaNotCurrent, check_schema, make_engine
+    from api.db.schema import SchemaNotCurrent, check_schema
+    from api.db.session import make_engine
 
     url = resolve_database_url(args.database_url)
     engine = make_engine(url)

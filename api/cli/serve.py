@@ -64,7 +64,7 @@ def _application(factory: Callable[[], Any], options: Mapping[str, Any]) -> Any:
 
 def run(args: argparse.Namespace) -> int:
     from api.app import create_app
-    from api.db import SchemaNotCurrent
+    from api.db.schema import SchemaNotCurrent
     from api.settings import SettingsError, load_settings
     from api.webhooks import runner as webhook_hooks
 

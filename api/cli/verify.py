@@ -29,6 +29,10 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from rich.console import Console
+
+from adapters import AdapterOptions, collect
+from adapters.registry import adapter_for_extension, get_adapter
 from api.answers import verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
 from api.intake.objects import records_from_objects
@@ -94,9 +98,6 @@ def _read_json(path: Path) -> tuple[list[CircuitRecord], list[dict[str, Any]], s
 
 def _read_adapter(path: Path, adapter: str | None, profile: str | None
                   ) -> tuple[list[CircuitRecord], list[dict[str, Any]]]:
-    from adapters import AdapterOptions, collect
-    from adapters.registry import adapter_for_extension, get_adapter
-
     chosen = get_adapter(adapter) if adapter else adapter_for_extension(path.suffix)
     with path.open("rb") as stream:
         got = collect(chosen.read(stream, AdapterOptions(profile=profile)))
@@ -134,8 +135,6 @@ def _read_files(args: argparse.Namespace, rejected: list[dict[str, Any]]
 
 def _write(body: dict[str, Any], fmt: str, policy: Policy) -> None:
     if fmt == "table" and sys.stdout.isatty():
-        from rich.console import Console
-
         Console().print(rich_table(body, policy))
         return
     text, _media_type = render(body, fmt, policy, generated_at=_generated_at())

@@ -1,20 +1,9 @@
-"""Persistence: the connection and session (``session``), the schema's migrations
-(``schema``, ``migrations/``), the tables (``models``) and every query the views make
-(``repository``)."""
+"""Persistence: the connection and the request's unit of work (``session``), the schema's
+migrations (``schema``, ``migrations/``), the tables (``models``) and every query the views
+make (``repository``). Import from those modules; this package imports nothing, so that
+reading the tables' types (``api.db.models``) never loads Alembic or Flask.
+"""
 
 from __future__ import annotations
 
-from .schema import SchemaNotCurrent, alembic_config, check_schema, upgrade
-from .session import database_url_for, default_sqlite_url, get_session, init_app, make_engine
-
-__all__ = [
-    "SchemaNotCurrent",
-    "alembic_config",
-    "check_schema",
-    "database_url_for",
-    "default_sqlite_url",
-    "get_session",
-    "init_app",
-    "make_engine",
-    "upgrade",
-]
+__all__: list[str] = []

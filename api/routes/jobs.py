@@ -10,8 +10,8 @@ from flask_smorest import Blueprint
 from marshmallow import RAISE
 
 from api.answers import VerifyAnswer, circuit_state
-from api.db import get_session
 from api.db.repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
+from api.db.session import get_session
 from api.http.auth import tenant
 from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC

@@ -28,7 +28,6 @@ from flask_smorest import Blueprint
 from marshmallow import RAISE
 
 from api.answers import ReadingsAnswer
-from api.db import get_session
 from api.db.models import Job, Upload
 from api.db.repository import (
     get_job,
@@ -41,6 +40,7 @@ from api.db.repository import (
     store_upload,
     upload_circuit_keys,
 )
+from api.db.session import get_session
 from api.errors import ApiError
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key

@@ -20,9 +20,9 @@ from flask_smorest import Blueprint
 from sqlalchemy import select
 
 from api.answers import circuit_state
-from api.db import get_session
 from api.db.models import Circuit
 from api.db.repository import bump_revision, lock_job, records_of
+from api.db.session import get_session
 from api.errors import ApiError
 from api.http.auth import tenant
 from api.intake.bodies import JSON_MEDIA_TYPE

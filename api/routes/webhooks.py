@@ -21,9 +21,9 @@ from marshmallow import RAISE
 from sqlalchemy import delete, select
 from sqlalchemy.orm import Session
 
-from api.db import get_session
 from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription
 from api.db.repository import decode_cursor, encode_cursor
+from api.db.session import get_session
 from api.errors import ApiError
 from api.http.auth import require_scope, tenant
 from api.routes.common import json_body, json_body_doc, settings

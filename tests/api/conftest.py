@@ -25,7 +25,7 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 
 from api.app import create_app
-from api.db import upgrade
+from api.db.schema import upgrade
 from tests.api.openapi_check import check_response
 from tests.api.webhook_receiver import Receiver
 

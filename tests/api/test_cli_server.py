@@ -24,7 +24,7 @@ from adapters.registry import get_adapter
 from api.cli.demo import free_port, wait_healthy
 from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
 from api.cli.serve import is_loopback_bind
-from api.db import upgrade
+from api.db.schema import upgrade
 from engine import CircuitRecord, verify
 from tests.api.openapi_check import check_response
 

@@ -1,6 +1,6 @@
 """``ohmtally verify``: formats, the --fail-on/--warn-on policy, and exit statuses.
 
-Exit statuses are the contract's (DESIGN.md, CLI): 0 all pass, 1 a circuit
+Exit statuses are the contract's (api/README.md, "The command line"): 0 all pass, 1 a circuit
 fails, 2 bad input, 3 usage; "fails" is read under the policy (issue 8).
 Circuits are invented; pass/fail/incomplete come from the polarity check
 (BS 7671 Reg. 643.6: recorded false fails, missing is incomplete), which

@@ -1,6 +1,6 @@
 """Idempotency and merge invariants under retries and concurrency: the result equals a sequential replay.
 
-Invariants checked (from DESIGN.md "later readings win, earlier kept in
+Invariants checked (from api/README.md, "Readings into a job": "later readings win, earlier kept in
 history" and the issue's idempotency rules, not from our code):
 - each distinct (key, body) is merged exactly once, however often and in
   whatever interleaving it is resent;

@@ -2,7 +2,7 @@
 
 Reference for verdicts: ``engine.verify`` over the job's merged records (the
 job's verdicts must be what the engine says about the records the job holds).
-Merge rule: DESIGN.md, "readings merge into the job's circuit records (later
+Merge rule: api/README.md, "Readings into a job": "readings merge into the job's circuit records (later
 readings win, earlier kept in history)".
 """
 
@@ -96,7 +96,7 @@ def test_readings_merge_per_field_and_keep_history(client: FlaskClient) -> None:
 
 
 def test_bounded_readings_are_stored_as_bounds(client: FlaskClient) -> None:
-    """'> 299 MΩ' and 'OL' stay bounded through storage (DESIGN.md: never turned into a plain number)."""
+    """'> 299 MΩ' and 'OL' stay bounded through storage (engine/README.md: a bounded reading is never turned into a plain number)."""
     job = _job(client)["id"]
     _post(client, job, '{"circuits": [{"board": "B", "circuit": "1", "ir_le_mohm": "> 299 MΩ", '
                        '"ir_ll_mohm": "OL"}]}', "application/json")

@@ -72,7 +72,7 @@ class Server:
 
 @pytest.fixture
 def server(db_url: str) -> Iterator[Server]:
-    from api.db import upgrade
+    from api.db.schema import upgrade
 
     upgrade(db_url)  # a PostgreSQL schema is migrated already; SQLite's copy too: a no-op
     made = Server(db_url)

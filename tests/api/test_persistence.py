@@ -12,7 +12,8 @@ import pytest
 from flask import Flask
 from sqlalchemy import create_engine, func, select
 
-from api.db import SchemaNotCurrent, make_engine
+from api.db.schema import SchemaNotCurrent
+from api.db.session import make_engine
 from api.db.models import Base, FieldHistory
 
 pytestmark = pytest.mark.postgres

@@ -15,7 +15,7 @@ import pytest
 from sqlalchemy import text
 from sqlalchemy.orm import Session
 
-from api.db import make_engine
+from api.db.session import make_engine
 
 
 def _free(path: Path) -> bool:

@@ -3,7 +3,7 @@
 Reference for verdicts: ``engine.verify`` on the same records (the API must
 add nothing and lose nothing). Reference for error shapes: RFC 9457 (problem
 details) and RFC 6901 (JSON pointers); for what counts as a bad reading,
-DESIGN.md ("a unit that does not fit the field is a clear error").
+engine/README.md ("a unit that does not fit the field is a clear error").
 """
 
 from __future__ import annotations
@@ -63,7 +63,7 @@ def test_ruleset_by_body_or_query(client: FlaskClient) -> None:
 
 
 def test_duplicate_circuits_merge_per_field_later_wins(client: FlaskClient) -> None:
-    """Two objects for one circuit merge field by field, the later value winning (DESIGN.md merge rule)."""
+    """Two objects for one circuit merge field by field, the later value winning (api/README.md merge rule)."""
     body = client.post("/v1/verify", json={"circuits": [
         {"board": "A", "circuit": "1", "zs_ohm": 9.0, "polarity_ok": True},
         {"board": "A", "circuit": "1", "zs_ohm": 0.5}]}).get_json()

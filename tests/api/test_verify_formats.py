@@ -3,7 +3,7 @@
 External references:
 - The CLI, ``ohmtally verify --format``, run in-process on the same circuits
   written to a file: the API must give the same bytes for csv and json
-  (DESIGN.md: "--format json prints exactly the body POST /v1/verify would
+  (api/README.md, "The command line": "--format json prints exactly the body POST /v1/verify would
   return"; README.md: "the same renderers answer POST /v1/verify?format=").
 - junitparser reads the JUnit document as a CI server's plug-in does; the
   standard library's csv module reads the CSV (RFC 4180).

@@ -32,7 +32,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from api.cli.demo import free_port, wait_healthy
-from api.db import upgrade
+from api.db.schema import upgrade
 from api.db.models import WebhookEvent
 from api.webhooks.delivery import DeliveryConfig, backoff_s, run_once
 from engine import NOTICE, build_record, verify
