@@ -8,12 +8,17 @@ Invariants:
   says every outcome; the caller's policy is theirs to apply).
 - ``junit`` and ``table`` show the policy; ``csv`` is policy-free data.
 - Rendering never raises on what a readings file holds (names, details).
+- Every rendered output carries the safety notice: json in ``notice``, table
+  and junit in their text; csv has no place for prose, so its callers put the
+  notice beside it (stderr, an ``Ohmtally-Notice`` header).
+- ``descriptions`` (``(board, circuit)`` → the circuit's description) lets the
+  table and JUnit show what each circuit is when the body does not say.
 """
 
 from __future__ import annotations
 
 import json
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from datetime import datetime
 from typing import Any
 
@@ -58,26 +63,33 @@ MEDIA_TYPES: dict[str, str] = {
 }
 
 
-def _json(body: dict[str, Any], policy: Policy, generated_at: datetime | None) -> str:
+Descriptions = Mapping[tuple[str, str], str]
+
+
+def _json(body: dict[str, Any], policy: Policy, generated_at: datetime | None,
+          descriptions: Descriptions | None) -> str:
     return json.dumps(body, ensure_ascii=False, indent=2) + "\n"
 
 
-_RENDERERS: dict[str, Callable[[dict[str, Any], Policy, datetime | None], str]] = {
+_RENDERERS: dict[str, Callable[[dict[str, Any], Policy, datetime | None, Descriptions | None], str]] = {
     "json": _json,
-    "junit": lambda body, policy, when: render_junit(body, policy, generated_at=when),
-    "csv": lambda body, policy, when: render_csv(body),
-    "table": lambda body, policy, when: render_table(body, policy),
+    "junit": lambda body, policy, when, names: render_junit(body, policy, generated_at=when,
+                                                            descriptions=names),
+    "csv": lambda body, policy, when, names: render_csv(body),
+    "table": lambda body, policy, when, names: render_table(body, policy, names),
 }
 
 
 def render(body: dict[str, Any], fmt: str, policy: Policy = DEFAULT_POLICY, *,
-           generated_at: datetime | None = None) -> tuple[str, str]:
+           generated_at: datetime | None = None,
+           descriptions: Descriptions | None = None) -> tuple[str, str]:
     """The body as ``fmt``, with its media type; ``ValueError`` for an unknown format.
 
-    ``generated_at`` stamps the JUnit suites (default: now, UTC).
+    ``generated_at`` stamps the JUnit suites (default: now, UTC); ``descriptions``
+    maps ``(board, circuit)`` to the circuit's description for table and JUnit.
     """
     try:
         renderer = _RENDERERS[fmt]
     except KeyError:
         raise ValueError(f"format must be one of {', '.join(FORMATS)}, not {fmt!r}") from None
-    return renderer(body, policy, generated_at), MEDIA_TYPES[fmt]
+    return renderer(body, policy, generated_at, descriptions), MEDIA_TYPES[fmt]

@@ -2,9 +2,14 @@
 
 Invariants:
 - One ``<testsuite>`` per board (first-seen order); in it one ``<testcase>``
-  per check result, ``classname="<board>.<circuit>"``, ``name=<check id>``
-  (``<check id>#2``… where a check judged several things). A circuit with no
-  applicable check is one case named ``(circuit)``, so it is never silent.
+  per check result, ``classname="<board>.<circuit>"``, named by what it
+  tested: the check id, qualified where the check judged several things
+  (``insulation L-E``, ``rcd_time at 5 IΔn``, ``ring_continuity r1 vs rn``;
+  :func:`.words.case_names`). A circuit with no applicable check is one case
+  named ``(circuit)``, so it is never silent.
+- Messages and texts are for people: numbers as a meter shows them, the
+  margin as a percentage, field names in sentences as the trade's words, the
+  circuit's description in its cases' text.
 - The policy decides each case: treated as fail → ``<failure>`` (its
   ``type`` is the outcome, its ``message`` has value, relation, limit, unit and
   basis, its text the detail, method and inputs); warn → ``<skipped>`` with the
@@ -13,7 +18,9 @@ Invariants:
   click); pass → a plain case. Every non-pass outcome also gets a line in the
   suite's ``<system-out>``, so nothing a policy let through is lost.
 - Rejected input is a last suite, ``input``, of ``<error>`` cases (the
-  readings could not be judged), one per rejected line or field.
+  readings could not be judged), one per rejected line or field; the input's
+  warnings (names read as no field) are ``<skipped>`` cases there, so a CI
+  report counts them.
 - The document follows the Apache Ant JUnit schema (timestamp, hostname,
   properties, system-out and system-err are always present; ``hostname`` is
   ``localhost`` by design: the server's name is no business of the report),
@@ -29,8 +36,10 @@ from collections import Counter
 from datetime import UTC, datetime
 from typing import Any
 
-from ._text import fmt_value, xml_safe
+from ._text import meter_number, meter_pair, percent, xml_safe
 from .policy import Policy, Treatment
+from .table import Descriptions, description_of
+from .words import case_names, trade_text, word_for
 
 __all__ = ["NO_CHECK_NAME", "render_junit"]
 
@@ -38,42 +47,46 @@ NO_CHECK_NAME = "(circuit)"
 INPUT_SUITE = "input"
 
 
-def _message(check: dict[str, Any]) -> str:
-    parts = [f"{check['check']} {check['outcome']}"]
+def _message(name: str, check: dict[str, Any]) -> str:
+    parts = [f"{name} {check['outcome']}"]
+    value, limit = meter_pair(check.get("value"), check.get("limit"))
+    unit = f" {check['unit']}" if check.get("unit") else ""
     if check.get("value") is not None:
         rel = "" if check.get("relation") in (None, "=") else check["relation"]
-        unit = f" {check['unit']}" if check.get("unit") else ""
-        parts.append(f"value {rel}{fmt_value(check['value'])}{unit}")
+        parts.append(f"value {rel}{value}{unit}")
     if check.get("limit") is not None:
-        unit = f" {check['unit']}" if check.get("unit") else ""
         kind = {"max": "max ", "min": "min "}.get(check.get("limit_kind") or "", "")
-        parts.append(f"limit {kind}{fmt_value(check['limit'])}{unit}")
+        parts.append(f"limit {kind}{limit}{unit}")
     if check.get("margin") is not None:
-        parts.append(f"margin {fmt_value(check['margin'])}")
+        parts.append(f"margin {percent(check['margin'])}")
     if check.get("basis"):
         parts.append(f"basis {check['basis']}")
     return "; ".join(parts)
 
 
-def _text(check: dict[str, Any]) -> str:
-    lines = [check.get("detail") or ""]
+def _shown(value: Any) -> str:
+    if isinstance(value, list):
+        return ", ".join(word_for(v) if isinstance(v, str) else meter_number(v) for v in value)
+    return trade_text(value) if isinstance(value, str) else meter_number(value)
+
+
+def _text(check: dict[str, Any], description: str) -> str:
+    lines = [trade_text(check.get("detail") or "")]
+    if description:
+        lines.append(f"circuit: {description}")
     if check.get("method"):
         lines.append(f"method: {check['method']}")
     for key, value in (check.get("inputs") or {}).items():
-        lines.append(f"{key}: {fmt_value(value)}")
+        if isinstance(value, dict):
+            continue  # nested working (upstream parts, errors): in the JSON answer
+        lines.append(f"{word_for(key)}: {_shown(value)}")
     return "\n".join(lines)
 
 
 def _cases(verdict: dict[str, Any]) -> list[tuple[str, dict[str, Any]]]:
     checks = verdict["checks"] or [{"check": NO_CHECK_NAME, "outcome": verdict["outcome"],
                                     "detail": "no applicable check could be run"}]
-    seen: Counter[str] = Counter()
-    named = []
-    for check in checks:
-        seen[check["check"]] += 1
-        n = seen[check["check"]]
-        named.append((check["check"] if n == 1 else f"{check['check']}#{n}", check))
-    return named
+    return list(zip(case_names(checks), checks, strict=True))
 
 
 class _Suite:
@@ -103,8 +116,8 @@ class _Suite:
             self.el.set("skipped", str(self.counts["skipped"]))
 
 
-def render_junit(body: dict[str, Any], policy: Policy, *,
-                 generated_at: datetime | None = None) -> str:
+def render_junit(body: dict[str, Any], policy: Policy, *, generated_at: datetime | None = None,
+                 descriptions: Descriptions | None = None) -> str:
     when = (generated_at or datetime.now(UTC)).astimezone(UTC)
     stamp = when.strftime("%Y-%m-%dT%H:%M:%S")  # the Ant schema forbids a zone: it is UTC
     properties = {"ruleset": str(body["ruleset"].get("id", "")),
@@ -117,20 +130,21 @@ def render_junit(body: dict[str, Any], policy: Policy, *,
             suites[board] = _Suite(root, len(suites), board, stamp, properties)
         suite = suites[board]
         classname = f"{board}.{verdict['circuit']}"
+        description = description_of(verdict, descriptions)
         for name, check in _cases(verdict):
             case = suite.case(classname, name)
             treatment = policy.treat(check["outcome"])
-            message = xml_safe(_message(check))
+            message = xml_safe(_message(name, check))
             if treatment is Treatment.FAIL:
                 suite.counts["failures"] += 1
                 ET.SubElement(case, "failure", {"type": check["outcome"], "message": message}
-                              ).text = xml_safe(_text(check))
+                              ).text = xml_safe(_text(check, description))
             elif treatment is Treatment.WARN:
                 suite.counts["skipped"] += 1
                 ET.SubElement(case, "skipped", {"message": f"warning: {message}"})
             if check["outcome"] != "pass":
                 suite.out.append(f"{classname} {name}: {treatment.value} ({message}): "
-                                 f"{check.get('detail') or ''}")
+                                 f"{trade_text(check.get('detail') or '')}")
         for error in verdict.get("errors") or ():
             suite.err.append(f"{classname} {error.get('check', '')}: {error.get('message', '')}")
     _input_suite(root, body, len(suites), stamp, properties)
@@ -143,7 +157,8 @@ def render_junit(body: dict[str, Any], policy: Policy, *,
 
 def _input_suite(root: ET.Element, body: dict[str, Any], index: int, stamp: str,
                  properties: dict[str, str]) -> None:
-    if not body["rejected"]:
+    warnings = body.get("warnings") or []
+    if not body["rejected"] and not warnings:
         return
     suite = _Suite(root, index, INPUT_SUITE, stamp, properties)
     for bad in body["rejected"]:
@@ -152,6 +167,13 @@ def _input_suite(root: ET.Element, body: dict[str, Any], index: int, stamp: str,
         case = suite.case(f"{INPUT_SUITE}.{source}", str(where))
         suite.counts["errors"] += 1
         ET.SubElement(case, "error", {"type": str(bad.get("code", "rejected")),
-                                      "message": xml_safe(str(bad.get("reason", "")))}
+                                      "message": xml_safe(trade_text(str(bad.get("reason", ""))))}
                       ).text = xml_safe(str(bad.get("text", "")))
+    for note in warnings:
+        where = note.get("pointer") or (f"line {note['line']}" if "line" in note else "-")
+        named = f" {note['column']}" if note.get("column") else ""
+        case = suite.case(f"{INPUT_SUITE}.{note.get('file') or 'body'}", f"{where}{named}")
+        suite.counts["skipped"] += 1
+        ET.SubElement(case, "skipped", {"message": xml_safe(f"warning: {note.get('code', '')}: "
+                                                            f"{note.get('reason', '')}")})
     suite.close()

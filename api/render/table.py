@@ -8,16 +8,23 @@ Invariants:
   caller picks rich only when stdout is a terminal.
 - Text from the readings file is shown, never obeyed: control characters are
   escaped, and rich gets ``Text`` objects, never markup strings.
+- Written for the person on site: numbers as a meter shows them
+  (:func:`._text.meter_pair`), each check named by what it tested
+  (``insulation L-E``), field names in sentences replaced by the trade's words
+  (``Ze``, ``R1+R2``), the circuit's description on its own row, and the
+  input's warnings (names read as no field) beside the rejected lines.
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
-from ._text import fmt_value, printable
+from ._text import meter_pair, printable
 from .policy import Policy, Treatment
+from .words import case_names, trade_text, word_for
 
-__all__ = ["HEADER", "render_table", "rich_table"]
+__all__ = ["HEADER", "Descriptions", "description_of", "render_table", "rich_table"]
 
 HEADER: tuple[str, ...] = ("board", "circuit", "check", "outcome", "value", "limit", "unit", "detail")
 
@@ -33,17 +40,27 @@ def _outcome_cell(outcome: str, policy: Policy, *, upper: bool) -> str:
     return shown
 
 
-def _rows(body: dict[str, Any], policy: Policy) -> list[tuple[str, ...]]:
+Descriptions = Mapping[tuple[str, str], str]
+
+
+def description_of(verdict: Mapping[str, Any], descriptions: Descriptions | None) -> str:
+    """The circuit's description: the verdict's own, else the caller's table of them, else ''."""
+    found = verdict.get("description") or (descriptions or {}).get((verdict["board"], verdict["circuit"]))
+    return str(found) if found else ""
+
+
+def _rows(body: dict[str, Any], policy: Policy, descriptions: Descriptions | None) -> list[tuple[str, ...]]:
     rows: list[tuple[str, ...]] = []
     for verdict in body["verdicts"]:
         rows.append((printable(verdict["board"]), printable(verdict["circuit"]), "(circuit)",
-                     _outcome_cell(verdict["outcome"], policy, upper=True), "", "", "", ""))
-        for check in verdict["checks"]:
-            rel = "" if check["relation"] == "=" else check["relation"]
-            value = "" if check["value"] is None else rel + fmt_value(check["value"])
-            rows.append(("", "", check["check"], _outcome_cell(check["outcome"], policy, upper=False),
-                         value, fmt_value(check["limit"]), check["unit"] or "",
-                         printable(check["detail"] or "")))
+                     _outcome_cell(verdict["outcome"], policy, upper=True), "", "", "",
+                     printable(description_of(verdict, descriptions))))
+        for name, check in zip(case_names(verdict["checks"]), verdict["checks"], strict=True):
+            rel = "" if check["relation"] in (None, "=") else check["relation"]
+            value, limit = meter_pair(check["value"], check["limit"])
+            rows.append(("", "", name, _outcome_cell(check["outcome"], policy, upper=False),
+                         "" if check["value"] is None else rel + value, limit, check["unit"] or "",
+                         printable(trade_text(check["detail"] or ""))))
     return rows
 
 
@@ -51,18 +68,22 @@ def _footer(body: dict[str, Any], policy: Policy) -> list[str]:
     lines = ["", ", ".join(f"{k}: {v}" for k, v in body["summary"].items())]
     failing = policy.failing_circuits(body["verdicts"])
     lines.append(f"policy: {policy.describe()} — circuits failing under it: {failing}")
-    for bad in body["rejected"]:
-        where = bad.get("pointer") or f"line {bad.get('line')}"
-        source = bad.get("file", "")
-        lines.append(printable(f"rejected {source} {where}: {bad.get('reason', '')}".replace("  ", " ")))
+    for kind, items in (("rejected", body["rejected"]), ("warning", body.get("warnings") or ())):
+        for item in items:
+            where = item.get("pointer") or f"line {item.get('line')}"
+            named = item.get("column") or (word_for(item["field"]) if item.get("field") else "")
+            about = f" ({named})" if named else ""
+            source = item.get("file", "")
+            text = f"{kind} {source} {where}{about}: {trade_text(str(item.get('reason', '')))}"
+            lines.append(printable(text.replace("  ", " ")))
     lines += ["", "CAUTION: " + body["notice"]]
     return lines
 
 
-def render_table(body: dict[str, Any], policy: Policy) -> str:
+def render_table(body: dict[str, Any], policy: Policy, descriptions: Descriptions | None = None) -> str:
     ruleset = body["ruleset"]
     lines = [f"ruleset: {ruleset.get('id')} — {ruleset.get('title', '')}"]
-    rows = _rows(body, policy)
+    rows = _rows(body, policy, descriptions)
     widths = [max([len(h), *(len(r[i]) for r in rows)]) for i, h in enumerate(HEADER[:-1])]
     for row in [HEADER, *rows]:
         lines.append("  ".join(c.ljust(w) for c, w in zip(row[:-1], widths, strict=True))
@@ -71,7 +92,7 @@ def render_table(body: dict[str, Any], policy: Policy) -> str:
     return "\n".join(line.rstrip() for line in lines) + "\n"
 
 
-def rich_table(body: dict[str, Any], policy: Policy) -> Any:
+def rich_table(body: dict[str, Any], policy: Policy, descriptions: Descriptions | None = None) -> Any:
     """A rich renderable of the same content (imported late: only a terminal needs rich)."""
     from rich.console import Group
     from rich.table import Table
@@ -84,7 +105,7 @@ def rich_table(body: dict[str, Any], policy: Policy) -> Any:
     for name in HEADER:
         table.add_column(name, overflow="fold", no_wrap=name not in wraps,
                          ratio=1 if name == "detail" else None)
-    for row in _rows(body, policy):
+    for row in _rows(body, policy, descriptions):
         outcome = row[3].split(" ")[0].lower()
         cells = [Text(cell) for cell in row]
         cells[3].stylize(_STYLE.get(outcome, ""))
