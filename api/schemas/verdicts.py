@@ -57,7 +57,11 @@ class VerdictSchema(_Strict):
     outcome = fields.String(required=True, validate=validate.OneOf(_OUTCOMES),
                             metadata={"description": "worst check: fail > investigate > incomplete > pass"})
     checks = fields.List(fields.Nested(CheckSchema), required=True)
-    defaults_applied = fields.Dict(required=True)
+    defaults_applied = fields.Dict(required=True, metadata={
+        "description": "field → the ruleset default the checks used because the record was silent"})
+    inferred = fields.Dict(required=True, metadata={
+        "description": "field → what the record's readings imply where it did not say (ring readings "
+                       "mean a ring; a curve letter means a circuit-breaker; a trip time means an RCD)"})
     errors = fields.List(fields.Dict(), metadata={"description": "checks that could not be evaluated"})
 
 
