@@ -56,6 +56,9 @@ _FIELD_PATTERN = re.compile(r"\b(" + "|".join(sorted((re.escape(n) for n in {*FI
                                                      key=len, reverse=True)) + r")\b")
 
 
+_ECHO = re.compile(r"(?<![\w+])([^\s()]+) \(\1\)")
+
+
 def word_for(name: str) -> str:
     """The trade's word for a field or input name (the name itself when there is none)."""
     return FIELD_WORDS.get(name) or INPUT_WORDS.get(name) or name
@@ -65,7 +68,8 @@ def trade_text(text: str) -> str:
     """``text`` with every whole field name replaced by the trade's word for it."""
     if "_" not in text:
         return text
-    return _FIELD_PATTERN.sub(lambda m: FIELD_WORDS.get(m.group(1), m.group(1)), text)
+    worded = _FIELD_PATTERN.sub(lambda m: FIELD_WORDS.get(m.group(1), m.group(1)), text)
+    return _ECHO.sub(r"\1", worded)  # "Ib (design_current_a)" became "Ib (Ib)": say it once
 
 
 _RING = {"r1_vs_rn": "r1 vs rn", "r2_vs_r1": "r2 vs r1", "cross_connected": "R1+R2 vs (r1 + r2)/4",

@@ -18,6 +18,8 @@ _text = st.text(
 ).filter(lambda t: t.strip().lower() not in _NO_READING and not t.startswith("#"))
 # meters print a few significant figures; six decimals is already more than any
 _magnitude = st.floats(min_value=0, max_value=1e6, allow_nan=False).map(lambda v: round(v, 6))
+# a design value (rating, size, length) is above zero: the engine refuses 0 A or 0 mm²
+_design = st.floats(min_value=0.001, max_value=1e6, allow_nan=False).map(lambda v: round(v, 6))
 _reading = st.one_of(
     _magnitude.map(lambda v: Reading(value=v)),
     _magnitude.map(lambda v: Reading(value=v, relation=">")),
@@ -34,7 +36,7 @@ def _value(name: str) -> st.SearchStrategy[Any]:
     if spec.kind == "number":
         if spec.unit == "degC":
             return st.integers(min_value=-60, max_value=250).map(float)
-        return _magnitude
+        return _design
     if spec.kind == "choice":
         return st.sampled_from(spec.choices)
     if spec.kind == "count":

@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+import io
 import json
+import re
+import tempfile
 from pathlib import Path
 
 import pytest
@@ -10,6 +13,7 @@ import pytest
 from adapters import AdapterError, AdapterOptions, collect
 from adapters.csv_adapter import CsvAdapter
 from adapters.lines_adapter import LinesAdapter
+from adapters.profile_schema import parse_profile
 from adapters.profiles import get_profile, list_profiles
 from engine import record_to_dict
 
@@ -119,3 +123,22 @@ def test_profile_not_json(tmp_path: Path) -> None:
     with pytest.raises(AdapterError) as info:
         list_profiles(str(tmp_path))
     assert info.value.code == "bad_profile" and "broken.json" in info.value.details["file"]
+
+
+def test_lines_profile_example_in_the_adapters_readme_loads_and_reads() -> None:
+    """The 'lines' profile shown in adapters/README.md is a valid profile and reads its logger's keys
+    (so the documentation is right)."""
+    readme = (Path(__file__).parents[2] / "adapters" / "README.md").read_text(encoding="utf-8")
+    block = re.search(r"```json\n(\{\"name\": \"bench-lines\".*?)\n```", readme, re.S)
+    assert block is not None
+    doc = json.loads(block.group(1))
+    assert parse_profile(doc)["kind"] == "lines"
+    with tempfile.TemporaryDirectory() as tmp:
+        (Path(tmp) / "bench.json").write_text(json.dumps(doc), encoding="utf-8")
+        data = "circuit=3 Schleife=0,61 Durchgang=410\n".encode("cp1252")
+        got = collect(LinesAdapter().read(io.BytesIO(data), AdapterOptions(profile="bench-lines",
+                                                                             profile_dir=tmp)))
+    assert got.errors == [] and got.warnings == []
+    (rec,) = got.records
+    assert (rec.board, rec.zs_ohm.value if rec.zs_ohm else None) == ("DB1", 0.61)
+    assert rec.r1_r2_ohm is not None and rec.r1_r2_ohm.value == 0.41

@@ -73,6 +73,7 @@ def test_sentences_use_the_trades_words_not_field_names() -> None:
     for shown in (table, junit):
         assert "ir_ll_mohm" not in shown and "IR L-L" in shown
     assert trade_text("ze_ohm would allow it; zs_ohm_extra stays") == "Ze would allow it; zs_ohm_extra stays"
+    assert trade_text("needs Ib (design_current_a) or In (device_rating_a)") == "needs Ib or In"
 
 
 def test_junit_cases_say_what_was_tested() -> None:
