@@ -26,8 +26,11 @@ from typing import Any
 from ..cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK
 from .context import ContextKeeper
 from .forwarder import BatchRejected, BatchRetrying, BatchSent, Forwarder, ForwardEvent, Halted, run_forwarder
+from .reader import PortReader, start_reader_thread
+from .serial_source import open_serial_source, translate_event
 from .spool import Spool
-from .status import Reporter, Tally, verdict_line
+from .status import JsonReporter, LiveReporter, QuietReporter, Reporter, Tally, verdict_line
+from .transport import HttpTransport
 
 __all__ = ["Session", "SessionResult", "run_session"]
 
@@ -172,8 +175,6 @@ class Session:
 
 
 def _reporter(mode: str) -> Reporter:
-    from .status import JsonReporter, LiveReporter, QuietReporter
-
     if mode == "json":
         return JsonReporter()
     if mode == "quiet":
@@ -185,10 +186,6 @@ def run_session(*, spool: Spool, job: str, api: str, api_key: str | None, port: 
                 baud: int, profile: str | None, batch_lines: int, linger_s: float, drain_s: float,
                 replay: bool, mode: str) -> int:
     """Wire a session from the command line's choices, run it, print a one-line summary."""
-    from .reader import PortReader, start_reader_thread
-    from .serial_source import open_serial_source, translate_event
-    from .transport import HttpTransport
-
     if replay:
         spool.requeue_rejected()
     transport = HttpTransport(api, job, api_key=api_key, profile=profile)

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import sqlite3
 import threading
+import time
 import uuid
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -163,8 +164,6 @@ class Spool:
 
     def __init__(self, path: str | Path, *, job: str | None = None, api: str | None = None,
                  clock: Callable[[], float] | None = None, read_only: bool = False) -> None:
-        import time
-
         self.path = Path(path)
         self._clock = clock or time.time
         self._lock = threading.RLock()

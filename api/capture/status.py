@@ -22,6 +22,10 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, fields, replace
 from typing import IO, Any, Protocol
 
+from rich.console import Console
+from rich.live import Live
+from rich.text import Text
+
 from .forwarder import BatchRejected, BatchRetrying, BatchSent, ForwardEvent, Halted
 
 __all__ = ["JsonReporter", "LiveReporter", "QuietReporter", "Reporter", "Tally", "verdict_line"]
@@ -159,9 +163,6 @@ class LiveReporter(_Base):
     """The default: a live status line (rich) with findings printed above it as they arrive."""
 
     def __init__(self) -> None:
-        from rich.console import Console
-        from rich.live import Live
-
         self.console = Console(stderr=True)
         self._live = Live(console=self.console, refresh_per_second=4, transient=False)
         self._live.start()
@@ -178,8 +179,6 @@ class LiveReporter(_Base):
         super().forward(event, tally)
 
     def refresh(self, tally: Tally) -> None:
-        from rich.text import Text
-
         t = tally.snapshot()
         port_style = {"open": "green", "lost": "red", "waiting": "yellow"}.get(t.port, "")
         line = Text.assemble(
