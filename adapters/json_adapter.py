@@ -2,8 +2,8 @@
 
 Accepts a list of records, an object ``{"circuits": [...]}`` (other members,
 such as ``ruleset``, are left to the caller), or newline-delimited JSON (one
-record per line). Field names are the record's own (DESIGN.md, "Circuit
-record"); aliases are accepted too, as in the other adapters.
+record per line). Field names are the record's own (:data:`engine.FIELDS`,
+engine/README.md); aliases are accepted too, as in the other adapters.
 
 Invariants (beyond those of :mod:`adapters.base`):
 - A record that is not an object, or lacks ``board``/``circuit``, is one

@@ -1,4 +1,4 @@
-"""The csv adapter: neutral round trips, detection, aliases, bad input (DESIGN.md, "Adapters")."""
+"""The csv adapter: neutral round trips, detection, aliases, bad input (adapters/README.md)."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""Adapter discovery through entry points, group ohmtally.adapters (DESIGN.md, "Adapters")."""
+"""Adapter discovery through entry points, group ohmtally.adapters (adapters/README.md)."""
 
 from __future__ import annotations
 

@@ -18,8 +18,8 @@ from api.cli.capture import default_spool_path, read_api_key
 
 from .test_capture_harness import FakeApi
 
-# A verdict shaped as DESIGN.md's "Verdict (per circuit)"; figures from BS 7671:2018 Table 41.3
-# (REFERENCE-VALUES.md): B32, 0.4 s, maximum Zs 1.37 Ω.
+# A verdict shaped as the API's verdict (engine/README.md); figures from BS 7671:2018 Table 41.3:
+# B32, 0.4 s, maximum Zs 1.37 Ω.
 FAIL_VERDICT = {"board": "DB1", "circuit": "3", "outcome": "fail", "checks": [
     {"check": "loop_impedance", "outcome": "fail", "value": 1.92, "limit": 1.37, "unit": "Ω"},
     {"check": "insulation", "outcome": "pass", "value": 200, "limit": 1, "unit": "MΩ"}]}

@@ -41,7 +41,7 @@ def _line(n: int) -> str:
     return f"board=DB2 circuit={n} zs_ohm=0.{40 + n} r1_r2_ohm=0.{20 + n}"
 
 
-# BS 7671:2018 Table 41.3 (REFERENCE-VALUES.md): B32 breaker, 0.4 s, maximum Zs 1.37 Ω; 2.5 Ω fails.
+# BS 7671:2018 Table 41.3: B32 breaker, 0.4 s, maximum Zs 1.37 Ω; 2.5 Ω fails.
 FAILING = ('board=DB2 circuit=9 earthing=TN-C-S device_kind=breaker device_standard="BS EN 60898" '
            "device_curve=B device_rating_a=32 zs_ohm=2.5")
 

@@ -78,7 +78,7 @@ def test_negative_margin_stays_a_number() -> None:
                         limit_kind="max", unit="Ω", detail="above the maximum")
     verdict = Verdict(board="DB1", circuit="3", outcome=Outcome.FAIL, checks=(check,))
     (row,) = rows_of(verify_body(load_ruleset(None), [verdict], []))
-    # margin derived from (limit − value) / limit, DESIGN.md: (1.37 − 1.6) / 1.37
+    # margin derived from (limit − value) / limit for an upper limit: (1.37 − 1.6) / 1.37
     assert float(row["margin"]) == pytest.approx((1.37 - 1.6) / 1.37, abs=1e-4)
     assert row["margin"].startswith("-")
     assert (row["value"], row["relation"], row["limit"]) == ("1.6", "'=", "1.37")

@@ -1,6 +1,6 @@
 """The fail/warn policy: how each outcome counts for a pipeline.
 
-The order it follows is the contract's (DESIGN.md, Verdict): fail >
+The order it follows is the verdict's (engine/README.md): fail >
 investigate > incomplete > pass; ``--fail-on investigate`` means investigate
 counts as failing, ``--fail-on incomplete`` means both do (issue 8).
 """
@@ -29,7 +29,7 @@ CASES = [
 @pytest.mark.parametrize(("names", "expected"), CASES)
 def test_treatment_follows_the_contract_severity_order(names: tuple[str, str],
                                                        expected: tuple[Treatment, ...]) -> None:
-    """Each policy fails at and above its threshold, warns between, passes below (DESIGN.md order)."""
+    """Each policy fails at and above its threshold, warns between, passes below (the verdict's order)."""
     policy = policy_from_names(*names)
     got = tuple(policy.treat(o) for o in (Outcome.FAIL, Outcome.INVESTIGATE,
                                           Outcome.INCOMPLETE, Outcome.PASS))
