@@ -31,6 +31,8 @@ class VerifyAnswer:
     verdicts: Sequence[Verdict]
     rejected: Sequence[Mapping[str, Any]] = ()
     job_id: int | None = None
+    next_cursor: str | None = None
+    limit: int | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

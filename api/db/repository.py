@@ -41,6 +41,7 @@ __all__ = [
     "Merged",
     "Row",
     "bump_revision",
+    "circuits_page",
     "create_job",
     "decode_cursor",
     "encode_cursor",
@@ -240,6 +241,26 @@ def job_circuits(session: Session, job: Job) -> list[Circuit]:
     return list(session.scalars(select(Circuit).where(Circuit.job_id == job.id).order_by(Circuit.id)))
 
 
+def circuits_page(session: Session, job: Job, *, limit: int, after: int | None = None,
+                  board: str | None = None) -> tuple[list[Circuit], int | None]:
+    """One page of the job's circuits in the order they were first recorded, and the id to
+    continue after (``None`` at the end).
+
+    Ordered by id, which only grows: a circuit recorded while a client pages lands after
+    every page it has seen, and a circuit never moves, so every circuit is listed exactly
+    once across the pages even while readings arrive.
+    """
+    query = select(Circuit).where(Circuit.job_id == job.id).order_by(Circuit.id).limit(limit + 1)
+    if after is not None:
+        query = query.where(Circuit.id > after)
+    if board is not None:
+        query = query.where(Circuit.board == board)
+    rows = list(session.scalars(query))
+    more = len(rows) > limit
+    page = rows[:limit]
+    return page, page[-1].id if more and page else None
+
+
 def records_of(circuits: Sequence[Circuit]) -> list[CircuitRecord]:
     out: list[CircuitRecord] = []
     for row in circuits:
@@ -283,10 +304,12 @@ def _record(board: str, circuit: str, text: str) -> CircuitRecord | None:
     return record
 
 
-def job_history(session: Session, job: Job) -> dict[int, dict[str, list[dict[str, Any]]]]:
-    """circuit id → field → values oldest first, in one query."""
+def job_history(session: Session, job: Job, circuit_ids: Sequence[int]
+                ) -> dict[int, dict[str, list[dict[str, Any]]]]:
+    """circuit id → field → values oldest first, for the given circuits of the job, in one query."""
     query = (select(FieldHistory).join(Circuit, Circuit.id == FieldHistory.circuit_id)
-             .where(Circuit.job_id == job.id).order_by(FieldHistory.id))
+             .where(Circuit.job_id == job.id, FieldHistory.circuit_id.in_(circuit_ids))
+             .order_by(FieldHistory.id))
     out: dict[int, dict[str, list[dict[str, Any]]]] = {}
     for row in session.scalars(query):
         out.setdefault(row.circuit_id, {}).setdefault(row.field, []).append({

@@ -30,8 +30,9 @@ def bump_revision(job: Job) -> None:
     job.revision += 1
 
 
-def verdicts_etag(job: Job, ruleset: Ruleset) -> str:
-    basis = f"verdicts:{job.id}:{job.revision}:{ruleset.id}:{ruleset.version}:{__version__}"
+def verdicts_etag(job: Job, ruleset: Ruleset, variant: str = "") -> str:
+    """``variant`` names what else shapes the body (the page, the view, the format)."""
+    basis = f"verdicts:{job.id}:{job.revision}:{ruleset.id}:{ruleset.version}:{__version__}:{variant}"
     return '"' + hashlib.sha256(basis.encode()).hexdigest()[:32] + '"'
 
 

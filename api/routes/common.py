@@ -14,6 +14,7 @@ from api.settings import Settings
 from engine import DEFAULT_RULESET, EngineError, Ruleset, builtin_ruleset_ids, load_ruleset
 
 __all__ = [
+    "NOTICE_HEADER",
     "READINGS_BODY_DOC",
     "chosen_ruleset_id",
     "json_body",
@@ -23,6 +24,8 @@ __all__ = [
     "settings",
 ]
 
+# CSV has no place for prose, so every rendered answer also carries the caution in a header.
+NOTICE_HEADER = "Ohmtally-Notice"
 _TEXT_BODY = {"schema": {"type": "string"}}
 READINGS_BODY_DOC: dict[str, Any] = {
     "required": True,

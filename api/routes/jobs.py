@@ -3,19 +3,33 @@
 from __future__ import annotations
 
 from typing import Any
+from urllib.parse import urlencode
 
 from flask import Response, request
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
+from sqlalchemy.orm import Session
 
-from api.answers import VerifyAnswer, circuit_state
-from api.db.repository import create_job, get_job, job_circuits, job_history, list_jobs, records_of
+from api.answers import VerifyAnswer, circuit_state, verify_body
+from api.db.models import Circuit, Job
+from api.db.repository import (
+    circuits_page,
+    create_job,
+    decode_cursor,
+    encode_cursor,
+    get_job,
+    job_history,
+    job_records,
+    list_jobs,
+    records_of,
+)
 from api.db.session import get_session
 from api.http.auth import tenant
 from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC
-from api.routes.common import json_body, json_body_doc, resolve_ruleset, settings
+from api.render import DEFAULT_POLICY, MEDIA_TYPES, render
+from api.routes.common import NOTICE_HEADER, json_body, json_body_doc, resolve_ruleset, settings
 from api.schemas.jobs import (
     CircuitsQuerySchema,
     CircuitsResponseSchema,
@@ -24,10 +38,13 @@ from api.schemas.jobs import (
     JobListSchema,
     JobSchema,
     JobVerdictsSchema,
+    VerdictsQuerySchema,
 )
 from api.webhooks.outbox import emit_job_created
-from engine import verify
+from engine import NOTICE, verify
 
+_LINK_DOC = {"Link": {"schema": {"type": "string"},
+                      "description": 'the next page: <url>; rel="next" (RFC 8288), absent on the last'}}
 IF_NONE_MATCH_DOC = {"in": "header", "name": "If-None-Match", "required": False, "schema": {"type": "string"},
                      "description": "an ETag of an earlier answer: 304 while the verdicts are unchanged"}
 
@@ -74,32 +91,66 @@ class JobDetail(MethodView):
         return get_job(get_session(), tenant(), job_id)
 
 
+def _page_links(job_id: int, what: str, cursor: str | None, query: dict[str, Any]) -> dict[str, str]:
+    """``Link: <…>; rel="next"`` (RFC 8288) to the next page, keeping the request's other parameters."""
+    if cursor is None:
+        return {}
+    kept = {k: v for k, v in request.args.items() if k != "cursor"}
+    target = f"/v1/jobs/{job_id}/{what}?" + urlencode({**kept, "cursor": cursor})
+    return {"Link": f'<{target}>; rel="next"'}
+
+
+def _page(session: Session, job: Job, query: dict[str, Any]) -> tuple[list[Circuit], str | None, int]:
+    limit = query.get("limit") or settings().page_limit
+    after = decode_cursor(query["cursor"]) if query.get("cursor") else None
+    rows, last = circuits_page(session, job, limit=limit, after=after, board=query.get("board"))
+    return rows, encode_cursor(last) if last is not None else None, limit
+
+
 @blp.route("/jobs/<int:job_id>/circuits")
 class JobCircuits(MethodView):
     @blp.arguments(CircuitsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
-    @blp.response(200, CircuitsResponseSchema)
-    def get(self, job_id: int, history: bool = False) -> Any:
-        """The job's merged circuit records; `?history=true` adds every value of each field."""
+    @blp.response(200, CircuitsResponseSchema, headers=_LINK_DOC)
+    def get(self, job_id: int, **query: Any) -> Any:
+        """The job's merged circuit records, a page at a time (`?limit`, `?cursor`, `?board`);
+        `?history=true` adds every value of each field."""
         session = get_session()
         job = get_job(session, tenant(), job_id)
-        rows = job_circuits(session, job)
-        by_circuit = job_history(session, job) if history else {}
-        states = [circuit_state(row, record, by_circuit.get(row.id, {}) if history else None)
+        rows, cursor, limit = _page(session, job, query)
+        by_circuit = job_history(session, job, [row.id for row in rows]) if query["history"] else {}
+        states = [circuit_state(row, record, by_circuit.get(row.id, {}) if query["history"] else None)
                   for row, record in zip(rows, records_of(rows), strict=True)]
-        return {"job_id": job.id, "circuits": states}
+        body = {"job_id": job.id, "circuits": states, "next_cursor": cursor, "limit": limit}
+        return body, _page_links(job.id, "circuits", cursor, query)
 
 
 @blp.route("/jobs/<int:job_id>/verdicts")
 class JobVerdicts(MethodView):
-    @blp.doc(parameters=[IF_NONE_MATCH_DOC], responses={304: {"description": "unchanged since that ETag"}})
-    @blp.response(200, JobVerdictsSchema, headers={"ETag": {"schema": {"type": "string"}}})
-    def get(self, job_id: int) -> Any:
-        """Verdicts of all the job's circuits, recomputed now; `If-None-Match` → 304 if unchanged."""
+    @blp.arguments(VerdictsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
+    @blp.doc(parameters=[IF_NONE_MATCH_DOC], responses={
+        304: {"description": "unchanged since that ETag"},
+        200: {"content": {media.split(";")[0]: {"schema": {"type": "string"}}
+                          for fmt, media in MEDIA_TYPES.items() if fmt != "json"}}})
+    @blp.response(200, JobVerdictsSchema, headers={"ETag": {"schema": {"type": "string"}}, **_LINK_DOC})
+    def get(self, job_id: int, **query: Any) -> Any:
+        """Verdicts of the job's circuits, a page at a time (`?limit`, `?cursor`, `?board`),
+        recomputed now; `If-None-Match` → 304 while unchanged; `?format=` renders the page."""
         session = get_session()
         job = get_job(session, tenant(), job_id)
         ruleset = resolve_ruleset(job.ruleset)
-        etag = verdicts_etag(job, ruleset)  # from the job row alone: a 304 reads no record
+        variant = "&".join(f"{k}={v}" for k, v in sorted(query.items()))
+        etag = verdicts_etag(job, ruleset, variant)  # from the job row alone: a 304 reads no record
         if if_none_match(request.headers.get("If-None-Match"), etag):
             return Response(status=304, headers={"ETag": etag})
-        records = records_of(job_circuits(session, job))
-        return VerifyAnswer(ruleset=ruleset, verdicts=verify(records, ruleset), job_id=job.id), {"ETag": etag}
+        rows, cursor, limit = _page(session, job, query)
+        wanted = {(row.board, row.circuit) for row in rows}
+        # Every circuit of the page is judged with the whole job in view (board-level checks).
+        verdicts = verify(job_records(session, job), ruleset, only=wanted)
+        headers = {"ETag": etag, **_page_links(job.id, "verdicts", cursor, query)}
+        answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,
+                              limit=limit)
+        if query.get("format") in (None, "json"):
+            return answer, headers
+        text, media_type = render(verify_body(ruleset, verdicts, []), query["format"], DEFAULT_POLICY)
+        return Response(text, status=200, content_type=media_type,
+                        headers={**headers, NOTICE_HEADER: NOTICE})

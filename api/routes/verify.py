@@ -21,7 +21,14 @@ from api.render import (
     policy_from_names,
     render,
 )
-from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
+from api.routes.common import (
+    NOTICE_HEADER,
+    READINGS_BODY_DOC,
+    chosen_ruleset_id,
+    raw_body,
+    resolve_ruleset,
+    settings,
+)
 from api.schemas.verdicts import VerifyResponseSchema
 from engine import NOTICE, verify
 
@@ -53,8 +60,6 @@ class VerifyQuerySchema(ReadingsQuerySchema):
 
 _TEXT = {"schema": {"type": "string"}}
 FAILING_HEADER = "Ohmtally-Failing-Circuits"
-# CSV has no place for prose, so every rendered answer also carries the caution in a header.
-NOTICE_HEADER = "Ohmtally-Notice"
 _FORMATS_DOC: dict[int, Any] = {200: {
     "content": {media.split(";")[0]: _TEXT for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
     "headers": {FAILING_HEADER: {"schema": {"type": "integer"},

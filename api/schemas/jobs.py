@@ -10,6 +10,7 @@ from typing import Any
 
 from marshmallow import RAISE, Schema, fields, post_dump, validate
 
+from api.render import FORMATS
 from api.schemas.verdicts import VerifyResponseSchema, notice_field, rejected_list, verdict_list
 from engine import record_to_dict
 
@@ -26,6 +27,7 @@ __all__ = [
     "UploadListSchema",
     "UploadRefSchema",
     "UploadSchema",
+    "VerdictsQuerySchema",
 ]
 
 
@@ -98,13 +100,38 @@ class CircuitStateSchema(_Strict):
         return data
 
 
-class CircuitsQuerySchema(_Strict):
+MAX_CIRCUITS_PAGE = 1000
+
+
+class _CircuitPageQuery(_Strict):
+    limit = fields.Integer(validate=validate.Range(min=1, max=MAX_CIRCUITS_PAGE), metadata={
+        "description": f"circuits per page (default OHMTALLY_PAGE_LIMIT, at most {MAX_CIRCUITS_PAGE})"})
+    cursor = fields.String(metadata={"description": "opaque; the next_cursor of the previous page"})
+    board = fields.String(validate=validate.Length(min=1, max=200),
+                          metadata={"description": "only the circuits of this board"})
+
+
+class CircuitsQuerySchema(_CircuitPageQuery):
     history = fields.Boolean(load_default=False)
+
+
+class VerdictsQuerySchema(_CircuitPageQuery):
+    format = fields.String(validate=validate.OneOf(FORMATS), metadata={
+        "description": "json (default), junit, csv or table: the page rendered as `ohmtally verify "
+                       "--format` renders it"})
+
+
+def _next_cursor() -> fields.String:
+    return fields.String(required=True, allow_none=True, metadata={
+        "description": "pass as ?cursor= for the next page (also in the Link header, rel=next); "
+                       "null on the last page"})
 
 
 class CircuitsResponseSchema(_Strict):
     job_id = fields.Integer(required=True)
     circuits = fields.List(fields.Nested(CircuitStateSchema), required=True)
+    next_cursor = _next_cursor()
+    limit = fields.Integer(required=True)
 
 
 class UploadRefSchema(_Strict):
@@ -152,7 +179,11 @@ class ReadingsResponseSchema(_Strict):
 
 
 class JobVerdictsSchema(VerifyResponseSchema):
+    """One page of a job's verdicts; ``summary`` counts the verdicts of this page."""
+
     job_id = fields.Integer(required=True)
+    next_cursor = _next_cursor()
+    limit = fields.Integer(required=True)
 
     class Meta:
         ordered = True

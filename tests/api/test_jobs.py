@@ -96,7 +96,7 @@ def test_readings_merge_per_field_and_keep_history(client: FlaskClient) -> None:
 
 
 def test_bounded_readings_are_stored_as_bounds(client: FlaskClient) -> None:
-    """'> 299 MΩ' and 'OL' stay bounded through storage (engine/README.md: a bounded reading is never turned into a plain number)."""
+    """'> 299 MΩ' and 'OL' stay bounded through storage (engine/README.md: never a plain number)."""
     job = _job(client)["id"]
     _post(client, job, '{"circuits": [{"board": "B", "circuit": "1", "ir_le_mohm": "> 299 MΩ", '
                        '"ir_ll_mohm": "OL"}]}', "application/json")

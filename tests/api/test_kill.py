@@ -24,6 +24,7 @@ import httpx
 import pytest
 
 from api.cli.demo import free_port
+from tests.api.paging import all_pages
 
 pytestmark = pytest.mark.postgres
 
@@ -84,7 +85,7 @@ def server(db_url: str) -> Iterator[Server]:
 def _snapshot(base: str, job_id: int) -> dict[str, Any]:
     with httpx.Client(base_url=base, timeout=60) as client:
         uploads = client.get(f"/v1/jobs/{job_id}/uploads").json()["uploads"]
-        circuits = client.get(f"/v1/jobs/{job_id}/circuits?history=true").json()["circuits"]
+        circuits = all_pages(client, f"/v1/jobs/{job_id}/circuits?history=true", "circuits")
     per_upload: dict[int, int] = {}
     for circuit in circuits:
         for values in circuit["history"].values():

@@ -81,7 +81,9 @@ def test_a_304_reads_no_record(client: FlaskClient, monkeypatch: pytest.MonkeyPa
     def no_records(*_args: Any) -> Any:
         raise AssertionError("records were read for a 304")
 
-    monkeypatch.setattr(sys.modules["api.routes.jobs"], "job_circuits", no_records)
+    routes = sys.modules["api.routes.jobs"]
+    monkeypatch.setattr(routes, "circuits_page", no_records)
+    monkeypatch.setattr(routes, "job_records", no_records)
     assert client.get(f"/v1/jobs/{job['id']}/verdicts", headers={"If-None-Match": etag}).status_code == 304
 
 

@@ -63,7 +63,7 @@ def test_ruleset_by_body_or_query(client: FlaskClient) -> None:
 
 
 def test_duplicate_circuits_merge_per_field_later_wins(client: FlaskClient) -> None:
-    """Two objects for one circuit merge field by field, the later value winning (api/README.md merge rule)."""
+    """Two objects for one circuit merge field by field, the later value winning (api/README.md)."""
     body = client.post("/v1/verify", json={"circuits": [
         {"board": "A", "circuit": "1", "zs_ohm": 9.0, "polarity_ok": True},
         {"board": "A", "circuit": "1", "zs_ohm": 0.5}]}).get_json()
