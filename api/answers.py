@@ -30,6 +30,7 @@ class VerifyAnswer:
     ruleset: Ruleset
     verdicts: Sequence[Verdict]
     rejected: Sequence[Mapping[str, Any]] = ()
+    warnings: Sequence[Mapping[str, Any]] = ()
     job_id: int | None = None
     next_cursor: str | None = None
     limit: int | None = None
@@ -43,6 +44,7 @@ class ReadingsAnswer:
     rejected: Sequence[Mapping[str, Any]]
     upload: Upload
     verdicts: Sequence[Verdict]
+    warnings: Sequence[Mapping[str, Any]] = ()
     duplicate_of: int | None = None
     extra: Mapping[str, Any] = field(default_factory=dict)
 
@@ -69,9 +71,9 @@ def circuit_state(row: Circuit, record: CircuitRecord,
 _VERIFY_SCHEMA = VerifyResponseSchema()
 
 
-def verify_body(ruleset: Ruleset, verdicts: Sequence[Verdict],
-                rejected: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
+def verify_body(ruleset: Ruleset, verdicts: Sequence[Verdict], rejected: Sequence[Mapping[str, Any]],
+                warnings: Sequence[Mapping[str, Any]] = ()) -> dict[str, Any]:
     """The verify answer's JSON document (as ``POST /v1/verify`` answers it)."""
     body: dict[str, Any] = _VERIFY_SCHEMA.dump(VerifyAnswer(ruleset=ruleset, verdicts=verdicts,
-                                                            rejected=rejected))
+                                                            rejected=rejected, warnings=warnings))
     return body

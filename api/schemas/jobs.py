@@ -11,7 +11,13 @@ from typing import Any
 from marshmallow import RAISE, Schema, fields, post_dump, validate
 
 from api.render import FORMATS
-from api.schemas.verdicts import VerifyResponseSchema, notice_field, rejected_list, verdict_list
+from api.schemas.verdicts import (
+    VerifyResponseSchema,
+    notice_field,
+    rejected_list,
+    verdict_list,
+    warning_list,
+)
 from engine import record_to_dict
 
 __all__ = [
@@ -164,6 +170,7 @@ class UploadListSchema(_Strict):
 class ReadingsResponseSchema(_Strict):
     accepted = fields.Integer(required=True, metadata={"description": "field values merged"})
     rejected = rejected_list()
+    warnings = warning_list()
     upload = fields.Nested(UploadRefSchema, required=True)
     verdicts = verdict_list(metadata={"description": "verdicts of the circuits this upload touched"})
     notice = notice_field()

@@ -19,6 +19,7 @@ from engine import CHECK_IDS, NOTICE, summarise
 
 __all__ = [
     "CheckSchema",
+    "InputWarningSchema",
     "RejectedSchema",
     "RulesetRefSchema",
     "SummarySchema",
@@ -81,6 +82,22 @@ class RejectedSchema(Schema):
     reason = fields.String(required=True)
 
 
+class InputWarningSchema(_Strict):
+    """A name in the input that was read as nothing (an unknown or ambiguous column or key): said
+    out loud, nothing rejected. Reported once per input, where the name first appears."""
+
+    line = fields.Integer(metadata={"description": "input line (CSV header, lines format line)"})
+    pointer = fields.String(metadata={"description": "JSON pointer (JSON bodies)"})
+    file = fields.String()
+    code = fields.String(required=True, metadata={
+        "description": "unknown_field, ambiguous_label, duplicate_column, ignored_column, too_many_names"})
+    reason = fields.String(required=True)
+    column = fields.String(metadata={"description": "the name as the input spells it"})
+    field = fields.String(metadata={"description": "the field it was taken as, if any"})
+    fields_ = fields.List(fields.String(), data_key="fields",
+                          metadata={"description": "the fields an ambiguous name could mean"})
+
+
 class RulesetRefSchema(_Strict):
     id = fields.String(required=True)
     title = fields.String(required=True)
@@ -97,6 +114,7 @@ class SummarySchema(_Strict):
     investigate = fields.Integer(required=True)
     incomplete = fields.Integer(required=True)
     rejected = fields.Integer(required=True)
+    warnings = fields.Integer(required=True)
 
 
 def verdict_list(**kwargs: Any) -> Prepared:
@@ -107,6 +125,11 @@ def verdict_list(**kwargs: Any) -> Prepared:
 def rejected_list(**kwargs: Any) -> Prepared:
     """The ``rejected`` member: each entry as recorded (pointer or line, code, reason …)."""
     return Prepared(fields.Nested(RejectedSchema), dict, required=True, **kwargs)
+
+
+def warning_list(**kwargs: Any) -> Prepared:
+    """The ``warnings`` member: names in the input that were read as nothing, each once."""
+    return Prepared(fields.Nested(InputWarningSchema), dict, required=True, **kwargs)
 
 
 def notice_field() -> fields.Constant[str]:
@@ -121,7 +144,9 @@ class VerifyResponseSchema(_Strict):
                             metadata={"description": "circuits counted by outcome, and rejected inputs"})
     verdicts = verdict_list()
     rejected = rejected_list()
+    warnings = warning_list()
     notice = notice_field()
 
     def _summary(self, answer: Any) -> dict[str, int]:
-        return {**summarise(answer.verdicts), "rejected": len(answer.rejected)}
+        return {**summarise(answer.verdicts), "rejected": len(answer.rejected),
+                "warnings": len(answer.warnings)}
