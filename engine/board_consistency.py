@@ -7,7 +7,9 @@ agree; the median is their consensus, robust against the one circuit whose
 reading is wrong, which is the one we want to find.
 
 Invariants:
-- Only exact Zs and R1+R2 readings enter an estimate (a bound is not a value).
+- Only exact Zs and R1+R2 readings enter an estimate (a bound is not a value),
+  and only plausible ones (:func:`engine.plausibility.usable`): an impossible
+  reading never moves the board's consensus.
 - The consensus exists only with at least ``consensus_min_circuits`` estimates
   (ruleset ``loop_consistency``); otherwise it is ``None``.
 - Computed once per board per verify call and cached in ``ctx.cache``.
@@ -21,6 +23,7 @@ from dataclasses import dataclass, field
 from statistics import median
 
 from .context import Context
+from .plausibility import usable
 
 __all__ = ["BoardZe", "board_ze"]
 
@@ -42,12 +45,14 @@ def board_ze(board: str, ctx: Context) -> BoardZe:
         return cached
     estimates: dict[str, float] = {}
     measured: list[float] = []
+    rules = ctx.ruleset
     for record in ctx.by_board.get(board, ()):
         zs, r1r2, ze = record.zs_ohm, record.r1_r2_ohm, record.ze_ohm
-        if zs is not None and r1r2 is not None and zs.exact and r1r2.exact:
+        if (zs is not None and r1r2 is not None and zs.exact and r1r2.exact
+                and usable(record, rules, "zs_ohm") and usable(record, rules, "r1_r2_ohm")):
             assert zs.value is not None and r1r2.value is not None
             estimates[record.circuit] = zs.value - r1r2.value
-        if ze is not None and ze.exact:
+        if ze is not None and ze.exact and usable(record, rules, "ze_ohm"):
             assert ze.value is not None
             measured.append(ze.value)
     least = int(ctx.ruleset.value("loop_consistency", "consensus_min_circuits"))

@@ -141,14 +141,15 @@ def upstream_drop(board: str, ctx: Context) -> Upstream | FeederProblem:
         parts: list[UpstreamPart] = []
         result = Upstream(parts=())
         for record in chain:
-            drop: Drop | NoDrop = own_drop(ctx.view(record))
+            feeder = ctx.view(record)  # a feeder's values are judged as its own circuit's are
+            drop: Drop | NoDrop = own_drop(feeder)
             ref = f"{record.board}/{record.circuit}"
             if isinstance(drop, NoDrop):
                 result = FeederProblem(
                     code="feeder_incomplete", boards=(board,),
                     message=f"the drop of feeder {ref} cannot be computed: {drop.detail}")
                 break
-            length = record.length_m
+            length = feeder.raw("length_m")
             parts.append(UpstreamPart(feeder=ref, volts=drop.volts, method=drop.method,
                                       length_m=None if length is None else float(length)))
         else:

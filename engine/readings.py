@@ -10,6 +10,10 @@ Invariants:
   ``None``; the field is then absent, not zero.
 - A unit that does not fit the field raises :class:`ReadingError` naming the
   field and the text; there is no silent conversion across dimensions.
+- The sign is kept as the meter gave it, from a JSON number or from text alike
+  (``-0.02``, ``"−0.02 Ω"`` with a minus sign): a small negative R1+R2 after
+  lead nulling is real life. Whether a value is physically possible is judged
+  where a check reads it (:mod:`engine.plausibility`), never here.
 
 Over-range markers accepted (case-insensitive): ``OL``, ``O.L.``, ``OVER``,
 ``OVR``, ``OR``, ``∞``, ``INF``, ``>`` alone, ``>MAX``, and three or more dashes.
@@ -33,6 +37,7 @@ Relation = Literal["=", ">", "<"]
 _OVER_RANGE = frozenset({"ol", "o.l", "o.l.", "over", "ovr", "or", "∞", "inf", ">", ">max", "> max"})
 _NO_READING = frozenset({"", "-", "–", "n/a", "na", "nt", "n.t.", "not tested", "none", "null"})
 _DASHES = re.compile(r"^-{3,}$")
+_MINUS_SIGN = "\u2212"  # "−", as spreadsheets and some meters print a negative number
 _RELATIONS: dict[str, Relation] = {
     ">": ">", ">=": ">", "≥": ">", "=>": ">",
     "<": "<", "<=": "<", "≤": "<", "=<": "<",
@@ -64,7 +69,11 @@ class Reading:
 
     @property
     def lower(self) -> float:
-        """The least the true value can be (0 for ``<`` readings: all fields are ≥ 0)."""
+        """The least the true value can be (0 for ``<`` readings: the quantities are ≥ 0).
+
+        A reading at or below zero never reaches a comparison: :mod:`engine.plausibility`
+        withholds it from every check first.
+        """
         if self.relation == "<" or self.value is None:
             return 0.0 if self.value is None or self.relation == "<" else self.value
         return self.value
@@ -146,7 +155,7 @@ def parse_reading(
         return None
     if folded in _OVER_RANGE or _DASHES.match(folded):
         return Reading(value=None, relation=">", text=text, source=source)
-    match = _SHAPE.match(text)
+    match = _SHAPE.match(text.replace(_MINUS_SIGN, "-"))
     if match is None or match.group("num") is None:
         # "OL MΩ", "> MΩ": an over-range marker with a unit after it
         head, _, tail = text.strip().partition(" ")
@@ -165,8 +174,6 @@ def parse_reading(
     elif default_unit:
         factor = _factor(default_unit, unit, field, text)
     relation = _RELATIONS[match.group("rel") or ""]
-    if number < 0:
-        raise ReadingError(f"{field}: {text!r} is negative", field=field, text=text)
     return Reading(value=tidy_value(number * factor), relation=relation, text=text, source=source)
 
 

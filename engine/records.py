@@ -9,6 +9,15 @@ Invariants:
 - :func:`build_record` never raises for bad field values: it returns the record
   built from the good fields and one :class:`FieldError` per bad one, so one bad
   cell never loses the rest of a row.
+- A rejected value is remembered, never replaced: ``CircuitRecord.rejected``
+  maps each refused field to the text that was refused, so no check takes a
+  default in its place (:mod:`engine.plausibility`). It round-trips:
+  ``build_record(record_to_dict(r))`` gives ``r`` back, ``rejected`` included;
+  a valid value for the same field clears the rejection.
+- The sign rule is one rule for every intake (JSON numbers, text, CSV cells,
+  logger lines all pass through :func:`coerce_field`): a measured reading keeps
+  its sign; a design value (a rating, a size, IΔn, a length, U0 …) must be
+  above zero, else it is refused.
 """
 
 from __future__ import annotations
@@ -26,6 +35,7 @@ from .fields import FIELDS, FieldSpec
 from .readings import Reading, format_number, parse_number, parse_reading, tidy_value
 
 __all__ = [
+    "REJECTED_KEY",
     "CircuitRecord",
     "FieldError",
     "build_record",
@@ -62,11 +72,18 @@ class CircuitRecord:
     rcd_residual_ma: float | None = None
     rcd_type: str | None = None
     rcd_delayed: bool | None = None
+    rcd_type_required: str | None = None
     conductor_material: str | None = None
     line_mm2: float | None = None
     neutral_mm2: float | None = None
     cpc_mm2: float | None = None
     insulation_temp_c: float | None = None
+    cable_type: str | None = None
+    reference_method: str | None = None
+    cable_iz_a: float | None = None
+    ambient_factor: float | None = None
+    grouping_factor: float | None = None
+    thermal_insulation_factor: float | None = None
     length_m: float | None = None
     cable_mv_per_a_m: float | None = None
     test_temp_c: float | None = None
@@ -86,6 +103,12 @@ class CircuitRecord:
     rcd_trip_5x_ms: Reading | None = None
     rcd_half_no_trip: bool | None = None
     ra_ohm: Reading | None = None
+    socket_rating_a: float | None = None
+    outdoor_equipment: bool | None = None
+    concealed_in_wall: bool | None = None
+    premises: str | None = None
+    rejected: Mapping[str, str] = dataclasses.field(default_factory=dict, hash=False)
+    """Fields refused at intake → the text refused (not one of :data:`engine.fields.FIELDS`)."""
 
     @property
     def key(self) -> tuple[str, str]:
@@ -95,7 +118,8 @@ class CircuitRecord:
         return dataclasses.replace(self, **changes)
 
 
-_RECORD_FIELDS = frozenset(f.name for f in dataclasses.fields(CircuitRecord))
+REJECTED_KEY = "rejected"
+_RECORD_FIELDS = frozenset(f.name for f in dataclasses.fields(CircuitRecord)) - {REJECTED_KEY}
 assert set(FIELDS) == _RECORD_FIELDS, "engine.fields and CircuitRecord disagree"
 
 
@@ -124,6 +148,12 @@ _CHOICE_ALIASES: dict[str, dict[str, str]] = {
     "device_kind": {"mcb": "breaker", "cb": "breaker", "breaker": "breaker", "rcbo": "rcbo",
                     "fuse": "fuse", "other": "other"},
     "load_type": {"lighting": "lighting", "lights": "lighting", "other": "other", "power": "other"},
+    "cable_type": {"te": "twin_and_earth", "tande": "twin_and_earth", "twinandearth": "twin_and_earth",
+                   "twinearth": "twin_and_earth", "singlecore": "single_core", "singles": "single_core",
+                   "t&e": "twin_and_earth", "multicore": "multicore", "armoured": "armoured",
+                   "armored": "armoured", "swa": "armoured"},
+    "premises": {"domestic": "domestic", "dwelling": "domestic", "house": "domestic", "other": "other",
+                 "commercial": "other", "industrial": "other"},
 }
 _FOLD = re.compile(r"[\s\-_./]+")
 
@@ -180,6 +210,8 @@ def _text(spec: FieldSpec, raw: Any, _u: str | None, _d: bool) -> str:
 
 
 def _choice(spec: FieldSpec, raw: Any, _u: str | None, _d: bool) -> str:
+    if type(raw) is int and str(raw) in spec.choices:  # reference method 100 as a JSON number
+        return str(raw)
     if not isinstance(raw, str):
         raise ReadingError(f"{spec.name}: expected one of {', '.join(spec.choices)}",
                            field=spec.name, text=repr(raw))
@@ -230,17 +262,22 @@ def _number(spec: FieldSpec, raw: Any, default_unit: str | None, decimal_comma: 
     if spec.unit == "degC":
         return _temperature(spec, raw, decimal_comma)
     if default_unit is None and type(raw) in (int, float) and math.isfinite(raw):
-        return tidy_value(float(raw))  # what parse_reading gives a bare number, without the Reading
-    assert spec.unit is not None
-    reading = parse_reading(raw, field=spec.name, unit=spec.unit, default_unit=default_unit,
-                            decimal_comma=decimal_comma)
-    if reading is None:
-        raise ReadingError(f"{spec.name}: expected a number", field=spec.name, text=str(raw))
-    if not reading.exact:
-        raise ReadingError(f"{spec.name}: a design value cannot be bounded or over range",
+        value = tidy_value(float(raw))  # what parse_reading gives a bare number, without the Reading
+    else:
+        assert spec.unit is not None
+        reading = parse_reading(raw, field=spec.name, unit=spec.unit, default_unit=default_unit,
+                                decimal_comma=decimal_comma)
+        if reading is None:
+            raise ReadingError(f"{spec.name}: expected a number", field=spec.name, text=str(raw))
+        if not reading.exact:
+            raise ReadingError(f"{spec.name}: a design value cannot be bounded or over range",
+                               field=spec.name, text=str(raw))
+        assert reading.value is not None
+        value = reading.value
+    if not value > 0.0:
+        raise ReadingError(f"{spec.name}: a design value must be above zero, got {raw!r}",
                            field=spec.name, text=str(raw))
-    assert reading.value is not None
-    return reading.value
+    return value
 
 
 _TEMPERATURE = re.compile(r"^\s*([+-]?[\d.,]+)\s*(°\s*C|deg\s*C|C|degC)?\s*$", re.IGNORECASE)
@@ -279,7 +316,11 @@ def build_record(
     """
     values: dict[str, Any] = {}
     errors: list[FieldError] = []
+    rejected: dict[str, str] = {}
     for name, raw in data.items():
+        if name == REJECTED_KEY:
+            rejected.update(_rejected_map(raw, errors))
+            continue
         if name not in FIELDS:
             errors.append(FieldError(field=name, code="unknown_field",
                                      reason=f"unknown field {name!r}"))
@@ -288,9 +329,15 @@ def build_record(
             value = coerce_field(name, raw, decimal_comma=decimal_comma, source=source)
         except ReadingError as exc:
             errors.append(FieldError(field=name, reason=exc.message, text=exc.text))
+            if name not in ("board", "circuit"):
+                rejected[name] = exc.text if exc.text is not None else repr(raw)
             continue
         if value is not None:
             values[name] = value
+    for name in [n for n in rejected if n in values]:
+        del rejected[name]  # a valid value clears the rejection
+    if rejected:
+        values[REJECTED_KEY] = rejected
     for key in ("board", "circuit"):
         if not values.get(key):
             errors.append(FieldError(field=key, code="missing_key",
@@ -300,12 +347,32 @@ def build_record(
     return CircuitRecord(**values), errors
 
 
+def _rejected_map(raw: Any, errors: list[FieldError]) -> dict[str, str]:
+    """A stored record's ``rejected`` member, checked: known fields mapped to text."""
+    if not isinstance(raw, Mapping):
+        errors.append(FieldError(field=REJECTED_KEY, reason="rejected must map fields to the text refused"))
+        return {}
+    out: dict[str, str] = {}
+    for name, text in raw.items():
+        if name not in FIELDS or name in ("board", "circuit") or not isinstance(text, str):
+            errors.append(FieldError(field=REJECTED_KEY, text=str(name),
+                                     reason=f"rejected: {name!r} is not a field with refused text"))
+            continue
+        out[name] = text
+    return out
+
+
 def record_to_dict(record: CircuitRecord) -> dict[str, Any]:
-    """The record as JSON-ready data: absent fields left out, readings as number or text."""
+    """The record as JSON-ready data: absent fields left out, readings as number or text.
+
+    Refused values travel under ``"rejected"`` (field → text), after the fields.
+    """
     out: dict[str, Any] = {}
     for name in FIELDS:
         value = getattr(record, name)
         if value is None:
             continue
         out[name] = value.to_json() if isinstance(value, Reading) else value
+    if record.rejected:
+        out[REJECTED_KEY] = dict(record.rejected)
     return out

@@ -172,6 +172,7 @@ class Verdict:
     outcome: Outcome
     checks: tuple[CheckResult, ...]
     defaults_applied: Mapping[str, Any] = field(default_factory=dict)
+    inferred: Mapping[str, Any] = field(default_factory=dict)
     errors: tuple[Mapping[str, str], ...] = ()
 
     @property
@@ -185,6 +186,7 @@ class Verdict:
             "outcome": self.outcome.value,
             "checks": [c.as_dict() for c in self.checks],
             "defaults_applied": dict(self.defaults_applied),
+            "inferred": dict(self.inferred),
         }
         if self.errors:
             out["errors"] = [dict(e) for e in self.errors]

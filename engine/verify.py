@@ -7,6 +7,10 @@ Invariants:
 - Nothing a record holds makes this raise. A ruleset lacking a value a check
   needs, or a bug in a check, becomes an ``incomplete`` result and an entry in
   the verdict's ``errors`` — never a pass and never a crash.
+- A value the circuit view withholds (rejected at intake, or not physically
+  possible: :mod:`engine.plausibility`) becomes that check's ``incomplete`` or
+  ``investigate`` result here, the one place for every check; results the
+  check gave before it read that value are kept.
 - Nothing process-wide is read or changed: no collector tuning, no globals.
   Collector settings belong to the process that owns them (the CLI, a server
   worker); at 10,000–30,000 circuits in one call a paused collector made
@@ -23,6 +27,7 @@ from contextlib import contextmanager
 from .checks import CHECKS
 from .context import Context
 from .errors import EngineError
+from .plausibility import Withheld
 from .records import CircuitRecord
 from .results import CheckResult, Outcome, Verdict, worst
 from .ruleset import Ruleset, load_ruleset
@@ -73,6 +78,8 @@ def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
     for check_id, run in CHECKS.items():
         try:
             checks.extend(run(view, ctx))
+        except Withheld as exc:
+            checks.append(exc.result(check_id, record.key))
         except EngineError as exc:
             errors.append({"check": check_id, **exc.as_dict()})
             checks.append(CheckResult(check=check_id, outcome=Outcome.INCOMPLETE,
@@ -88,5 +95,6 @@ def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
         outcome=worst(c.outcome for c in checks),
         checks=tuple(checks),
         defaults_applied=dict(view.defaults_applied),
+        inferred=dict(view.inferred),
         errors=tuple(errors),
     )

@@ -29,6 +29,7 @@ from typing import Any
 
 from ..conductors import area, resistance_at_test_temp
 from ..context import CircuitView, Context
+from ..plausibility import Withheld
 from ..readings import Reading
 from ..results import CheckResult, Outcome
 from ._compare import Side, compare_max, incomplete
@@ -108,29 +109,41 @@ def _result(name_method: str, reading: Reading, outcome: Outcome, detail: str, i
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     basis = ctx.ruleset.basis(CHECK, "requirement")
-    ring = view.get("circuit_form") == "ring"
-    r1r2 = view.reading("r1_r2_ohm")
+    try:  # R1+R2 and R2 are two judgements: one withheld never hides the other
+        r1r2 = view.reading("r1_r2_ohm")
+    except Withheld as exc:
+        yield exc.result(CHECK, view.record.key)
+        r1r2 = None
+    else:
+        yield _judge_r1r2(view, r1r2, basis)
+    try:
+        r2 = view.reading("r2_ohm")
+    except Withheld as exc:
+        yield exc.result(CHECK, view.record.key)
+        return
+    if r2 is not None:
+        yield _judge_r2(view, r2, r1r2, basis)
+
+
+def _judge_r1r2(view: CircuitView, r1r2: Reading | None, basis: str) -> CheckResult:
     if r1r2 is None:
         detail = "needs R1+R2: continuity of the protective conductor is verified on every circuit"
         ring_r1, ring_r2 = view.reading("ring_r1_ohm"), view.reading("ring_r2_ohm")
         extra: dict[str, Any] = {}
-        if ring and ring_r1 is not None and ring_r2 is not None and ring_r1.exact and ring_r2.exact:
+        if (view.get("circuit_form") == "ring" and ring_r1 is not None and ring_r2 is not None
+                and ring_r1.exact and ring_r2.exact):
             assert ring_r1.value is not None and ring_r2.value is not None
             estimate = (ring_r1.value + ring_r2.value) / 4
             extra["ring_estimate_ohm"] = estimate
             detail += (f"; the ring's end-to-end readings give (r1 + r2)/4 = {estimate:.3g} Ω, which "
                        "R1+R2 at the furthest point should read")
-        yield incomplete(CHECK, ["r1_r2_ohm"], detail=detail, basis=basis, inputs=extra)
-    elif r1r2.value is None:
-        yield _result("over_range", r1r2, Outcome.FAIL, "R1+R2 reads over range (OL): the line or the "
-                      "protective conductor of the circuit is open", {}, None, basis)
-    else:
-        outcome, detail, inputs, threshold = _plausibility(view, "R1+R2", r1r2, expected_resistance(view))
-        method = "expected_iec60228" if inputs.get("expected_ohm") is not None else "recorded"
-        yield _result(method, r1r2, outcome, detail, inputs, threshold, basis)
-    r2 = view.reading("r2_ohm")
-    if r2 is not None:
-        yield _judge_r2(view, r2, r1r2, basis)
+        return incomplete(CHECK, ["r1_r2_ohm"], detail=detail, basis=basis, inputs=extra)
+    if r1r2.value is None:
+        return _result("over_range", r1r2, Outcome.FAIL, "R1+R2 reads over range (OL): the line or the "
+                       "protective conductor of the circuit is open", {}, None, basis)
+    outcome, detail, inputs, threshold = _plausibility(view, "R1+R2", r1r2, expected_resistance(view))
+    method = "expected_iec60228" if inputs.get("expected_ohm") is not None else "recorded"
+    return _result(method, r1r2, outcome, detail, inputs, threshold, basis)
 
 
 def _judge_r2(view: CircuitView, r2: Reading, r1r2: Reading | None, basis: str) -> CheckResult:

@@ -26,6 +26,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 
 from ..context import CircuitView, Context
+from ..plausibility import Withheld
 from ..readings import Reading
 from ..results import CheckResult, Outcome
 from ..ruleset import Ruleset
@@ -88,8 +89,7 @@ def _circuit_voltage(view: CircuitView, ctx: Context) -> float | None:
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     rules = ctx.ruleset
-    readings = [(name, where, view.reading(name)) for name, where in _READINGS]
-    if all(r is None for _, _, r in readings):
+    if not any(view.has(name) for name, _ in _READINGS):
         yield incomplete(CHECK, [name for name, _ in _READINGS], basis=rules.basis(SECTION, "lv_min_mohm"))
         return
     circuit_v = _circuit_voltage(view, ctx)
@@ -98,7 +98,12 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         return
     band = _band(ctx, circuit_v)
     test_v = view.raw("ir_test_v")
-    for name, where, reading in readings:
+    for name, where in _READINGS:
+        try:  # each reading is its own judgement: one withheld never hides the other's fail
+            reading = view.reading(name)
+        except Withheld as exc:
+            yield exc.result(CHECK, view.record.key)
+            continue
         if reading is None:
             yield incomplete(CHECK, [name], basis=band.basis, inputs={"conductors": where})
         else:

@@ -1,15 +1,20 @@
 """Earth fault loop impedance: measured Zs against the device's maximum (Chapter 41).
 
-Invariants (BS 7671:2018 Reg. 411.3.2, 411.4.4, Tables 41.1–41.5; IEC 60364-4-41 411.4;
-the handbook rule of thumb for measured Zs, IET OSG / GN3):
-- The maximum comes from ``device_max_zs_ohm`` if given, else from the device
-  tables at the disconnection time the rules give (``engine.protection``).
-- Measured Zs ≤ the rule-of-thumb limit (the ruleset's ``rule_of_thumb_factor``
-  × max: 0.8 in BS 7671's handbook guidance) → pass (``rule_of_thumb``; the
-  factor is in ``inputs`` and in the sentence). Above it
-  but ≤ max: with Ze, Zs_hot = Ze + (Zs − Ze) × F against max
-  (``temperature_corrected``; Ze is not corrected, only the circuit part);
-  without Ze → investigate.
+Invariants (BS 7671:2018 Reg. 411.3.2, 411.4.4, 411.8, Tables 41.1–41.6; IEC 60364-4-41 411.4;
+the handbook rule of thumb for measured Zs, IET OSG / GN3; IEC 60364-6 Annex C):
+- The maximum is :func:`engine.checks._zs_limit.zs_limit`'s: the device tables
+  at the regulation's time, the record's own figures tightening it only. A
+  refused figure is named in ``inputs`` (``*_refused``) and in the sentence.
+- Rule of thumb: Zs ≤ the ruleset's ``rule_of_thumb_factor`` × max → pass
+  (``rule_of_thumb``; 0.8 under BS 7671, 2/3 under IEC 60364-6 Annex C). It is
+  used only where it holds: the test temperature within the ruleset's window
+  (BS: 10–20 °C) and the factor no larger than the whole-loop temperature
+  factor (1 + α(θtest − 20)) / (1 + α(θmax − 20)) (derived: 0.8 covers 70 °C
+  cable tested at 10 °C or warmer, not 90 °C cable). Elsewhere the full
+  correction decides, and ``inputs["rule_of_thumb_not_used"]`` says why.
+- Above the rule (or where it does not hold) but ≤ max: with Ze,
+  Zs_hot = Ze + (Zs − Ze) × F against max (``temperature_corrected``; Ze is not
+  corrected, only the circuit part); without Ze → investigate.
 - Above max (or Zs_hot above max) → fail, unless an RCD is recorded: then the
   RCD is what gives fault protection and Zs × IΔn ≤ 50 V (Table 41.5) is judged
   (``rcd_fault_protection``), and the detail says so.
@@ -18,6 +23,8 @@ the handbook rule of thumb for measured Zs, IET OSG / GN3):
   so the tables would fail every sound TT circuit; Zs × IΔn ≤ 50 V is the
   whole-loop, conservative form of RA × IΔn ≤ 50 V (Zs ≥ RA), which the
   ``earth_electrode`` check judges on its own.
+- A table value the ruleset marks doubtful may fail a circuit, never pass it:
+  what would pass is ``investigate``.
 - Bounded readings keep their bound: a worst case is taken (the largest Zs,
   the smallest Ze), and a bound that settles nothing gives ``investigate``.
 - Missing device data → ``incomplete`` naming every field that would help.
@@ -26,72 +33,28 @@ the handbook rule of thumb for measured Zs, IET OSG / GN3):
 from __future__ import annotations
 
 from collections.abc import Iterator
+from dataclasses import replace
 from typing import Any
 
 from ..context import CircuitView, Context
-from ..protection import (
-    Device,
-    MaxZs,
-    Missing,
-    disconnection_time,
-    earthing_system,
-    max_zs_for,
-    positive,
-    resolve_device,
-    rule_of_thumb_limit,
-)
+from ..protection import Missing, earthing_system, positive, rule_of_thumb_limit
 from ..readings import Reading
 from ..results import CheckResult, Outcome
 from ..ruleset import Ruleset
-from ..temperature import temperature_factor
+from ..temperature import resistance_ratio, temperature_factor
 from ._compare import Side, compare_max, incomplete
+from ._zs_limit import ZsLimit, zs_limit
 
-__all__ = ["run"]
+__all__ = ["rule_of_thumb_holds", "run"]
 
 CHECK = "loop_impedance"
 _MA_PER_A = 1000.0
-
-
-# Keys of this check's entries in ctx.cache (per verify call, so nothing outlives the ruleset).
-# resolve_device, max_zs_for and rule_of_thumb_limit are pure functions of the ruleset and
-# their arguments; a board repeats a few devices, and recomputing them per circuit (Decimal
-# arithmetic, standard matching) was a sixth of verify()'s time (tests/bench). Numbers enter
-# the keys with their type, so 32 and 32.0 never share an entry even though they compare equal.
-_DEVICE_KEY = "loop_impedance.device"
-_MAX_ZS_KEY = "loop_impedance.max_zs"
 _THUMB_KEY = "loop_impedance.thumb"
-
-
-def _typed(value: object) -> tuple[type, object]:
-    return (type(value), value)
-
-
-def _device(ctx: Context, view: CircuitView) -> Device | Missing:
-    raw = (view.raw("device_kind"), view.raw("device_standard"), view.raw("device_curve"),
-           view.raw("device_rating_a"))
-    key = (_DEVICE_KEY, *map(_typed, raw))
-    try:
-        cached: Device | Missing = ctx.cache[key]
-    except KeyError:
-        cached = ctx.cache[key] = resolve_device(ctx.ruleset, kind=raw[0], standard=raw[1],
-                                                 curve=raw[2], rating_a=raw[3])
-    except TypeError:  # an unhashable value: compute without the cache
-        return resolve_device(ctx.ruleset, kind=raw[0], standard=raw[1], curve=raw[2],
-                              rating_a=raw[3])
-    return cached
-
-
-def _table_max_zs(ctx: Context, device: Device, u0: float, seconds: float) -> MaxZs | Missing:
-    key = (_MAX_ZS_KEY, device, _typed(device.rating_a), _typed(u0), _typed(seconds))
-    try:
-        cached: MaxZs | Missing = ctx.cache[key]
-    except KeyError:
-        cached = ctx.cache[key] = max_zs_for(ctx.ruleset, device, u0, seconds)
-    return cached
+_SLACK = 1e-9  # 0.96 / 1.20 is 0.7999999999999999 in binary: the 0.8 rule holds at 10 °C
 
 
 def _thumb(ctx: Context, max_ohm: float) -> float:
-    key = (_THUMB_KEY, _typed(max_ohm))
+    key = (_THUMB_KEY, type(max_ohm), max_ohm)
     try:
         cached: float = ctx.cache[key]
     except KeyError:
@@ -99,40 +62,22 @@ def _thumb(ctx: Context, max_ohm: float) -> float:
     return cached
 
 
-def _thumb_factor(rules: Ruleset) -> float:
-    return float(rules.value("max_zs", "rule_of_thumb_factor"))
-
-
-def _max_zs(view: CircuitView, ctx: Context) -> tuple[MaxZs | Missing, float | None]:
-    """The maximum Zs and the disconnection time it was taken for."""
-    rules = ctx.ruleset
-    override = positive(view.raw("device_max_zs_ohm"))
-    if override is not None:
-        return MaxZs(ohm=override, basis="record: device_max_zs_ohm (designer's or maker's figure)",
-                     device="as recorded"), None
-    device = _device(ctx, view)
-    timing = disconnection_time(view, rules)
-    if isinstance(device, Missing) or isinstance(timing, Missing):
-        fields = [f for m in (device, timing) if isinstance(m, Missing) for f in m.fields]
-        reasons = "; ".join(m.reason for m in (device, timing) if isinstance(m, Missing))
-        if "device_max_zs_ohm" not in fields:
-            fields.append("device_max_zs_ohm")
-        return Missing(fields=tuple(dict.fromkeys(fields)), reason=reasons), None
-    u0 = positive(view.get("nominal_voltage_v"))
-    if u0 is None:
-        return Missing(fields=("nominal_voltage_v",), reason="U0 sets the maximum Zs"), None
-    return _table_max_zs(ctx, device, u0, timing.seconds), timing.seconds
-
-
-def _inputs(limit: MaxZs, seconds: float | None, **extra: Any) -> dict[str, Any]:
-    out: dict[str, Any] = {"max_zs": limit.ohm, "disconnection_s": seconds, "device": limit.device,
-                           "max_zs_basis": limit.basis}
-    if limit.table_s is not None:
-        out["table_s"] = limit.table_s
-    if limit.formula:
-        out["max_zs_formula"] = limit.formula
-    out.update(extra)
-    return out
+def rule_of_thumb_holds(view: CircuitView, rules: Ruleset, factor: float) -> str | None:
+    """``None`` where factor × max covers the circuit's temperature rise, else why it does not."""
+    theta_test, theta_max = view.get("test_temp_c"), view.get("insulation_temp_c")
+    if theta_test is None or theta_max is None:
+        return "the conductor temperatures are not known"
+    window = rules.get("max_zs", "rule_of_thumb_test_temp_c")
+    if window and not float(window["min"]) <= float(theta_test) <= float(window["max"]):
+        return (f"it holds for tests at {float(window['min']):g}–{float(window['max']):g} °C "
+                f"({rules.basis('max_zs', 'rule_of_thumb_test_temp_c')}); this test was at "
+                f"{float(theta_test):g} °C")
+    alpha = float(rules.value("temperature", "alpha_per_k"))
+    whole = resistance_ratio(alpha, float(theta_test)) / resistance_ratio(alpha, float(theta_max))
+    if factor > whole + _SLACK:
+        return (f"{factor:g} × max does not cover the rise from {float(theta_test):g} °C to "
+                f"{float(theta_max):g} °C (the whole loop may rise by 1/{whole:.3f})")
+    return None
 
 
 def _rcd_result(zs: Reading, idn_ma: float, rules: Ruleset, why: str,
@@ -162,58 +107,77 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         else:
             yield _rcd_result(zs, idn, rules, "TT system", {"earthing": "TT"})
         return
-    limit, seconds = _max_zs(view, ctx)
+    limit = zs_limit(view, ctx)
     if isinstance(limit, Missing):
         yield incomplete(CHECK, list(limit.fields), detail=f"cannot set the maximum Zs: {limit.reason}")
         return
     if zs is None:
-        yield incomplete(CHECK, ["zs_ohm"], basis=limit.basis, inputs=_inputs(limit, seconds))
+        notes = limit.notes()
+        yield incomplete(CHECK, ["zs_ohm"], basis=limit.max_zs.basis, inputs=limit.inputs(),
+                         detail=f"needs zs_ohm to decide{'; ' + notes if notes else ''}")
         return
-    yield _judge(view, ctx, zs, limit, seconds, idn)
+    yield _finish(_judge(view, ctx, zs, limit, idn), limit)
 
 
-def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: MaxZs, seconds: float | None,
-           idn: float | None) -> CheckResult:
+def _finish(result: CheckResult, limit: ZsLimit) -> CheckResult:
+    """Say which recorded figures were refused, and never pass on a table value in doubt."""
+    notes = limit.notes()
+    detail = f"{result.detail}; {notes}" if notes else result.detail
+    if result.outcome is Outcome.PASS and limit.max_zs.doubtful and result.method != "rcd_fault_protection":
+        return replace(result, outcome=Outcome.INVESTIGATE,
+                       detail=f"{detail}; but the table value {limit.max_zs.ohm:g} Ω is in doubt: "
+                              f"{limit.max_zs.doubtful}")
+    return replace(result, detail=detail) if notes else result
+
+
+def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: ZsLimit, idn: float | None) -> CheckResult:
     rules = ctx.ruleset
-    thumb = _thumb(ctx, limit.ohm)
-    factor = _thumb_factor(rules)
-    inputs = _inputs(limit, seconds, rule_of_thumb_limit=thumb, rule_of_thumb_factor=factor)
-    basis = f"{limit.basis}; {rules.basis('max_zs', 'rule_of_thumb_factor')}"
+    max_zs = limit.max_zs
+    factor = float(rules.value("max_zs", "rule_of_thumb_factor"))
+    thumb = _thumb(ctx, max_zs.ohm)
+    not_used = rule_of_thumb_holds(view, rules, factor)
+    inputs = {**limit.inputs(), "rule_of_thumb_limit": thumb, "rule_of_thumb_factor": factor}
+    if not_used:
+        inputs["rule_of_thumb_not_used"] = not_used
+    basis = f"{max_zs.basis}; {rules.basis('max_zs', 'rule_of_thumb_factor')}"
     common: dict[str, Any] = {"check": CHECK, "unit": "Ω", "limit_kind": "max", "basis": basis}
-    if compare_max(zs, thumb) is Side.WITHIN:
+    if not_used is None and compare_max(zs, thumb) is Side.WITHIN:
         return CheckResult(outcome=Outcome.PASS, value=zs.value, relation=zs.relation, limit=thumb,
                            method="rule_of_thumb", inputs=inputs, **common,
-                           detail=f"Zs {zs.display('Ω')} is within {factor:g} × {limit.ohm:g} Ω = "
-                                  f"{thumb:g} Ω ({limit.device})")
-    side = compare_max(zs, limit.ohm)
+                           detail=f"Zs {zs.display('Ω')} is within {factor:g} × {max_zs.ohm:g} Ω = "
+                                  f"{thumb:g} Ω ({max_zs.device})")
+    side = compare_max(zs, max_zs.ohm)
     if side is not Side.WITHIN:
         if idn is not None:
-            return _rcd_result(zs, idn, rules, f"Zs exceeds the {limit.ohm:g} Ω maximum for "
-                               f"{limit.device}", inputs)
+            return _rcd_result(zs, idn, rules, f"Zs exceeds the {max_zs.ohm:g} Ω maximum for "
+                               f"{max_zs.device}", inputs)
         beyond = side is Side.BEYOND
         return CheckResult(
             outcome=Outcome.FAIL if beyond else Outcome.INVESTIGATE, value=zs.value,
-            relation=zs.relation, limit=limit.ohm, method="max_zs", inputs=inputs, **common,
-            detail=f"Zs {zs.display('Ω')} is above the {limit.ohm:g} Ω maximum for {limit.device}"
+            relation=zs.relation, limit=max_zs.ohm, method="max_zs", inputs=inputs, **common,
+            detail=f"Zs {zs.display('Ω')} is above the {max_zs.ohm:g} Ω maximum for {max_zs.device}"
             if beyond else f"the bounded reading {zs.display('Ω')} does not show Zs within "
-                           f"{limit.ohm:g} Ω ({limit.device})")
+                           f"{max_zs.ohm:g} Ω ({max_zs.device})")
     ze = view.reading("ze_ohm")
     if ze is None:
+        why = (f"the rule of thumb is not used: {not_used}" if not_used
+               else f"above {factor:g} × max ({thumb:g} Ω)")
         return CheckResult(
             outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=thumb,
             method="rule_of_thumb", inputs={**inputs, "missing": ["ze_ohm"]}, **common,
-            detail=f"Zs {zs.display('Ω')} is within the {limit.ohm:g} Ω maximum but above "
-                   f"{factor:g} × max ({thumb:g} Ω); ze_ohm would allow the temperature-corrected check")
+            detail=f"Zs {zs.display('Ω')} is within the {max_zs.ohm:g} Ω maximum but {why}; ze_ohm "
+                   "would allow the temperature-corrected check")
     return _hot(view, rules, zs, ze, limit, idn, inputs, common)
 
 
-def _hot(view: CircuitView, rules: Ruleset, zs: Reading, ze: Reading, limit: MaxZs,
+def _hot(view: CircuitView, rules: Ruleset, zs: Reading, ze: Reading, limit: ZsLimit,
          idn: float | None, inputs: dict[str, Any], common: dict[str, Any]) -> CheckResult:
+    max_zs = limit.max_zs
     alpha = float(rules.value("temperature", "alpha_per_k"))
     temps = view.get("insulation_temp_c"), view.get("test_temp_c")
     if temps[0] is None or temps[1] is None:  # only a user ruleset without defaults lacks them
         return CheckResult(outcome=Outcome.INCOMPLETE, value=zs.value, relation=zs.relation,
-                           limit=limit.ohm, method="temperature_corrected", **common,
+                           limit=max_zs.ohm, method="temperature_corrected", **common,
                            inputs={**inputs, "missing": ["insulation_temp_c", "test_temp_c"]},
                            detail="the temperature-corrected check needs the conductor temperatures")
     theta_max, theta_test = float(temps[0]), float(temps[1])
@@ -221,7 +185,7 @@ def _hot(view: CircuitView, rules: Ruleset, zs: Reading, ze: Reading, limit: Max
     zs_up, ze_low = zs.value, ze.lower  # worst case: Zs_hot grows with Zs and falls with Ze
     if ze_low > zs_up or 1.0 + alpha * (theta_test - 20.0) <= 0.0:
         return CheckResult(
-            outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=limit.ohm,
+            outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=max_zs.ohm,
             method="temperature_corrected", inputs={**inputs, "ze": ze.to_json()}, **common,
             detail=f"Ze {ze.display('Ω')} is above Zs {zs.display('Ω')}: the readings disagree")
     factor = temperature_factor(alpha, theta_max, theta_test)
@@ -229,16 +193,16 @@ def _hot(view: CircuitView, rules: Ruleset, zs: Reading, ze: Reading, limit: Max
     exact = zs.exact and ze.exact
     inputs = {**inputs, "factor": factor, "ze": ze.to_json(), "zs_measured": zs.to_json(),
               "insulation_temp_c": theta_max, "test_temp_c": theta_test}
-    if hot <= limit.ohm:
+    if hot <= max_zs.ohm:
         outcome = Outcome.PASS
     elif idn is not None:
         return _rcd_result(zs, idn, rules, f"Zs corrected to {theta_max:g} °C ({hot:.4g} Ω) exceeds "
-                           f"the {limit.ohm:g} Ω maximum for {limit.device}", inputs)
+                           f"the {max_zs.ohm:g} Ω maximum for {max_zs.device}", inputs)
     else:
         outcome = Outcome.FAIL if exact else Outcome.INVESTIGATE
     word = "within" if outcome is Outcome.PASS else "above"
     return CheckResult(
-        outcome=outcome, value=hot, relation="=" if exact else "<", limit=limit.ohm,
+        outcome=outcome, value=hot, relation="=" if exact else "<", limit=max_zs.ohm,
         method="temperature_corrected", inputs=inputs, **common,
         detail=f"Ze + (Zs − Ze) × {factor:.3g} = {hot:.4g} Ω at {theta_max:g} °C is {word} the "
-               f"{limit.ohm:g} Ω maximum for {limit.device}")
+               f"{max_zs.ohm:g} Ω maximum for {max_zs.device}")

@@ -1,7 +1,12 @@
 """RCD operating times against the product standard (BS EN / IEC 61008-1, 61009-1 Table 1).
 
 Invariants:
-- Applies where ``rcd_residual_ma`` is recorded or the device is an RCBO.
+- Applies where an RCD is shown: ``rcd_residual_ma`` recorded, an RCBO (recorded
+  or inferred), or any RCD test result recorded (a trip time, the ½ IΔn test):
+  a recorded trip time means an RCD is there, and the check is never skipped.
+- Without IΔn the test current is not shown: a time beyond the limit still
+  fails (it fails at any IΔn), but a time within it is ``incomplete`` naming
+  ``rcd_residual_ma``, never a pass.
 - At IΔn (``rcd_trip_ms``): general type ≤ 300 ms; type S (``rcd_delayed``)
   130–500 ms. Missing → incomplete: BS 7671:2018+A2:2022 643.8 requires this test.
 - At 5 IΔn (``rcd_trip_5x_ms``), when given: general ≤ 40 ms, type S 50–150 ms.
@@ -17,6 +22,7 @@ Invariants:
 from __future__ import annotations
 
 from collections.abc import Iterator
+from dataclasses import replace
 
 from ..context import CircuitView, Context
 from ..readings import Reading
@@ -24,7 +30,7 @@ from ..results import CheckResult, LimitKind, Outcome
 from ..ruleset import Ruleset
 from ._compare import Side, compare_max, compare_min, incomplete
 
-__all__ = ["run"]
+__all__ = ["rcd_evidence", "run"]
 
 CHECK = "rcd_time"
 SECTION = "rcd"
@@ -39,10 +45,40 @@ def _is_delayed(view: CircuitView, rules: Ruleset) -> bool:
     return assumed
 
 
+_EVIDENCE = ("rcd_trip_ms", "rcd_trip_5x_ms", "rcd_half_no_trip")
+
+
+def rcd_evidence(view: CircuitView) -> str | None:
+    """The field that shows the circuit has an RCD, or ``None``."""
+    if view.raw("rcd_residual_ma") is not None:
+        return "rcd_residual_ma"
+    if view.get("device_kind") == "rcbo":
+        return "device_kind"
+    return next((name for name in _EVIDENCE if view.raw(name) is not None), None)
+
+
+def _without_idn(result: CheckResult, evidence: str) -> CheckResult:
+    """No IΔn: a time within the limit does not show the RCD works at its rated current."""
+    if result.outcome is not Outcome.PASS:
+        return result
+    return replace(result, outcome=Outcome.INCOMPLETE,
+                   inputs={**result.inputs, "missing": ["rcd_residual_ma"], "rcd_inferred_from": evidence},
+                   detail=f"{result.detail}, but IΔn (rcd_residual_ma) is not recorded, so the test "
+                          "current is not shown")
+
+
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    rules = ctx.ruleset
-    if view.raw("rcd_residual_ma") is None and view.raw("device_kind") != "rcbo":
+    evidence = rcd_evidence(view)
+    if evidence is None:
         return
+    results = list(_run(view, ctx))
+    if view.raw("rcd_residual_ma") is None:
+        results = [_without_idn(r, evidence) for r in results]
+    yield from results
+
+
+def _run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+    rules = ctx.ruleset
     delayed = _is_delayed(view, rules)
     kind = "S" if delayed else "general"
     for multiple, field, suffix in (("IΔn", "rcd_trip_ms", "at_idn"), ("5 IΔn", "rcd_trip_5x_ms", "at_5idn")):

@@ -1,27 +1,22 @@
 """Which protective device a record describes, in the terms the Zs tables need.
 
 Invariants:
-- ``device_kind`` wins; where it is absent the kind is inferred from
-  ``device_standard`` only when the ruleset lists that standard (a breaker
-  standard, or a fuse standard with a table). Nothing else is guessed.
-- A standard matches a listed one when equal to it or followed by a
-  separator: ``BS EN 60898-1`` is BS EN 60898, but ``BS 88-2.2`` (a withdrawn
-  standard with other limits) is not BS 88-2.
+- ``kind`` is what the circuit view gives (the record's ``device_kind``, or the
+  kind it inferred and reported); where it is still absent the kind is taken
+  from ``device_standard`` only when the ruleset lists that standard.
+- Standards are matched by :mod:`engine.standards` (re-exported here).
 - A rating or curve that is absent, zero or not finite is reported as missing.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
 from ..ruleset import Ruleset
+from ..standards import canonical_fuse_standard, fuse_standards, match_standard
 from .common import Missing, positive
 
 __all__ = ["Device", "fuse_standards", "match_standard", "resolve_device"]
-
-_SEPARATORS = (" ", "-", ":", "(", "/")
-
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Device:
@@ -35,32 +30,6 @@ class Device:
         if self.kind == "breaker":
             return f"{self.curve}{rating} ({self.standard or 'breaker/RCBO'})"
         return f"{self.standard} {rating} A fuse"
-
-
-def match_standard(text: str | None, listed: list[str] | tuple[str, ...]) -> str | None:
-    """The listed standard ``text`` names, if any (see the module's invariants)."""
-    if not text:
-        return None
-    folded = text.strip().upper()
-    for standard in listed:
-        name = standard.upper()
-        if folded == name or (folded.startswith(name) and folded[len(name)] in _SEPARATORS):
-            return standard
-    return None
-
-
-def fuse_standards(rules: Ruleset) -> tuple[str, ...]:
-    """Fuse standards the ruleset has tables for, plus their aliases."""
-    section = rules.sections.get("fuses", {})
-    names = {e.value["standard"] for e in section.values()
-             if isinstance(e.value, dict) and "ohm_by_rating_a" in e.value}
-    aliases: dict[str, Any] = rules.get("fuses", "standard_aliases", {}) or {}
-    return tuple(sorted(names | set(aliases)))
-
-
-def canonical_fuse_standard(rules: Ruleset, standard: str) -> str:
-    aliases: dict[str, str] = rules.get("fuses", "standard_aliases", {}) or {}
-    return aliases.get(standard, standard)
 
 
 def resolve_device(rules: Ruleset, *, kind: str | None, standard: str | None,

@@ -11,7 +11,10 @@ Invariants:
   (conservative: a shorter time means a lower Zs). Below the shortest column
   a breaker still qualifies down to ``breakers.instantaneous_within_s``; a
   fuse does not.
-- ``device_max_zs_ohm`` on the record overrides the tables.
+- A table cell the ruleset marks doubtful (``doubtful_ratings_a``) is returned
+  with the doubt attached: a check may fail a Zs above it, never pass one below.
+- ``device_max_zs_ohm`` is applied by the check, which lets it tighten the
+  tables, never loosen them.
 """
 
 from __future__ import annotations
@@ -34,6 +37,7 @@ class MaxZs:
     device: str
     table_s: float | None = None
     formula: str | None = None
+    doubtful: str | None = None  # why the tabulated value is in doubt: it may fail, never pass
 
 
 def _column(times: list[float], required_s: float, floor_s: float | None) -> float | None:
@@ -97,8 +101,9 @@ def fuse_max_zs(rules: Ruleset, standard: str, rating_a: float, u0_v: float,
     ohm = float(listed) if u0_v == table_u0 else float(
         decimal_of(listed) * decimal_of(u0_v) / decimal_of(table_u0))
     formula = None if u0_v == table_u0 else f"{listed} × {u0_v:g} / {table_u0:g}"
+    doubt = (table.get("doubtful_ratings_a") or {}).get(format_number(rating_a))
     return MaxZs(ohm=ohm, basis=source, device=f"{standard} {rating_a:g} A", table_s=column,
-                 formula=formula)
+                 formula=formula, doubtful=doubt)
 
 
 def max_zs_for(rules: Ruleset, device: Device, u0_v: float, required_s: float) -> MaxZs | Missing:

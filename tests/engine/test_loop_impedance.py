@@ -75,8 +75,10 @@ def test_distribution_circuits(earthing: str, expected: float) -> None:
 
 
 def test_record_disconnection_time_overrides_and_it_is_missing() -> None:
-    """max_disconnection_s wins; IT has no table time (411.6.4) and ELV (U0 ≤ 50 V) is outside Table 41.1."""
-    assert _seconds(earthing="TN-S", device_rating_a=16, max_disconnection_s=1.0) == 1.0
+    """max_disconnection_s wins where tighter (loosening: see test_overrides); IT has no table time (411.6.4)
+    and ELV (U0 ≤ 50 V) is outside Table 41.1."""
+    assert _seconds(earthing="TN-S", device_rating_a=16, max_disconnection_s=0.2) == 0.2
+    assert _seconds(earthing="TN-S", device_rating_a=16, max_disconnection_s=1.0) == 0.4  # 411.3.2.2
     assert isinstance(_time(earthing="IT", device_rating_a=16), Missing)
     assert isinstance(_time(earthing="TN-S", device_rating_a=16, nominal_voltage_v=50), Missing)
     assert isinstance(_time(device_rating_a=16), Missing)  # no earthing recorded
@@ -217,3 +219,79 @@ def test_rule_of_thumb_sentence_prints_the_rulesets_factor() -> None:
     above = next(c for c in verify([_record(zs_ohm=0.9, **B32)], local)[0].checks
                  if c.check == "loop_impedance")
     assert above.outcome is Outcome.INVESTIGATE and "0.5 × max" in above.detail
+
+
+# --- the rule of thumb only where it holds (issue 14) ---
+
+@pytest.mark.parametrize(("test_temp", "used"), [(9.9, False), (10, True), (20, True), (20.1, False)])
+def test_rule_of_thumb_window(test_temp: float, used: bool) -> None:
+    """BS ruleset: the 0.8 rule for tests at 10–20 °C (OSG/GN3 0.96/1.20 [secondary]; 20 °C [practice])."""
+    found = _loop(zs_ohm=1.0, test_temp_c=test_temp, **B32)
+    assert (found.outcome is Outcome.PASS) is used
+    assert ("rule_of_thumb_not_used" in found.inputs) is not used
+
+
+def test_cold_test_inside_0_8_but_above_max_when_hot() -> None:
+    """At 0 °C, 1.08 Ω is inside 0.8 × 1.37 but 0.35 + 0.73 × 1.20/0.92 ≈ 1.302 … hot check decides [derived].
+
+    The 0.8 rule passed it without Ze; now it is investigate, and with Ze the full correction judges it.
+    """
+    cold = _loop(zs_ohm=1.08, test_temp_c=0, **B32)
+    assert cold.outcome is Outcome.INVESTIGATE and cold.inputs["missing"] == ["ze_ohm"]
+    hot = _loop(zs_ohm=1.08, ze_ohm=0.35, test_temp_c=0, **B32)
+    assert hot.method == "temperature_corrected"
+    assert hot.value == pytest.approx(0.35 + 0.73 * 1.2 / 0.92)
+    too_hot = _loop(zs_ohm=1.08, ze_ohm=0.05, test_temp_c=0, **B32)  # 0.05 + 1.03 × 1.304 = 1.393 > 1.37
+    assert too_hot.outcome is Outcome.FAIL
+
+
+def test_rule_of_thumb_does_not_cover_90_degree_cable() -> None:
+    """90 °C cable at 20 °C: 1/1.28 = 0.78 < 0.8 (derived), so 0.8 × max is not shown safe: not a pass."""
+    found = _loop(zs_ohm=1.0, insulation_temp_c=90, **B32)
+    assert found.outcome is Outcome.INVESTIGATE and "does not cover" in found.inputs["rule_of_thumb_not_used"]
+
+
+@pytest.mark.parametrize(("zs", "outcome"), [(0.95, Outcome.PASS), (0.9583, Outcome.PASS),
+                                             (0.96, Outcome.INVESTIGATE), (1.0, Outcome.INVESTIGATE)])
+def test_iec_uses_two_thirds(zs: float, outcome: Outcome) -> None:
+    """IEC 60364-6 Annex C: Zs(m) ≤ 2/3 × U0/Ia (from memory); B32 230/160 × 2/3 = 0.9583 Ω. 1.0 Ω passed
+    the UK 0.8 rule (1.15 Ω) the IEC ruleset used before."""
+    found = _loop("iec-60364", zs_ohm=zs, **B32)
+    assert found.outcome is outcome
+    assert found.inputs["rule_of_thumb_factor"] == pytest.approx(2 / 3)
+
+
+def test_reduced_low_voltage_takes_5_s_and_table_41_6() -> None:
+    """55 V (Reg. 411.8, from memory): 5 s. BS 88-2 32 A: 1.7 × 55/230 = 0.4065 Ω (Table 41.4 scaled, derived)
+    where the 0.4 s table scaled (0.2367 Ω) was used before; a B16: 0.95 × 55 / 80 = 0.65 Ω (derived)."""
+    fuse = _loop(earthing="TN-S", nominal_voltage_v=55, device_kind="fuse", device_standard="BS 88-2",
+                 device_rating_a=32, zs_ohm=0.30)
+    assert fuse.inputs["disconnection_s"] == 5 and fuse.inputs["max_zs"] == pytest.approx(1.7 * 55 / 230)
+    assert fuse.outcome is Outcome.PASS  # 0.30 ≤ 0.8 × 0.4065 → 0.32 (rounded down)
+    breaker = _loop(earthing="TN-S", nominal_voltage_v=55, device_kind="breaker", device_curve="B",
+                    device_rating_a=16, zs_ohm=0.6)
+    assert breaker.inputs["max_zs"] == 0.65 and breaker.inputs["disconnection_s"] == 5
+    assert _seconds(earthing="TT", nominal_voltage_v=63.5, device_rating_a=16) == 5
+    assert _seconds(earthing="TN-S", nominal_voltage_v=51, device_rating_a=16) == 0.8  # not RLV: Table 41.1
+
+
+def test_reduced_low_voltage_is_a_bs_7671_rule_only() -> None:
+    """IEC 60364-4-41 has no 411.8: 55 V takes Table 41.1's 0.8 s (TN, 50–120 V) [secondary]."""
+    found = _loop("iec-60364", earthing="TN-S", nominal_voltage_v=55, device_kind="breaker",
+                  device_curve="B", device_rating_a=16, zs_ohm=0.3)
+    assert found.inputs["disconnection_s"] == 0.8
+
+
+@pytest.mark.parametrize(("standard", "rating", "seconds", "role"), [
+    ("BS 88-3", 20, 0.4, "final"), ("BS 88-3", 20, 5, "distribution"), ("BS 88-2", 160, 5, "distribution"),
+    ("BS 88-2", 63, 0.4, "final")])
+def test_disputed_fuse_cells_can_fail_but_never_pass(standard: str, rating: float, seconds: float,
+                                                     role: str) -> None:
+    """Cells an audit recalls lower than the single transcription we hold: a Zs within them is investigate;
+    a Zs above them still fails (a lower true value would fail it too)."""
+    fields = {"earthing": "TN-S", "device_kind": "fuse", "device_standard": standard,
+              "device_rating_a": rating, "circuit_role": role, "socket_outlets": role == "final"}
+    low = _loop(zs_ohm=0.01, **fields)
+    assert low.inputs["disconnection_s"] == seconds and "max_zs_doubtful" in low.inputs
+    assert low.outcome is Outcome.INVESTIGATE and "in doubt" in low.detail
+    assert _loop(zs_ohm=low.inputs["max_zs"] + 0.01, **fields).outcome is Outcome.FAIL

@@ -73,12 +73,13 @@ def test_half_idn_trip_fails() -> None:
 
 
 def test_applies_to_rcbo_without_residual_rating_and_not_without_rcd() -> None:
-    """An RCBO is an RCD even with IΔn unrecorded; a circuit with neither has no RCD result."""
+    """An RCBO is an RCD even with IΔn unrecorded; a circuit with no sign of an RCD has no RCD result.
+    A recorded trip time is such a sign: see test_trip_time_alone_means_an_rcd."""
     record, _ = build_record({"board": "B", "circuit": "1", "device_kind": "rcbo", "rcd_trip_ms": 350})
     assert record is not None
     checks = [c for c in verify([record])[0].checks if c.check == "rcd_time"]
     assert [c.outcome for c in checks] == [Outcome.FAIL]  # 350 ms > 300 ms (Table 1) [secondary]
-    record, _ = build_record({"board": "B", "circuit": "1", "rcd_trip_ms": 20})
+    record, _ = build_record({"board": "B", "circuit": "1", "zs_ohm": 0.5, "device_kind": "breaker"})
     assert record is not None
     assert not [c for c in verify([record])[0].checks if c.check == "rcd_time"]
 

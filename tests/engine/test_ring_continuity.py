@@ -90,5 +90,7 @@ def test_bounded_readings_that_do_not_settle_are_investigate() -> None:
 
 
 def test_radial_circuit_has_no_ring_check() -> None:
-    """The check applies only to rings."""
-    assert ring(ring_r1_ohm=0.37, r1_r2_ohm=0.5) == {}
+    """The check applies only to rings: a record that says radial gets none, even with an end-to-end
+    reading."""
+    assert ring(circuit_form="radial", ring_r1_ohm=0.37, r1_r2_ohm=0.5) == {}
+    assert ring(r1_r2_ohm=0.5) == {}  # nothing says ring: the default radial

@@ -76,11 +76,12 @@ def test_area_split_property(line: float, cpc: float, neutral: float, r1r2: floa
 
 @settings(max_examples=200, deadline=None)
 @given(line=st.sampled_from(SIZES), neutral=st.sampled_from(SIZES), r1r2=readings,
-       share=st.floats(min_value=0.0, max_value=1.0), amps=currents)
+       share=st.floats(min_value=1e-3, max_value=1.0), amps=currents)
 def test_measured_r2_split_property(line: float, neutral: float, r1r2: float, share: float,
                                     amps: float) -> None:
     """With R2 measured: R1 = (R1+R2) − R2 sums back, and split ≤ quick exactly when Rn ≤ R2 [derived]."""
-    r2 = math.floor(r1r2 * share * 1e6) / 1e6  # never above R1+R2 (that case is not split)
+    # never above R1+R2 (that case is not split), never 0 Ω (no conductor reads 0 Ω: withheld)
+    r2 = max(math.floor(r1r2 * share * 1e6) / 1e6, 1e-6)
     check = vd(r1_r2_ohm=r1r2, r2_ohm=r2, line_mm2=line, neutral_mm2=neutral, design_current_a=amps)
     r1, rn = check.inputs["r1_ohm"], check.inputs["rn_ohm"]
     assert check.inputs["r1_basis"] == "r1r2_minus_measured_r2"

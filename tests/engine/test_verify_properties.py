@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from engine import CircuitRecord, build_record, builtin_ruleset_ids, verify
+from engine import CircuitRecord, Reading, build_record, builtin_ruleset_ids, verify
 from engine.results import CHECK_IDS, Outcome
 from tests.strategies import record_inputs, records
 
@@ -45,11 +45,10 @@ def test_any_loose_input_builds_and_verifies_without_raising(data: list[dict[str
 
 
 def test_denormal_residual_current_is_no_rating() -> None:
-    """Found by the property test: IΔn = 5e-324 mA divided 50 V by zero; it now counts as unrecorded."""
-    from engine import Reading
-
+    """Found by the property test: IΔn = 5e-324 mA divided 50 V by zero; it is now withheld as no IΔn."""
     record = CircuitRecord(board="DB1", circuit="1", earthing="TT", rcd_residual_ma=5e-324,
-                           zs_ohm=Reading(value=0.0))
+                           zs_ohm=Reading(value=0.5))
     [verdict] = verify([record])
     assert verdict.errors == ()
-    assert {c.check: c.outcome for c in verdict.checks}["loop_impedance"] is Outcome.INCOMPLETE
+    loop = {c.check: c for c in verdict.checks}["loop_impedance"]
+    assert loop.outcome is Outcome.INVESTIGATE and loop.inputs["field"] == "rcd_residual_ma"

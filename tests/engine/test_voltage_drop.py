@@ -204,10 +204,20 @@ def test_bounded_r1r2_is_not_read_as_its_bound() -> None:
     assert check.outcome == "incomplete"
 
 
+def _refused(**fields: Any) -> tuple[set[str], CheckResult]:
+    record, errors = build_record({"board": "DB1", "circuit": "1", **fields})
+    assert record is not None
+    [check] = [c for c in verify([record])[0].checks if c.check == "voltage_drop"]
+    return {e.field for e in errors}, check
+
+
 def test_zero_cross_section_and_zero_u0_are_unusable_not_divided_by() -> None:
-    """0 mm² sizes fall back to the quick method; U0 = 0 makes the check incomplete, never a crash."""
-    zero_sizes = vd(r1_r2_ohm=0.5, line_mm2=0, cpc_mm2=0, neutral_mm2=0, device_rating_a=10)
-    zero_u0 = vd(r1_r2_ohm=0.5, device_rating_a=10, nominal_voltage_v=0)
-    assert zero_sizes.method == "r1r2_quick"
+    """0 mm² sizes and U0 = 0 are refused at intake; the check is incomplete naming them, never a quick
+    pass."""
+    refused, zero_sizes = _refused(r1_r2_ohm=0.5, line_mm2=0, cpc_mm2=0, neutral_mm2=0, device_rating_a=10)
+    assert refused == {"line_mm2", "cpc_mm2", "neutral_mm2"}
+    assert zero_sizes.outcome == "incomplete" and zero_sizes.inputs["missing"] == ["line_mm2"]
+    refused, zero_u0 = _refused(r1_r2_ohm=0.5, device_rating_a=10, nominal_voltage_v=0)
+    assert refused == {"nominal_voltage_v"}
     assert zero_u0.outcome == "incomplete"
     assert zero_u0.inputs["missing"] == ["nominal_voltage_v"]
