@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from .inference import INFERENCES
-from .plausibility import JUDGED, Problem, Withheld, judge
+from .plausibility import JUDGED, Withheld, judge
 from .readings import Reading
 from .records import CircuitRecord
 from .ruleset import Entry, Ruleset
