@@ -16,6 +16,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from api.webhooks.server_key import ServerKeys, parse_server_keys
+
 __all__ = ["SETTINGS", "Setting", "Settings", "SettingsError", "load_settings"]
 
 
@@ -60,6 +62,14 @@ SETTINGS: tuple[Setting, ...] = (
             "restarted (`serve --timeout` overrides)"),
     Setting("DUPLICATE_WINDOW_S", "600", "an exact re-post of a job's latest upload without an "
             "Idempotency-Key within this many seconds is answered as a duplicate, not merged"),
+    # Webhook secrets at rest and their rotation (api/webhooks/README.md).
+    Setting("ENCRYPTION_KEY", "", "Fernet key(s), comma-separated, the first encrypting, that encrypt "
+            "webhook signing secrets at rest; a weak or malformed key is refused at start-up. Empty: "
+            "with AUTH=off a key generated once into <instance folder>/webhook-secrets.key; with "
+            "AUTH=on webhook secrets cannot be made or used (503 secret_key_missing). Every host "
+            "serving one database needs the same keys"),
+    Setting("WEBHOOK_SECRET_OVERLAP_S", "86400", "after a secret rotation, seconds the previous "
+            "secret still signs deliveries beside the new one (at most 604800, seven days)"),
 )
 
 
@@ -84,6 +94,8 @@ class Settings:
     rate_limit_storage: str
     request_timeout_s: int
     duplicate_window_s: int
+    encryption_keys: ServerKeys | None = None
+    webhook_secret_overlap_s: int = 86400
 
 
 def _env(environ: Mapping[str, str], overrides: Mapping[str, Any], name: str) -> str:
@@ -128,6 +140,14 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
     if level not in {"DEBUG", "INFO", "WARNING", "ERROR", "CRITICAL"}:
         raise SettingsError(f"OHMTALLY_LOG_LEVEL {level!r} is not a log level")
     page_limit = _positive_int("PAGE_LIMIT", _env(env, over, "PAGE_LIMIT"))
+    try:
+        encryption_keys = parse_server_keys(_env(env, over, "ENCRYPTION_KEY"))
+    except ValueError as exc:
+        raise SettingsError(f"OHMTALLY_ENCRYPTION_KEY {exc}") from None
+    overlap_s = _positive_int("WEBHOOK_SECRET_OVERLAP_S", _env(env, over, "WEBHOOK_SECRET_OVERLAP_S"))
+    if overlap_s > 604800:
+        raise SettingsError(f"OHMTALLY_WEBHOOK_SECRET_OVERLAP_S is at most 604800 (seven days), "
+                            f"not {overlap_s}")
     return Settings(
         database_url=_env(env, over, "DATABASE_URL").strip(),
         profile_dir=_env(env, over, "PROFILE_DIR").strip() or None,
@@ -148,4 +168,6 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         rate_limit_storage=_env(env, over, "RATE_LIMIT_STORAGE").strip() or "memory://",
         request_timeout_s=_positive_int("REQUEST_TIMEOUT_S", _env(env, over, "REQUEST_TIMEOUT_S")),
         duplicate_window_s=_positive_int("DUPLICATE_WINDOW_S", _env(env, over, "DUPLICATE_WINDOW_S")),
+        encryption_keys=encryption_keys,
+        webhook_secret_overlap_s=overlap_s,
     )

@@ -6,11 +6,18 @@ from marshmallow import RAISE, Schema, fields, validate
 
 from api.db.models import DELIVERY_STATUSES, EVENT_TYPES
 from api.schemas.fields import Prepared
+from api.webhooks.secret_store import MAX_OVERLAP_S
+from api.webhooks.signing import SECRET_PATTERN
+
+_SECRET_DOC = ("a Standard Webhooks secret: `whsec_` and the standard base64 of 24–64 random bytes "
+               "whose bytes take at least 16 distinct values; generated (32 bytes) when left out")
 
 __all__ = [
     "DeliveryListSchema",
     "DeliveryQuerySchema",
     "DeliverySchema",
+    "SecretRotateSchema",
+    "SecretStateSchema",
     "SubscriptionCreateSchema",
     "SubscriptionCreatedSchema",
     "SubscriptionListSchema",
@@ -29,9 +36,26 @@ class SubscriptionCreateSchema(_Strict):
     events = fields.List(fields.String(validate=validate.OneOf(EVENT_TYPES)), required=True,
                          validate=validate.Length(min=1),
                          metadata={"description": f"any of {', '.join(EVENT_TYPES)}"})
-    secret = fields.String(validate=validate.Length(min=16, max=200),
-                           metadata={"description": "signing secret; generated when left out"})
+    secret = fields.String(validate=validate.Regexp(SECRET_PATTERN, error=_SECRET_DOC),
+                           metadata={"description": _SECRET_DOC})
     description = fields.String(allow_none=True, validate=validate.Length(max=200))
+
+
+class SecretRotateSchema(_Strict):
+    secret = fields.String(validate=validate.Regexp(SECRET_PATTERN, error=_SECRET_DOC),
+                           metadata={"description": _SECRET_DOC})
+    overlap_s = fields.Integer(
+        validate=validate.Range(min=0, max=MAX_OVERLAP_S),
+        metadata={"description": "seconds the secrets valid until now keep signing beside the new one "
+                                 "(never longer than they already had); 0 ends them at once (a leaked "
+                                 "secret). Default: the server's OHMTALLY_WEBHOOK_SECRET_OVERLAP_S"})
+
+
+class SecretStateSchema(_Strict):
+    created_at = fields.DateTime(required=True)
+    valid_until = fields.DateTime(required=True, allow_none=True,
+                                  metadata={"description": "null for the current secret; deliveries "
+                                                           "carry a signature by each listed secret"})
 
 
 class SubscriptionSchema(_Strict):
@@ -41,10 +65,14 @@ class SubscriptionSchema(_Strict):
     description = fields.String(required=True, allow_none=True)
     created_at = fields.DateTime(required=True)
     deliveries_href = fields.String(required=True)
+    secrets = fields.List(fields.Nested(SecretStateSchema), required=True,
+                          metadata={"description": "the secrets that sign deliveries now, newest first "
+                                                   "(their values are never shown again)"})
 
 
 class SubscriptionCreatedSchema(SubscriptionSchema):
-    secret = fields.String(required=True, metadata={"description": "shown in this answer only"})
+    secret = fields.String(required=True, metadata={"description": "the new signing secret (`whsec_…`), "
+                                                                   "shown in this answer only"})
 
 
 class SubscriptionListSchema(_Strict):
@@ -60,7 +88,7 @@ class DeliveryQuerySchema(_Strict):
 class DeliverySchema(_Strict):
     id = fields.Integer(required=True)
     subscription_id = fields.Integer(required=True)
-    event_id = fields.String(required=True, metadata={"description": "the Ohmtally-Event-Id header"})
+    event_id = fields.String(required=True, metadata={"description": "the webhook-id header"})
     event = fields.String(required=True, validate=validate.OneOf(EVENT_TYPES))
     job_id = fields.Integer(required=True, allow_none=True)
     status = fields.String(required=True, validate=validate.OneOf(DELIVERY_STATUSES))

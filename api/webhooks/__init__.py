@@ -1,8 +1,13 @@
-"""Webhooks: subscriptions, a durable outbox, signed deliveries with retries (issue 8).
+"""Webhooks: subscriptions, a durable outbox, deliveries signed by the Standard Webhooks spec, retries.
 
-Modules: ``models`` (tables), ``targets`` (which URLs may be called), ``signing``
-(the signature header), ``outbox`` (events written with the change), ``delivery``
-(the worker). Nothing is imported here, so ``api.db.models`` can load ``models``.
+Modules: ``signing`` (the three ``webhook-*`` headers, ``whsec_`` secrets and their
+strength), ``server_key`` (the ``OHMTALLY_ENCRYPTION_KEY`` setting), ``sealing``
+(secrets encrypted at rest), ``secret_store`` (a subscription's secrets and their
+rotation), ``clock`` (the database's time), ``addresses`` and ``targets`` (which
+URLs may be called), ``outbox`` (events written with the change), ``delivery``
+(the worker) and ``runner`` (where it runs). The tables are in
+``api.db.models.webhooks``; how a receiver verifies a delivery is in README.md
+beside this file. Nothing is imported here, so importing one module loads no other.
 """
 
 __all__: list[str] = []

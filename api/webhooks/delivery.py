@@ -10,12 +10,26 @@ Invariants:
   until the earlier one is delivered (or has failed for good).
 - Claims are leases written with a conditional UPDATE (``… WHERE claimed_until
   IS NULL OR claimed_until < now``; one winner on SQLite and PostgreSQL), so
-  several workers (one per gunicorn worker, plus ``ohmtally deliver``) never
-  send one row at the same time. A worker that dies mid-send leaves a lease
-  that expires, and the row is sent again: same body, same event id.
+  several workers (one per gunicorn worker, plus ``ohmtally deliver``, on any
+  number of hosts) never send one row at the same time. Every time a lease
+  is written or compared with — and every retry time and ``webhook-timestamp``
+  — is the database's clock (:mod:`api.webhooks.clock`), so a host whose clock
+  is off, by more than a lease even, neither steals a live lease nor sends
+  early. A lease is renewed just before its send, so it covers that one send
+  (it is longer than a send can take). A worker that dies mid-send leaves a
+  lease that expires, and the row is sent again: same body, same event id.
+- No database transaction is open while a request is out: the row is read in
+  one short transaction and the outcome written in another (on SQLite a
+  writer's transaction holds the writer lock, which every request needs).
+- Signed with every secret valid at send time (:mod:`api.webhooks.signing`,
+  :mod:`api.webhooks.secret_store`); a secret the server key cannot open is a
+  failed attempt with that reason, retried like any other.
 - The target is re-checked at send time and the request goes to the checked
   address (``targets.resolve_target``); redirects are not followed and proxy
   settings from the environment are ignored.
+- Every recorded attempt is an info line on the ``ohmtally.api.webhooks``
+  logger, a child of the request log's logger, so it lands in the same JSON
+  log; the facts are in the message itself.
 - Runs outside requests only; nothing here blocks a request.
 """
 
@@ -26,30 +40,31 @@ import os
 import socket
 import threading
 import uuid
-from collections.abc import Callable
-from dataclasses import dataclass, field
-from datetime import datetime, timedelta
+from dataclasses import dataclass
+from datetime import timedelta
 from typing import Any
 
 import httpx
-from sqlalchemy import or_, select, update
+from sqlalchemy import and_, or_, select, update
 from sqlalchemy.orm import Session, aliased, sessionmaker
 
-from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription, utcnow
-from api.webhooks.signing import (
-    DELIVERY_HEADER,
-    EVENT_HEADER,
-    EVENT_ID_HEADER,
-    SIGNATURE_HEADER,
-    signature_header,
-)
+from api.app import default_instance_path
+from api.db.models import WebhookDelivery, WebhookEvent, WebhookSubscription
+from api.webhooks.clock import database_now
+from api.webhooks.sealing import SecretBox, SecretUnreadable, load_box
+from api.webhooks.secret_store import signing_keys
+from api.webhooks.signing import EVENT_TYPE_HEADER, signed_headers
 from api.webhooks.targets import TargetRefused, resolve_target
 from engine import __version__
 
-__all__ = ["DeliveryConfig", "DeliveryThread", "backoff_s", "config_from_settings", "run_once", "worker_id"]
+__all__ = ["LOGGER_NAME", "DeliveryConfig", "DeliveryThread", "backoff_s", "config_from_settings", "run_once",
+           "worker_id"]
 
-log = logging.getLogger("ohmtally.webhooks")
+LOGGER_NAME = "ohmtally.api.webhooks"  # a child of the request log's "ohmtally.api": same handler
+log = logging.getLogger(LOGGER_NAME)
 _ERROR_CHARS = 500  # last_error is for a person to read, not a log
+_NO_KEY = ("no server key: OHMTALLY_ENCRYPTION_KEY is not set (OHMTALLY_AUTH is on), so the signing "
+           "secret cannot be opened")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -60,7 +75,7 @@ class DeliveryConfig:
     retry_max_s: float = 3600.0
     max_attempts: int = 30
     batch: int = 20
-    clock: Callable[[], datetime] = field(default=utcnow)
+    box: SecretBox | None = None  # opens the signing secrets; None: every attempt fails, saying why
 
     @property
     def lease_s(self) -> float:
@@ -68,7 +83,21 @@ class DeliveryConfig:
         return 3 * self.timeout_s + 30
 
 
+@dataclass(frozen=True, slots=True)
+class _Outgoing:
+    """What one attempt sends, read in a short transaction before the request goes out."""
+
+    url: str
+    event_id: str
+    event_type: str
+    body: bytes
+    headers: dict[str, str]
+
+
 def config_from_settings(settings: Any, **overrides: Any) -> DeliveryConfig:
+    """The worker's settings; the server key as ``serve`` finds it unless ``box=`` is given."""
+    if "box" not in overrides:
+        overrides["box"] = load_box(settings, settings.instance_path or default_instance_path())
     return DeliveryConfig(allow_private=settings.webhook_allow_private,
                           timeout_s=settings.webhook_timeout_s,
                           retry_base_s=settings.webhook_retry_base_s,
@@ -88,7 +117,7 @@ def worker_id() -> str:
 
 def _claim(session: Session, who: str, config: DeliveryConfig) -> list[int]:
     """Lease up to ``batch`` due deliveries, each the head of its (subscription, job) queue."""
-    now = config.clock()
+    now = database_now(session)
     earlier = aliased(WebhookDelivery)
     blocked = (select(earlier.id).where(earlier.subscription_id == WebhookDelivery.subscription_id,
                                         earlier.job_id == WebhookDelivery.job_id,
@@ -112,25 +141,51 @@ def _claim(session: Session, who: str, config: DeliveryConfig) -> list[int]:
     return claimed
 
 
-def _send(client: httpx.Client, subscription: WebhookSubscription, event: WebhookEvent,
-          delivery_id: int, config: DeliveryConfig) -> tuple[bool, int | None, str | None]:
+def _prepare(session: Session, delivery_id: int, who: str,
+             config: DeliveryConfig) -> _Outgoing | str | None:
+    """Renew our lease and read what to send; an error text when it cannot be signed; ``None``
+    when the row is gone or no longer ours. Commits, so no transaction stays open for the send."""
+    now = database_now(session)
+    renewed = session.execute(update(WebhookDelivery)
+                              .where(WebhookDelivery.id == delivery_id, WebhookDelivery.status == "pending",
+                                     WebhookDelivery.claimed_by == who, WebhookDelivery.claimed_until >= now)
+                              .values(claimed_until=now + timedelta(seconds=config.lease_s)))
+    row = session.get(WebhookDelivery, delivery_id) if getattr(renewed, "rowcount", 0) == 1 else None
+    event = session.get(WebhookEvent, row.event_pk) if row is not None else None
+    subscription = session.get(WebhookSubscription, row.subscription_id) if row is not None else None
+    if row is None or event is None or subscription is None:
+        session.commit()
+        return None
+    try:
+        if config.box is None:
+            raise SecretUnreadable(_NO_KEY)
+        keys = signing_keys(session, config.box, subscription.id, now)
+    except SecretUnreadable as exc:
+        session.commit()
+        return str(exc)
+    session.commit()
+    if not keys:
+        return "the subscription has no valid signing secret"
+    body = event.body.encode("utf-8")
+    headers = {"Content-Type": "application/json", "User-Agent": f"ohmtally-webhooks/{__version__}",
+               EVENT_TYPE_HEADER: event.type,
+               **signed_headers(keys, event.event_id, int(now.timestamp()), body)}
+    return _Outgoing(subscription.url, event.event_id, event.type, body, headers)
+
+
+def _send(client: httpx.Client, outgoing: _Outgoing, config: DeliveryConfig,
+          delivery_id: int) -> tuple[bool, int | None, str | None]:
     """One signed POST: (delivered, status code, error text)."""
     try:
-        target = resolve_target(subscription.url, allow_private=config.allow_private)
+        target = resolve_target(outgoing.url, allow_private=config.allow_private)
     except TargetRefused as refused:
-        return False, None, f"refused: {refused.reason}"
-    body = event.body.encode("utf-8")
-    timestamp = int(config.clock().timestamp())
-    default_port = {"http": 80, "https": 443}[target.scheme]
-    host_header = target.host if target.port == default_port else f"{target.host}:{target.port}"
-    if ":" in target.host and target.port == default_port:
-        host_header = f"[{target.host}]"
-    headers = {"Content-Type": "application/json", "User-Agent": f"ohmtally-webhooks/{__version__}",
-               "Host": host_header, SIGNATURE_HEADER: signature_header(subscription.secret, timestamp, body),
-               EVENT_ID_HEADER: event.event_id, EVENT_HEADER: event.type, DELIVERY_HEADER: str(delivery_id)}
+        log.info(f"webhook delivery {delivery_id} not sent: {refused.detail}",
+                 extra={"delivery_id": delivery_id, "code": refused.code})
+        return False, None, f"refused: {refused.code}: {refused.reason}"
+    headers = {**outgoing.headers, "Host": target.host_header()}
     extensions = {"sni_hostname": target.host} if target.scheme == "https" else {}
     try:
-        with client.stream("POST", target.pinned_url(), content=body, headers=headers,
+        with client.stream("POST", target.pinned_url(), content=outgoing.body, headers=headers,
                            extensions=extensions) as response:
             status = response.status_code
     except httpx.HTTPError as exc:
@@ -143,10 +198,13 @@ def _send(client: httpx.Client, subscription: WebhookSubscription, event: Webhoo
 def _record(session: Session, delivery_id: int, who: str, outcome: tuple[bool, int | None, str | None],
             config: DeliveryConfig) -> None:
     delivered, status, error = outcome
-    row = session.get(WebhookDelivery, delivery_id)
-    if row is None:  # the subscription was deleted while we sent
+    now = database_now(session)
+    row = session.scalars(select(WebhookDelivery).where(
+        WebhookDelivery.id == delivery_id,
+        and_(WebhookDelivery.claimed_by == who, WebhookDelivery.status == "pending"))).first()
+    if row is None:  # deleted with its subscription while we sent (a lease outlives any send)
+        session.commit()
         return
-    now = config.clock()
     row.attempts += 1
     row.last_attempt_at, row.last_status_code, row.last_error = now, status, error
     row.claimed_by = row.claimed_until = None
@@ -157,8 +215,24 @@ def _record(session: Session, delivery_id: int, who: str, outcome: tuple[bool, i
     else:
         row.next_attempt_at = now + timedelta(seconds=backoff_s(row.attempts, config))
     session.commit()
-    log.info("webhook delivery", extra={"delivery_id": delivery_id, "status": row.status,
-                                        "attempts": row.attempts, "worker": who})
+    said = f"HTTP {status}" if status is not None else (error or "no answer")
+    log.info(f"webhook delivery {delivery_id} {row.status} after {row.attempts} attempt(s): {said}",
+             extra={"delivery_id": delivery_id, "delivery_status": row.status, "attempts": row.attempts,
+                    "worker": who})
+
+
+def _attempt(factory: sessionmaker[Session], client: httpx.Client, delivery_id: int, who: str,
+             config: DeliveryConfig) -> bool:
+    """One claimed delivery: prepare, send (no transaction open), record. Whether an attempt was made."""
+    with factory() as session:
+        prepared = _prepare(session, delivery_id, who, config)
+    if prepared is None:
+        return False
+    outcome = ((False, None, prepared[:_ERROR_CHARS]) if isinstance(prepared, str)
+               else _send(client, prepared, config, delivery_id))
+    with factory() as session:
+        _record(session, delivery_id, who, outcome, config)
+    return True
 
 
 def run_once(factory: sessionmaker[Session], config: DeliveryConfig, *, who: str | None = None,
@@ -174,18 +248,7 @@ def run_once(factory: sessionmaker[Session], config: DeliveryConfig, *, who: str
                 claimed = _claim(session, who, config)
             if not claimed:
                 return attempts
-            for delivery_id in claimed:
-                with factory() as session:
-                    row = session.get(WebhookDelivery, delivery_id)
-                    if row is None:
-                        continue
-                    event = session.get(WebhookEvent, row.event_pk)
-                    subscription = session.get(WebhookSubscription, row.subscription_id)
-                    if event is None or subscription is None:
-                        continue
-                    outcome = _send(client, subscription, event, delivery_id, config)
-                    _record(session, delivery_id, who, outcome, config)
-                    attempts += 1
+            attempts += sum(_attempt(factory, client, delivery_id, who, config) for delivery_id in claimed)
     finally:
         if own:
             client.close()
@@ -213,4 +276,3 @@ class DeliveryThread(threading.Thread):
     def stop(self, timeout: float | None = None) -> None:
         self.stopping.set()
         self.join(timeout)
-

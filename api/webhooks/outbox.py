@@ -11,6 +11,9 @@ Invariants:
   differs before and after a post (a new circuit's "before" is ``null``), so
   a post that changes no outcome emits none. Board-level checks can change a
   circuit the post did not touch; that change is reported too.
+- Times are the database's (:mod:`api.webhooks.clock`), read once per
+  transaction: an event's ``created_at`` and its deliveries' first
+  ``next_attempt_at`` do not depend on which host took the request.
 """
 
 from __future__ import annotations
@@ -23,7 +26,8 @@ from typing import Any
 from sqlalchemy import event, select
 from sqlalchemy.orm import Session, SessionTransaction
 
-from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription, utcnow
+from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription
+from api.webhooks.clock import database_now
 from engine import NOTICE, CircuitRecord, Ruleset, Verdict, verify
 
 __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", "outcomes_before",
@@ -31,6 +35,7 @@ __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", 
 
 Outcomes = dict[tuple[str, str], str]
 _CACHE = "ohmtally.webhook_subscriptions"  # session.info: organisation id → subscriptions
+_NOW = "ohmtally.webhook_now"  # session.info: the database's time, read once per transaction
 _LISTENING = "ohmtally.webhook_subscriptions.listening"
 
 
@@ -64,6 +69,7 @@ def _subscriptions(session: Session, organisation_id: int, event_type: str) -> l
 def _forget(session: Session, transaction: SessionTransaction) -> None:
     if transaction.parent is None:  # the outermost transaction, not a flush's subtransaction
         session.info.pop(_CACHE, None)
+        session.info.pop(_NOW, None)
 
 
 def subscribed(session: Session, organisation_id: int, event_type: str) -> bool:
@@ -85,7 +91,9 @@ def emit(session: Session, *, organisation_id: int, job_id: int | None, event_ty
     targets = _subscriptions(session, organisation_id, event_type)
     if not targets:
         return None
-    now = utcnow()
+    now = session.info.get(_NOW)
+    if now is None:  # the cache (and its listener) exist: _subscriptions made them above
+        now = session.info[_NOW] = database_now(session)
     event_id = str(uuid.uuid4())
     body = json.dumps({"id": event_id, "type": event_type, "created_at": now.isoformat(),
                        "data": dict(data)}, ensure_ascii=False, separators=(",", ":"))

@@ -9,6 +9,8 @@ Invariants:
   (``api.webhooks.delivery``); more workers only mean more senders.
 - ``OHMTALLY_WEBHOOK_WORKER=off`` starts no thread; run ``ohmtally deliver``.
 - The thread never shares a request's session or blocks a request.
+- The thread opens signing secrets with the app's own server key
+  (:func:`api.webhooks.sealing.box_for_app`), the one its requests seal with.
 """
 
 from __future__ import annotations
@@ -18,6 +20,7 @@ from typing import Any
 from flask import Flask
 
 from api.webhooks.delivery import DeliveryThread, config_from_settings
+from api.webhooks.sealing import box_for_app
 
 __all__ = ["post_worker_init", "start_delivery_thread", "stop_delivery_thread", "worker_exit"]
 
@@ -28,7 +31,8 @@ def start_delivery_thread(app: Flask, *, poll_s: float = 1.0) -> DeliveryThread 
     settings = app.extensions["ohmtally.settings"]
     if not settings.webhook_worker:
         return None
-    thread = DeliveryThread(app.extensions["ohmtally.db"], config_from_settings(settings), poll_s=poll_s)
+    config = config_from_settings(settings, box=box_for_app(app))
+    thread = DeliveryThread(app.extensions["ohmtally.db"], config, poll_s=poll_s)
     thread.start()
     app.extensions[_KEY] = thread
     return thread

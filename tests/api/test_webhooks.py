@@ -1,10 +1,11 @@
-"""Webhook subscriptions, the target policy, signatures and what each event says.
+"""Webhook subscriptions, signatures a Standard Webhooks receiver accepts, and what each event says.
 
 External references:
-- The signature is checked with the Python recipe printed in
-  README.md ("Checking the signature"), extracted from the file and run as is, on the
-  standard library's hmac/hashlib (RFC 2104 HMAC, FIPS 180-4 SHA-256); a
-  second check uses a hand-built HMAC with the standard library directly.
+- Signatures are checked by the `standardwebhooks` package (the Standard Webhooks
+  project's reference Python library) exactly as a receiver uses it, and by the
+  receiver snippet printed in api/webhooks/README.md, extracted and run as is.
+  The library refuses a timestamp more than five minutes from its clock (its
+  documented tolerance).
 - Address classes come from the standard library's ipaddress module and the
   RFCs it implements: loopback 127.0.0.0/8 and ::1 (RFC 1122, RFC 4291),
   private 10/8 (RFC 1918), link-local 169.254/16 (RFC 3927).
@@ -14,35 +15,57 @@ Circuits and sites are invented.
 
 from __future__ import annotations
 
-import hashlib
-import hmac
+import base64
 import json
 import re
-import time
 from collections.abc import Callable
+from dataclasses import replace
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
 import pytest
+import standardwebhooks.webhooks as swh
+from cryptography.fernet import Fernet
 from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
+from standardwebhooks.webhooks import Webhook, WebhookVerificationError
 
 from api.db.models import Organisation, WebhookDelivery, WebhookEvent, WebhookSubscription
+from api.db.models.webhooks import WebhookSecret
 from api.webhooks.delivery import DeliveryConfig, run_once
-from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
+from api.webhooks.sealing import box_for_app
+from api.webhooks.signing import format_secret, new_secret
+from tests.api.keyring import bearer, issue_key, unique_org
+from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receipt, Receiver
 
-README = Path(__file__).resolve().parents[2] / "README.md"
+README = Path(__file__).resolve().parents[2] / "api" / "webhooks" / "README.md"
 
 
-def readme_recipe() -> Callable[..., bool]:
-    """The `verify_ohmtally` function exactly as README.md prints it."""
+def deliver(app: Flask, config: DeliveryConfig = FAST, **kwargs: Any) -> int:
+    """run_once with this app's server key, as `ohmtally serve` gives its worker threads."""
+    return run_once(app.extensions["ohmtally.db"], replace(config, box=box_for_app(app)), **kwargs)
+
+
+def header(receipt: Receipt, name: str) -> str:
+    """A header of a receipt, by case-insensitive name (HTTP header names are)."""
+    return next(v for k, v in receipt.headers.items() if k.lower() == name.lower())
+
+
+def received(receiver: Receiver) -> list[tuple[str, str]]:
+    """(event type, webhook-id) of every receipt, in arrival order."""
+    return [(header(r, "Ohmtally-Event-Type"), header(r, "webhook-id")) for r in list(receiver.receipts)]
+
+
+def readme_receiver() -> Callable[..., Any]:
+    """The `verify_delivery` function exactly as api/webhooks/README.md prints it."""
     text = README.read_text(encoding="utf-8")
-    block = next(b for b in re.findall(r"```python\n(.*?)```", text, re.S) if "def verify_ohmtally" in b)
+    block = next(b for b in re.findall(r"```python\n(.*?)```", text, re.S) if "def verify_delivery" in b)
     namespace: dict[str, Any] = {}
     exec(compile(block, str(README), "exec"), namespace)  # the documented code, unchanged
-    recipe: Callable[..., bool] = namespace["verify_ohmtally"]
-    return recipe
+    found: Callable[..., Any] = namespace["verify_delivery"]
+    return found
 
 
 def subscribe(client: FlaskClient, url: str, events: list[str] | None = None, **extra: Any) -> dict[str, Any]:
@@ -53,35 +76,41 @@ def subscribe(client: FlaskClient, url: str, events: list[str] | None = None, **
 
 
 def test_subscription_shows_its_secret_once(hooks: FlaskClient) -> None:
-    """POST answers 201 with a generated secret and Location; GET and the list never show the secret."""
+    """POST answers 201 with a generated whsec_ secret (32 bytes) and Location; GET and the list never
+    show it, only when the one valid secret was made; a strong secret of the client's is kept as given."""
     created = hooks.post("/v1/webhooks", json={"url": "http://127.0.0.1:9/x", "events": ["job.created"]})
     assert created.status_code == 201
     body = created.get_json()
-    assert len(body["secret"]) >= 32 and created.headers["Location"] == f"/v1/webhooks/{body['id']}"
+    assert body["secret"].startswith("whsec_") and len(base64.b64decode(body["secret"][6:])) == 32
+    assert created.headers["Location"] == f"/v1/webhooks/{body['id']}"
     one = hooks.get(f"/v1/webhooks/{body['id']}").get_json()
     listed = hooks.get("/v1/webhooks").get_json()["items"]
     assert "secret" not in one and all("secret" not in item for item in listed)
     assert one["events"] == ["job.created"] and [i["id"] for i in listed] == [body["id"]]
-    given = subscribe(hooks, "http://127.0.0.1:9/y", secret="s" * 20)
-    assert given["secret"] == "s" * 20
+    assert [s["valid_until"] for s in one["secrets"]] == [None]
+    assert body["secret"][6:] not in json.dumps(one) + json.dumps(listed)
+    mine = format_secret(new_secret())
+    given = subscribe(hooks, "http://127.0.0.1:9/y", secret=mine)
+    assert given["secret"] == mine
 
 
 def test_delete_removes_the_subscription_and_its_deliveries(hooks: FlaskClient, hook_app: Flask) -> None:
-    """DELETE answers 204; the subscription is then a 404 and its pending deliveries are gone."""
+    """DELETE answers 204; the subscription is then a 404 and its pending deliveries and secrets are gone."""
     sub = subscribe(hooks, "http://127.0.0.1:9/x")
     hooks.post("/v1/jobs", json={"reference": "W-1", "site": "Invented site"})
     assert hooks.delete(f"/v1/webhooks/{sub['id']}").status_code == 204
     assert hooks.get(f"/v1/webhooks/{sub['id']}").status_code == 404
     with hook_app.extensions["ohmtally.db"]() as session:
         assert session.scalars(select(WebhookDelivery)).all() == []
+        assert session.scalars(select(WebhookSecret)).all() == []
 
 
 @pytest.mark.parametrize("url, code", [
-    ("http://127.0.0.1:8080/hook", "private_address"),     # loopback, RFC 1122
-    ("http://[::1]/hook", "private_address"),              # loopback, RFC 4291
-    ("http://10.1.2.3/hook", "private_address"),           # private, RFC 1918
-    ("http://169.254.169.254/latest", "private_address"),  # link-local, RFC 3927
-    ("http://localhost:8000/hook", "private_address"),     # a name that resolves to loopback
+    ("http://127.0.0.1:8080/hook", "target_not_allowed"),     # loopback, RFC 1122
+    ("http://[::1]/hook", "target_not_allowed"),              # loopback, RFC 4291
+    ("http://10.1.2.3/hook", "target_not_allowed"),           # private, RFC 1918
+    ("http://169.254.169.254/latest", "target_not_allowed"),  # link-local, RFC 3927
+    ("http://localhost:8000/hook", "target_not_allowed"),     # a name that resolves to loopback
     ("ftp://example.invalid/hook", "bad_url"),
     ("http://user:pw@1.1.1.1/hook", "bad_url"),
     ("not a url", "bad_url"),
@@ -113,50 +142,72 @@ def test_bad_subscription_bodies_name_the_field(hooks: FlaskClient) -> None:
 
 def test_send_time_policy_refuses_what_subscription_time_allowed(hooks: FlaskClient, hook_app: Flask,
                                                                  receiver: Receiver) -> None:
-    """A worker with the policy on refuses a loopback target at send time; nothing arrives, error kept."""
-    sub = subscribe(hooks, receiver.url, ["job.created"])
+    """A worker with the policy on refuses a loopback target at send time; nothing arrives; the error
+    kept for the client names the stable code, and for a host name never the address it resolved to."""
+    literal = subscribe(hooks, receiver.url, ["job.created"])
+    named = subscribe(hooks, receiver.url.replace("127.0.0.1", "localhost"), ["job.created"])
     hooks.post("/v1/jobs", json={"reference": "W-2", "site": "Invented site"})
     strict = DeliveryConfig(allow_private=False, timeout_s=2, retry_base_s=60)
-    assert run_once(hook_app.extensions["ohmtally.db"], strict) == 1
+    assert deliver(hook_app, strict) == 2
     assert receiver.receipts == []
-    delivery = hooks.get(f"/v1/webhooks/{sub['id']}/deliveries").get_json()["items"][0]
-    assert delivery["status"] == "pending" and delivery["attempts"] == 1
-    assert delivery["last_error"].startswith("refused:") and "127.0.0.1" in delivery["last_error"]
+    for sub in (literal, named):
+        delivery = hooks.get(f"/v1/webhooks/{sub['id']}/deliveries").get_json()["items"][0]
+        assert delivery["status"] == "pending" and delivery["attempts"] == 1
+        assert delivery["last_error"].startswith("refused: target_not_allowed: ")
+    by_name = hooks.get(f"/v1/webhooks/{named['id']}/deliveries").get_json()["items"][0]["last_error"]
+    assert "127.0.0.1" not in by_name and "::1" not in by_name
 
 
-def test_signatures_verify_with_the_documented_recipe(hooks: FlaskClient, hook_app: Flask,
-                                                      receiver: Receiver) -> None:
-    """Deliveries verify with README's recipe and a stdlib HMAC; a changed body or secret fails."""
+def test_deliveries_verify_with_the_standard_webhooks_library(hooks: FlaskClient, hook_app: Flask,
+                                                              receiver: Receiver) -> None:
+    """Every delivery verifies with standardwebhooks' Webhook(secret).verify and with the README's receiver;
+    a changed body, a changed webhook-id or another secret is refused."""
     sub = subscribe(hooks, receiver.url)
     job = hooks.post("/v1/jobs", json={"reference": "W-3", "site": "Invented site"}).get_json()
     hooks.post(f"/v1/jobs/{job['id']}/readings", json={"circuits": [
         {"board": "DB1", "circuit": "1", "polarity_ok": True}]})
-    run_once(hook_app.extensions["ohmtally.db"], FAST)
-    recipe = readme_recipe()
+    deliver(hook_app)
+    documented = readme_receiver()
     assert len(receiver.receipts) == 3
     for receipt in receiver.receipts:
-        assert recipe(sub["secret"], receipt.headers, receipt.body)
-        assert not recipe(sub["secret"], receipt.headers, receipt.body + b" ")
-        assert not recipe("another secret of enough length", receipt.headers, receipt.body)
-        fields = dict(p.split("=", 1) for p in receipt.headers["Ohmtally-Signature"].split(","))
-        mac = hmac.new(sub["secret"].encode(), fields["t"].encode() + b"." + receipt.body, hashlib.sha256)
-        assert fields["v1"] == mac.hexdigest() and abs(time.time() - int(fields["t"])) < 60
+        event = Webhook(sub["secret"]).verify(receipt.body, receipt.headers)
+        assert event == json.loads(receipt.body) and event["id"] == header(receipt, "webhook-id")
+        assert documented(sub["secret"], receipt.headers, receipt.body) == event
+        assert header(receipt, "webhook-signature").startswith("v1,")
+        assert abs(datetime.now(UTC).timestamp() - int(header(receipt, "webhook-timestamp"))) < 60
+        with pytest.raises(WebhookVerificationError):
+            Webhook(sub["secret"]).verify(receipt.body.replace(b'"id"', b'"Id"', 1), receipt.headers)
+        with pytest.raises(WebhookVerificationError):
+            Webhook(sub["secret"]).verify(receipt.body, {**receipt.headers, "webhook-id": "another"})
+        with pytest.raises(WebhookVerificationError):
+            Webhook(format_secret(new_secret())).verify(receipt.body, receipt.headers)
+        assert documented(sub["secret"], receipt.headers, receipt.body + b" ") is None
 
 
-def test_the_recipe_refuses_a_stale_timestamp(hooks: FlaskClient, hook_app: Flask, receiver: Receiver,
-                                              monkeypatch: pytest.MonkeyPatch) -> None:
-    """A delivery that verifies now fails the recipe once the receiver's clock is 301 s on (replay window)."""
+def test_the_library_refuses_a_stale_timestamp(hooks: FlaskClient, hook_app: Flask, receiver: Receiver,
+                                               monkeypatch: pytest.MonkeyPatch) -> None:
+    """A delivery that verifies now is refused once the receiver's clock is 301 s on, and 299 s on it is
+    still accepted (the library's five-minute tolerance)."""
     sub = subscribe(hooks, receiver.url, ["job.created"])
     hooks.post("/v1/jobs", json={"reference": "W-4", "site": "Invented site"})
-    run_once(hook_app.extensions["ohmtally.db"], FAST)
+    deliver(hook_app)
     (receipt,) = receiver.receipts
-    recipe = readme_recipe()
-    assert recipe(sub["secret"], receipt.headers, receipt.body)
-    sent_at = int(dict(p.split("=", 1) for p in receipt.headers["Ohmtally-Signature"].split(","))["t"])
-    monkeypatch.setattr(time, "time", lambda: sent_at + 301.0)
-    assert not recipe(sub["secret"], receipt.headers, receipt.body)
-    monkeypatch.setattr(time, "time", lambda: sent_at + 299.0)
-    assert recipe(sub["secret"], receipt.headers, receipt.body)
+    Webhook(sub["secret"]).verify(receipt.body, receipt.headers)
+    sent_at = datetime.fromtimestamp(int(header(receipt, "webhook-timestamp")), UTC)
+
+    def receiver_clock(offset_s: float) -> type[datetime]:
+        class Clock(datetime):
+            @classmethod
+            def now(cls, tz: Any = None) -> Any:
+                return sent_at + timedelta(seconds=offset_s)
+        return Clock
+
+    monkeypatch.setattr(swh, "datetime", receiver_clock(301))
+    with pytest.raises(WebhookVerificationError, match="too old"):
+        Webhook(sub["secret"]).verify(receipt.body, receipt.headers)
+    assert readme_receiver()(sub["secret"], receipt.headers, receipt.body) is None
+    monkeypatch.setattr(swh, "datetime", receiver_clock(299))
+    assert Webhook(sub["secret"]).verify(receipt.body, receipt.headers)["type"] == "job.created"
 
 
 def test_event_bodies_say_what_happened(hooks: FlaskClient, hook_app: Flask, receiver: Receiver) -> None:
@@ -167,12 +218,14 @@ def test_event_bodies_say_what_happened(hooks: FlaskClient, hook_app: Flask, rec
     posted = hooks.post(f"/v1/jobs/{job['id']}/readings", json={"circuits": [
         {"board": "DB1", "circuit": "1", "polarity_ok": True},
         {"board": "DB1", "circuit": "2", "polarity_ok": False}]}).get_json()
-    run_once(hook_app.extensions["ohmtally.db"], FAST)
+    deliver(hook_app)
     bodies = [json.loads(r.body) for r in receiver.receipts]
     for receipt, body in zip(receiver.receipts, bodies, strict=True):
-        assert receipt.headers["Ohmtally-Event"] == body["type"]
-        assert receipt.headers["Ohmtally-Event-Id"] == body["id"]
-        assert receipt.headers["Content-Type"] == "application/json"
+        assert header(receipt, "Ohmtally-Event-Type") == body["type"]
+        assert header(receipt, "webhook-id") == body["id"]
+        assert header(receipt, "Content-Type") == "application/json"
+        assert not any(k.lower().startswith("ohmtally-") and k.lower() != "ohmtally-event-type"
+                       for k in receipt.headers)
     created, accepted = bodies[0], bodies[1]
     assert created["type"] == "job.created" and created["data"]["job"]["external_ref"] == "crm-5"
     assert created["data"]["job"]["id"] == job["id"]
@@ -192,17 +245,23 @@ def test_no_subscription_no_event(client: FlaskClient, app: Flask) -> None:
 
 
 def test_another_organisations_subscription_is_invisible(hooks: FlaskClient, hook_app: Flask) -> None:
-    """A subscription of another organisation is a 404 here and gets none of this organisation's events."""
+    """A subscription of another organisation is a 404 here (read, delete, rotate) and gets none of this
+    organisation's events."""
+    box = box_for_app(hook_app)
+    assert box is not None
     with hook_app.extensions["ohmtally.db"]() as session:
         other = Organisation(slug="other-firm", name="Another invented firm")
         session.add(other)
         session.flush()
-        row = WebhookSubscription(organisation_id=other.id, url="http://127.0.0.1:9/o",
-                                  events=ALL_EVENTS, secret="x" * 32)
+        row = WebhookSubscription(organisation_id=other.id, url="http://127.0.0.1:9/o", events=ALL_EVENTS)
         session.add(row)
+        session.flush()
+        session.add(WebhookSecret(subscription_id=row.id, sealed=box.seal(row.id, new_secret()),
+                                  created_at=datetime.now(UTC)))
         session.commit()
         other_id = row.id
     assert hooks.get(f"/v1/webhooks/{other_id}").status_code == 404
+    assert hooks.post(f"/v1/webhooks/{other_id}/secret").status_code == 404
     assert hooks.delete(f"/v1/webhooks/{other_id}").status_code == 404
     hooks.post("/v1/jobs", json={"reference": "W-7", "site": "Invented site"})
     with hook_app.extensions["ohmtally.db"]() as session:
@@ -212,39 +271,27 @@ def test_another_organisations_subscription_is_invisible(hooks: FlaskClient, hoo
 
 def test_with_keys_subscriptions_follow_the_key_and_need_admin(db_url: str,
                                                               app_factory: Callable[..., Flask]) -> None:
-    """With OHMTALLY_AUTH=on a write key cannot subscribe (403); an admin key's subscription is its firm's."""
-    from api.http.keys import create_key, organisation_named
-
-    app = app_factory(db_url, OHMTALLY_AUTH="on", OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
-    secrets: dict[str, str] = {}
-    with app.extensions["ohmtally.db"]() as session:
-        for firm, scopes in (("Invented firm A", "read,write"), ("Invented firm A", "admin"),
-                             ("Invented firm B", "admin")):
-            organisation = organisation_named(session, firm, create=True)
-            assert organisation is not None
-            secrets[f"{firm}/{scopes}"] = create_key(session, organisation, name="t", scopes=scopes,
-                                                       expires_at=None).secret
-        session.commit()
+    """With OHMTALLY_AUTH=on a write key cannot subscribe or rotate (403); an admin key's subscription is
+    its firm's."""
+    app = app_factory(db_url, OHMTALLY_AUTH="on", OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on",
+                      OHMTALLY_ENCRYPTION_KEY=Fernet.generate_key().decode())
+    firm_a, firm_b = unique_org("Invented firm A"), unique_org("Invented firm B")
+    writer = bearer(issue_key(app, firm_a, "read,write")[1])
+    admin_a = bearer(issue_key(app, firm_a, "admin")[1])
+    admin_b = bearer(issue_key(app, firm_b, "admin")[1])
     client = app.test_client()
-
-    def as_key(name: str) -> dict[str, str]:
-        return {"Authorization": f"Bearer {secrets[name]}"}
-
     body = {"url": "http://127.0.0.1:9/a", "events": ALL_EVENTS}
-    refused = client.post("/v1/webhooks", json=body, headers=as_key("Invented firm A/read,write"))
-    assert refused.status_code == 403
-    made = client.post("/v1/webhooks", json=body, headers=as_key("Invented firm A/admin"))
+    assert client.post("/v1/webhooks", json=body, headers=writer).status_code == 403
+    made = client.post("/v1/webhooks", json=body, headers=admin_a)
     assert made.status_code == 201
     sub_id = made.get_json()["id"]
-    own = client.get(f"/v1/webhooks/{sub_id}", headers=as_key("Invented firm A/read,write"))
-    assert own.status_code == 200
-    assert client.get(f"/v1/webhooks/{sub_id}", headers=as_key("Invented firm B/admin")).status_code == 404
-    assert client.get("/v1/webhooks", headers=as_key("Invented firm B/admin")).get_json()["items"] == []
-    client.post("/v1/jobs", json={"reference": "K-1", "site": "Invented"},
-                headers=as_key("Invented firm B/admin"))
+    assert client.get(f"/v1/webhooks/{sub_id}", headers=writer).status_code == 200
+    assert client.post(f"/v1/webhooks/{sub_id}/secret", headers=writer).status_code == 403
+    assert client.get(f"/v1/webhooks/{sub_id}", headers=admin_b).status_code == 404
+    assert client.get("/v1/webhooks", headers=admin_b).get_json()["items"] == []
+    client.post("/v1/jobs", json={"reference": "K-1", "site": "Invented"}, headers=admin_b)
     with app.extensions["ohmtally.db"]() as session:
         assert session.scalars(select(WebhookDelivery)).all() == []  # firm B's job: not firm A's event
-    client.post("/v1/jobs", json={"reference": "K-2", "site": "Invented"},
-                headers=as_key("Invented firm A/read,write"))
+    client.post("/v1/jobs", json={"reference": "K-2", "site": "Invented"}, headers=writer)
     with app.extensions["ohmtally.db"]() as session:
         assert len(session.scalars(select(WebhookDelivery)).all()) == 1

@@ -20,7 +20,7 @@ import sys
 import threading
 import time
 from collections.abc import Callable
-from datetime import datetime
+from datetime import datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -32,10 +32,12 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from api.cli.demo import free_port, wait_healthy
+from api.db.models import WebhookDelivery, WebhookEvent
 from api.db.schema import upgrade
-from api.db.models import WebhookEvent
 from api.webhooks.delivery import DeliveryConfig, backoff_s, run_once
+from api.webhooks.sealing import box_for_app
 from engine import NOTICE, build_record, verify
+from tests.api.test_webhooks import deliver, header, received
 from tests.api.webhook_receiver import ALL_EVENTS, FAST, Receiver
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -65,7 +67,7 @@ def _deliver_until(app: Flask, receiver: Receiver, count: int, config: DeliveryC
                    within_s: float = 10.0) -> None:
     deadline = time.monotonic() + within_s
     while len(receiver.receipts) < count and time.monotonic() < deadline:
-        run_once(app.extensions["ohmtally.db"], config)
+        deliver(app, config)
         time.sleep(0.02)
     assert len(receiver.receipts) >= count, f"only {len(receiver.receipts)} of {count} arrived"
 
@@ -91,7 +93,7 @@ def test_a_receiver_down_for_a_while_gets_every_event_in_order(hooks: FlaskClien
     _post(hooks, second, {"board": "DB1", "circuit": "1", "polarity_ok": False})
     _post(hooks, first, {"board": "DB1", "circuit": "1", "polarity_ok": False})
     for _ in range(4):
-        run_once(hook_app.extensions["ohmtally.db"], FAST)
+        deliver(hook_app)
         time.sleep(0.06)
     failed = hooks.get("/v1/webhooks/1/deliveries?status=pending").get_json()["items"]
     assert failed and max(d["attempts"] for d in failed) >= 2
@@ -109,13 +111,13 @@ def test_a_receiver_down_for_a_while_gets_every_event_in_order(hooks: FlaskClien
 
 def test_a_lost_answer_redelivers_the_same_event_id_and_body(hooks: FlaskClient, hook_app: Flask,
                                                              receiver: Receiver) -> None:
-    """A receiver that took the event but answered 500 gets it again: same Ohmtally-Event-Id, same body."""
+    """A receiver that took the event but answered 500 gets it again: same webhook-id, same body."""
     sub = _subscribe(hooks, receiver.url, ["job.created"])
     receiver.fail_next = 1
     _job(hooks, "L-1")
     _deliver_until(hook_app, receiver, 2)
     first, again = receiver.receipts
-    assert first.headers["Ohmtally-Event-Id"] == again.headers["Ohmtally-Event-Id"]
+    assert header(first, "webhook-id") == header(again, "webhook-id")
     assert first.body == again.body
     (delivery,) = hooks.get(f"/v1/webhooks/{sub['id']}/deliveries").get_json()["items"]
     assert delivery["status"] == "delivered" and delivery["attempts"] == 2
@@ -131,15 +133,17 @@ def test_a_later_event_waits_for_the_earlier_one_of_its_job(hooks: FlaskClient, 
     _post(hooks, blocked, {"board": "DB1", "circuit": "1", "polarity_ok": True})
     slow = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=0.05, retry_max_s=0.05)
     for _ in range(3):
-        run_once(hook_app.extensions["ohmtally.db"], slow)
+        deliver(hook_app, slow)
         time.sleep(0.06)
-    assert {r.headers["Ohmtally-Event"] for r in receiver.receipts} == {"job.created"}
+    assert {t for t, _id in received(receiver)} == {"job.created"}
     receiver.fail_next = 0
     free = _job(hooks, "O-2")
     _deliver_until(hook_app, receiver, len(receiver.receipts) + 3, slow)
     delivered = [(json.loads(r.body)["type"]) for r in receiver.receipts[-3:]]
     assert delivered.count("readings.accepted") == 1 and delivered.count("job.created") == 2
-    assert free > blocked
+    created_for = {json.loads(r.body)["data"]["job"]["id"] for r in receiver.receipts[-3:]
+                   if json.loads(r.body)["type"] == "job.created"}
+    assert created_for == {blocked, free}  # the other job's event went too
 
 
 def test_verdict_changed_fires_exactly_when_an_outcome_changes(hooks: FlaskClient, hook_app: Flask,
@@ -157,7 +161,7 @@ def test_verdict_changed_fires_exactly_when_an_outcome_changes(hooks: FlaskClien
             for b in fresh} == {key: (None, outcome) for key, outcome in expected_first.items()}
 
     _post(hooks, job, {"board": "DB1", "circuit": "1", "description": "Invented kitchen sockets"})
-    run_once(hook_app.extensions["ohmtally.db"], FAST)
+    deliver(hook_app)
     assert len(receiver.receipts) == 2  # the description changes no outcome: nothing sent
     with hook_app.extensions["ohmtally.db"]() as session:
         assert len(session.scalars(select(WebhookEvent)).all()) == 2
@@ -170,33 +174,42 @@ def test_verdict_changed_fires_exactly_when_an_outcome_changes(hooks: FlaskClien
     assert changed["outcome"] == next(v.outcome.value for v in after if v.key == ("DB1", "1")) == "fail"
     assert (changed["board"], changed["circuit"]) == ("DB1", "1")
     assert changed["notice"] == NOTICE  # an outcome travels with the safety caution
-    run_once(hook_app.extensions["ohmtally.db"], FAST)
+    deliver(hook_app)
     assert len(receiver.receipts) == 3  # DB1/2 did not change: no event for it
 
 
 def test_retries_follow_the_documented_backoff(hooks: FlaskClient, hook_app: Flask,
                                                receiver: Receiver) -> None:
-    """next − last attempt is base × 2^(n−1), capped; after max_attempts the delivery is failed."""
+    """next − last attempt is base × 2^(n−1), capped; after max_attempts the delivery is failed.
+    Time passing is simulated by moving the row's times back by the wait (the times are the database's)."""
     sub = _subscribe(hooks, receiver.url, ["job.created"])
     receiver.fail_next = 1000
     _job(hooks, "B-1")
-    now = [datetime.now().astimezone()]
-    config = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=10, retry_max_s=35, max_attempts=5,
-                            clock=lambda: now[0])
+    config = DeliveryConfig(allow_private=True, timeout_s=2, retry_base_s=10, retry_max_s=35, max_attempts=5)
     waits: list[float] = []
     for _attempt in range(5):
-        assert run_once(hook_app.extensions["ohmtally.db"], config) == 1
+        assert deliver(hook_app, config) == 1
         (row,) = hooks.get(f"/v1/webhooks/{sub['id']}/deliveries").get_json()["items"]
         if row["status"] == "pending":
             wait = (datetime.fromisoformat(row["next_attempt_at"])
                     - datetime.fromisoformat(row["last_attempt_at"])).total_seconds()
             waits.append(wait)
-            assert run_once(hook_app.extensions["ohmtally.db"], config) == 0  # not due yet
-            now[0] = datetime.fromisoformat(row["next_attempt_at"])
+            assert deliver(hook_app, config) == 0  # not due yet
+            _wait_passes(hook_app, row["id"], timedelta(seconds=wait))
     assert waits == [10, 20, 35, 35]  # 10 × 2^0, 10 × 2^1, min(40, 35), min(80, 35)
     assert waits == [backoff_s(n, config) for n in range(1, 5)]
     assert row["status"] == "failed" and row["attempts"] == 5 and row["last_status_code"] == 500
     assert len(receiver.receipts) == 5
+
+
+def _wait_passes(app: Flask, delivery_id: int, wait: timedelta) -> None:
+    """As if ``wait`` had passed for this delivery: its attempt and retry times move back by it."""
+    with app.extensions["ohmtally.db"]() as session:
+        row = session.get(WebhookDelivery, delivery_id)
+        assert row is not None and row.last_attempt_at is not None
+        row.next_attempt_at -= wait
+        row.last_attempt_at -= wait
+        session.commit()
 
 
 def test_two_workers_never_send_one_delivery_twice(hooks: FlaskClient, hook_app: Flask,
@@ -206,14 +219,14 @@ def test_two_workers_never_send_one_delivery_twice(hooks: FlaskClient, hook_app:
     for n in range(12):
         _job(hooks, f"C-{n}")
     factory = hook_app.extensions["ohmtally.db"]
-    config = DeliveryConfig(allow_private=True, timeout_s=2, batch=3)
+    config = DeliveryConfig(allow_private=True, timeout_s=2, batch=3, box=box_for_app(hook_app))
     workers = [threading.Thread(target=run_once, args=(factory, config), kwargs={"who": f"w{n}"})
                for n in range(2)]
     for worker in workers:
         worker.start()
     for worker in workers:
         worker.join(20)
-    ids = [event_id for _type, event_id in receiver.events()]
+    ids = [event_id for _type, event_id in received(receiver)]
     assert len(ids) == 12 and len(set(ids)) == 12
 
 
@@ -282,7 +295,7 @@ def test_serve_delivers_from_its_workers(tmp_path: Path, receiver: Receiver) -> 
         while len(receiver.receipts) < 4 and time.monotonic() < deadline:
             time.sleep(0.1)
         time.sleep(1.5)  # a second, duplicate send would have arrived by now
-        ids = [event_id for _type, event_id in receiver.events()]
+        ids = [event_id for _type, event_id in received(receiver)]
         assert len(ids) == 4 and len(set(ids)) == 4
     finally:
         child.terminate()

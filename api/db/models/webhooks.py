@@ -1,4 +1,4 @@
-"""Webhook tables (migration 0004): subscriptions, the outbox of events, one delivery per pair.
+"""Webhook tables (migrations 0004, 0005): subscriptions and their sealed secrets, the outbox, deliveries.
 
 Invariants:
 - Declared on :class:`api.db.models.base.Base`, so one metadata holds every table and
@@ -6,6 +6,10 @@ Invariants:
 - A :class:`WebhookEvent` is written in the same transaction as the change it
   reports (no event is lost when the change commits, none invented when it
   rolls back), and ``body`` is the exact JSON every delivery of it sends.
+- A subscription's signing secrets are :class:`WebhookSecret` rows, each only
+  ever the sealed token of :mod:`api.webhooks.sealing` (never the secret).
+  ``expires_at`` is null for the current secret; a rotation gives the earlier
+  ones an ``expires_at`` (database clock), and until then they sign too.
 - ``event_id`` (a UUID) is the receiver's de-duplication key: every attempt
   and every re-delivery of an event carries the same one.
 - A :class:`WebhookDelivery` is ``pending`` until it is ``delivered`` or, after
@@ -22,8 +26,10 @@ from sqlalchemy import JSON, ForeignKey, Index, String, Text, UniqueConstraint
 from sqlalchemy.orm import Mapped, mapped_column
 
 from api.db.models.base import Base, UtcDateTime, utcnow
+from api.db.models.jobs import JOB_ID
 
-__all__ = ["DELIVERY_STATUSES", "EVENT_TYPES", "WebhookDelivery", "WebhookEvent", "WebhookSubscription"]
+__all__ = ["DELIVERY_STATUSES", "EVENT_TYPES", "WebhookDelivery", "WebhookEvent", "WebhookSecret",
+           "WebhookSubscription"]
 
 # The events a subscription can ask for (README.md, "Integrating", describes each body).
 EVENT_TYPES: tuple[str, ...] = ("job.created", "readings.accepted", "verdict.changed")
@@ -37,9 +43,19 @@ class WebhookSubscription(Base):
     organisation_id: Mapped[int] = mapped_column(ForeignKey("organisations.id"), index=True)
     url: Mapped[str] = mapped_column(String(2000))
     events: Mapped[list[str]] = mapped_column(JSON)
-    secret: Mapped[str] = mapped_column(String(200))
     description: Mapped[str | None] = mapped_column(String(200), default=None)
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
+
+
+class WebhookSecret(Base):
+    __tablename__ = "webhook_secrets"
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    subscription_id: Mapped[int] = mapped_column(
+        ForeignKey("webhook_subscriptions.id", ondelete="CASCADE"), index=True)
+    sealed: Mapped[str] = mapped_column(Text)
+    created_at: Mapped[datetime] = mapped_column(UtcDateTime())
+    expires_at: Mapped[datetime | None] = mapped_column(UtcDateTime(), default=None)
 
 
 class WebhookEvent(Base):
@@ -49,7 +65,7 @@ class WebhookEvent(Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     event_id: Mapped[str] = mapped_column(String(36))
     organisation_id: Mapped[int] = mapped_column(ForeignKey("organisations.id"))
-    job_id: Mapped[int | None] = mapped_column(ForeignKey("jobs.id"), index=True, default=None)
+    job_id: Mapped[int | None] = mapped_column(JOB_ID, ForeignKey("jobs.id"), index=True, default=None)
     type: Mapped[str] = mapped_column(String(50))
     body: Mapped[str] = mapped_column(Text)
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
@@ -68,7 +84,7 @@ class WebhookDelivery(Base):
     subscription_id: Mapped[int] = mapped_column(
         ForeignKey("webhook_subscriptions.id", ondelete="CASCADE"))
     event_pk: Mapped[int] = mapped_column(ForeignKey("webhook_events.id"))
-    job_id: Mapped[int | None] = mapped_column(default=None)
+    job_id: Mapped[int | None] = mapped_column(JOB_ID, default=None)  # 64-bit job ids (migration 0006)
     status: Mapped[str] = mapped_column(String(20), default="pending")
     attempts: Mapped[int] = mapped_column(default=0)
     next_attempt_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
