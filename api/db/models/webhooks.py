@@ -31,7 +31,7 @@ from api.db.models.jobs import JOB_ID
 __all__ = ["DELIVERY_STATUSES", "EVENT_TYPES", "WebhookDelivery", "WebhookEvent", "WebhookSecret",
            "WebhookSubscription"]
 
-# The events a subscription can ask for (README.md, "Integrating", describes each body).
+# The events a subscription can ask for (api/webhooks/README.md describes each body).
 EVENT_TYPES: tuple[str, ...] = ("job.created", "readings.accepted", "verdict.changed")
 DELIVERY_STATUSES: tuple[str, ...] = ("pending", "delivered", "failed")
 
