@@ -33,6 +33,9 @@ CHECK_IDS: tuple[str, ...] = (
     "rcd_time",
     "earth_electrode",
     "voltage_drop",
+    "additional_protection",
+    "overload",
+    "protective_conductor",
 )
 
 _KNOWN_CHECKS: frozenset[str] = frozenset(CHECK_IDS)  # one hash per result, not a scan of the tuple

@@ -5,9 +5,11 @@ Two ways in, both reusable:
   (numbers, unit strings, bounded and over-range text, zeros, huge numbers,
   words testers write), the path every adapter and the API take.
 - :func:`records` — :class:`engine.CircuitRecord` built directly with any value
-  its field types allow once built: finite non-negative design numbers,
-  temperatures in the accepted range, every choice, and readings with every
-  relation including over range without a number.
+  its field types allow once built: finite design numbers and readings of
+  either sign (zero and negative ones are what the engine must never judge),
+  temperatures in the accepted range, every choice, readings with every
+  relation including over range without a number, and fields remembered as
+  rejected at intake.
 """
 
 from __future__ import annotations
@@ -29,6 +31,8 @@ numbers = st.one_of(
     st.floats(min_value=0.0, max_value=1.7e308, allow_nan=False, allow_infinity=False),
 )
 temperatures = st.floats(min_value=-60.0, max_value=250.0, allow_nan=False)
+#: Any finite number a caller may put in a record, negative ones included.
+signed_numbers = st.one_of(numbers, numbers.map(lambda x: -x), st.sampled_from([-0.0, -1e-12, -0.5]))
 
 
 @st.composite
@@ -37,7 +41,7 @@ def readings(draw: st.DrawFn) -> Reading:
     relation = draw(st.sampled_from(["=", ">", "<", "OL"]))
     if relation == "OL":
         return Reading(value=None, relation=">", text="OL")
-    return Reading(value=draw(numbers), relation=relation)
+    return Reading(value=draw(signed_numbers), relation=relation)
 
 
 def _field_value(name: str) -> st.SearchStrategy[Any]:
@@ -51,7 +55,7 @@ def _field_value(name: str) -> st.SearchStrategy[Any]:
     if spec.kind == "count":
         return st.sampled_from([int(c) for c in spec.choices])
     if spec.kind == "number":
-        return temperatures if spec.unit == "degC" else numbers
+        return temperatures if spec.unit == "degC" else signed_numbers
     if name == "device_standard":
         return st.sampled_from(["BS EN 60898", "BS EN 61009-1", "BS 88-2", "BS 88-3", "BS 3036",
                                 "BS 1362", "BS 1361", "BS 88-2.2", "BS EN 60947-2", "IEC 60898"])
@@ -66,9 +70,11 @@ def records(draw: st.DrawFn) -> CircuitRecord:
     """A record with any subset of fields set to any value its type allows."""
     names = draw(st.lists(st.sampled_from(_OPTIONAL), unique=True, max_size=len(_OPTIONAL)))
     values = {name: draw(_field_value(name)) for name in names}
+    refused = draw(st.lists(st.sampled_from(_OPTIONAL), unique=True, max_size=4))
+    rejected = {name: "refused text" for name in refused if name not in values}
     board = draw(st.sampled_from(["DB1", "DB2"]))
     circuit = draw(st.sampled_from(["1", "2", "3"]))
-    return CircuitRecord(board=board, circuit=circuit, **values)
+    return CircuitRecord(board=board, circuit=circuit, rejected=rejected, **values)
 
 
 #: Reading text as meters and spreadsheets write it.

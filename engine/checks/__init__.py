@@ -17,6 +17,7 @@ from collections.abc import Callable, Iterable
 from ..context import CircuitView, Context
 from ..results import CheckResult
 from . import (
+    additional_protection,
     continuity,
     earth_electrode,
     external_impedance,
@@ -24,7 +25,9 @@ from . import (
     insulation,
     loop_consistency,
     loop_impedance,
+    overload,
     polarity,
+    protective_conductor,
     rcd_time,
     ring_continuity,
     voltage_drop,
@@ -46,4 +49,7 @@ CHECKS: dict[str, CheckFn] = {
     "rcd_time": rcd_time.run,
     "earth_electrode": earth_electrode.run,
     "voltage_drop": voltage_drop.run,
+    "additional_protection": additional_protection.run,
+    "overload": overload.run,
+    "protective_conductor": protective_conductor.run,
 }

@@ -29,8 +29,9 @@ from ..readings import Reading
 from ..results import CheckResult, LimitKind, Outcome
 from ..ruleset import Ruleset
 from ._compare import Side, compare_max, compare_min, incomplete
+from ._rcd import rcd_evidence
 
-__all__ = ["rcd_evidence", "run"]
+__all__ = ["run"]
 
 CHECK = "rcd_time"
 SECTION = "rcd"
@@ -43,18 +44,6 @@ def _is_delayed(view: CircuitView, rules: Ruleset) -> bool:
     assumed = bool(rules.value(SECTION, "delayed_when_unrecorded"))
     view.defaults_applied["rcd_delayed"] = assumed  # reported like any other default
     return assumed
-
-
-_EVIDENCE = ("rcd_trip_ms", "rcd_trip_5x_ms", "rcd_half_no_trip")
-
-
-def rcd_evidence(view: CircuitView) -> str | None:
-    """The field that shows the circuit has an RCD, or ``None``."""
-    if view.raw("rcd_residual_ma") is not None:
-        return "rcd_residual_ma"
-    if view.get("device_kind") == "rcbo":
-        return "device_kind"
-    return next((name for name in _EVIDENCE if view.raw(name) is not None), None)
 
 
 def _without_idn(result: CheckResult, evidence: str) -> CheckResult:

@@ -12,12 +12,14 @@ from .common import Missing, positive, round_down, round_half_up
 from .devices import Device, resolve_device
 from .disconnection import Disconnection, disconnection_time, earthing_system
 from .max_zs import MaxZs, breaker_max_zs, fuse_max_zs, max_zs_for, rule_of_thumb_limit
+from .operating_time import TimeBounds, time_bounds
 
 __all__ = [
     "Device",
     "Disconnection",
     "MaxZs",
     "Missing",
+    "TimeBounds",
     "breaker_max_zs",
     "disconnection_time",
     "earthing_system",
@@ -28,4 +30,5 @@ __all__ = [
     "round_down",
     "round_half_up",
     "rule_of_thumb_limit",
+    "time_bounds",
 ]

@@ -27,7 +27,7 @@ from ..ruleset import Ruleset
 from .common import Missing, decimal_of, positive, round_down, round_half_up
 from .devices import Device
 
-__all__ = ["MaxZs", "breaker_max_zs", "fuse_max_zs", "max_zs_for", "rule_of_thumb_limit"]
+__all__ = ["MaxZs", "breaker_max_zs", "fuse_max_zs", "fuse_tables", "max_zs_for", "rule_of_thumb_limit"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -72,7 +72,8 @@ def breaker_max_zs(rules: Ruleset, curve: str, rating_a: float, u0_v: float,
     return MaxZs(ohm=ohm, basis=basis, device=f"{curve}{rating_a:g}", table_s=column, formula=formula)
 
 
-def _fuse_tables(rules: Ruleset, standard: str) -> list[tuple[float, dict[str, Any], str]]:
+def fuse_tables(rules: Ruleset, standard: str) -> list[tuple[float, dict[str, Any], str]]:
+    """(seconds, table, source) of every Zs table the ruleset holds for fuses to ``standard``."""
     out = []
     for entry in rules.sections.get("fuses", {}).values():
         value = entry.value
@@ -84,7 +85,7 @@ def _fuse_tables(rules: Ruleset, standard: str) -> list[tuple[float, dict[str, A
 def fuse_max_zs(rules: Ruleset, standard: str, rating_a: float, u0_v: float,
                 required_s: float) -> MaxZs | Missing:
     """Zs max for a fuse from the ruleset's literal tables."""
-    tables = _fuse_tables(rules, standard)
+    tables = fuse_tables(rules, standard)
     if not tables:
         return Missing(fields=("device_max_zs_ohm",), reason=f"no Zs table for fuses to {standard}")
     column = _column([t for t, _, _ in tables], required_s, None)

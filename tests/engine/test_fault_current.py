@@ -60,3 +60,41 @@ def test_missing_breaking_capacity_is_incomplete_with_a_hint() -> None:
 def test_not_applicable_without_pfc() -> None:
     """No PFC reading: the check is left out."""
     assert _pfc(device_breaking_ka=6) == []
+
+
+@pytest.mark.parametrize(("pfc", "outcome"), [(4.99, Outcome.PASS), (5.0, Outcome.PASS),
+                                              (5.01, Outcome.FAIL)])
+def test_three_phase_circuit_judged_on_twice_the_line_neutral_figure(pfc: float, outcome: Outcome) -> None:
+    """Three-phase PSCC ≈ 2 × line–neutral PSCC (common practice, IET OSG; derived from equal impedances):
+    a 10 kA device passes 5 kA L–N (10 kA three-phase) and fails 5.01 kA; 6 kA L–N passed before."""
+    found = _pfc(pfc_ka=pfc, device_breaking_ka=10, phases=3)
+    capacity = next(c for c in found if c.method == "three_phase_estimate")
+    assert capacity.outcome is outcome and capacity.value == pytest.approx(2 * pfc)
+    assert _pfc(pfc_ka=6, device_breaking_ka=10)[0].outcome is Outcome.PASS  # single-phase: 6 ≤ 10
+    assert _pfc(pfc_ka=6, device_breaking_ka=10, phases=3)[0].outcome is Outcome.FAIL
+
+
+@pytest.mark.parametrize(("pfc", "outcome"), [(0.52, Outcome.INVESTIGATE), (0.53, Outcome.PASS),
+                                              (1.05, Outcome.PASS)])
+def test_pfc_below_what_ze_implies_is_investigate(pfc: float, outcome: Outcome) -> None:
+    """Ze 0.22 Ω → U0/Ze = 1.045 kA (derived); a PFC below half of it [practice] contradicts the readings."""
+    found = next(c for c in _pfc(pfc_ka=pfc, ze_ohm=0.22, device_breaking_ka=6, earthing="TN-S")
+                 if c.method == "pfc_vs_ze")
+    assert found.outcome is outcome
+
+
+def test_pfc_far_above_u0_over_ze_on_pme_is_investigate() -> None:
+    """TN-C-S: the earth path is the neutral, so PSCC ≈ PEFC; 2.2 kA with Ze 0.22 Ω (1.045 kA) disagrees,
+    on TN-S (a separate earth path) it may be so."""
+    pme = next(c for c in _pfc(pfc_ka=2.2, ze_ohm=0.22, device_breaking_ka=6, earthing="TN-C-S")
+               if c.method == "pfc_vs_ze")
+    assert pme.outcome is Outcome.INVESTIGATE
+    tns = next(c for c in _pfc(pfc_ka=2.2, ze_ohm=0.22, device_breaking_ka=6, earthing="TN-S")
+               if c.method == "pfc_vs_ze")
+    assert tns.outcome is Outcome.PASS
+
+
+def test_pfc_below_u0_over_zs_is_investigate() -> None:
+    """The PFC where it was measured is at least the fault current at the circuit's end, U0/Zs (derived)."""
+    found = next(c for c in _pfc(pfc_ka=0.1, zs_ohm=0.5, device_breaking_ka=6) if c.method == "pfc_vs_zs")
+    assert found.outcome is Outcome.INVESTIGATE  # 0.1 kA < 0.5 × 0.46 kA

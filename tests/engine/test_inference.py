@@ -25,8 +25,8 @@ def test_an_open_ring_without_circuit_form_fails() -> None:
                        cpc_mm2=1.5)
     ring = [c for c in verdict.checks if c.check == "ring_continuity"]
     assert ring and ring[0].outcome is Outcome.FAIL and ring[0].method == "end_to_end_open"
-    assert verdict.inferred == {"circuit_form": "ring"}
-    assert verdict.as_dict()["inferred"] == {"circuit_form": "ring"}
+    assert verdict.inferred["circuit_form"] == "ring"  # and so socket-outlets, for additional protection
+    assert verdict.as_dict()["inferred"] == {"circuit_form": "ring", "socket_outlets": True}
     assert "circuit_form" not in verdict.defaults_applied
 
 

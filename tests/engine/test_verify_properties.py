@@ -5,7 +5,7 @@ from __future__ import annotations
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from engine import CircuitRecord, Reading, build_record, builtin_ruleset_ids, verify
+from engine import FIELDS, CircuitRecord, Reading, build_record, builtin_ruleset_ids, verify
 from engine.results import CHECK_IDS, Outcome
 from tests.strategies import record_inputs, records
 
@@ -52,3 +52,98 @@ def test_denormal_residual_current_is_no_rating() -> None:
     assert verdict.errors == ()
     loop = {c.check: c for c in verdict.checks}["loop_impedance"]
     assert loop.outcome is Outcome.INVESTIGATE and loop.inputs["field"] == "rcd_residual_ma"
+
+
+# --- a check whose input was rejected, implausible or absent never says pass (issue 14) ---
+#
+# What each way of passing rests on, written out here from the rules (not read from the engine):
+# NEEDS must be present, and neither rejected nor impossible; USES may be absent (a default then
+# stands) but, where given, must be neither. A tuple in NEEDS is "one of these". A pass by a method
+# not listed fails the test, so a new way of passing must say what it rests on.
+_LOOP_USES = ("device_rating_a", "device_max_zs_ohm", "max_disconnection_s", "nominal_voltage_v",
+              "test_temp_c", "insulation_temp_c")
+_VD_USES = ("nominal_voltage_v", "test_temp_c", "insulation_temp_c", "line_mm2", "cpc_mm2",
+            "neutral_mm2", "r2_ohm", "length_m", "cable_mv_per_a_m")
+_VD_NEEDS = (("design_current_a", "device_rating_a"),)
+RESTS_ON: dict[tuple[str, str], tuple[tuple[object, ...], tuple[str, ...]]] = {
+    ("continuity", "expected_iec60228"): (("r1_r2_ohm", "length_m", "cpc_mm2", "line_mm2"), ("test_temp_c",)),
+    ("continuity", "recorded"): (("r1_r2_ohm",), ()),
+    ("continuity", "r2_expected_iec60228"): (("r2_ohm", "length_m", "cpc_mm2"), ("test_temp_c",)),
+    ("continuity", "r2_recorded"): (("r2_ohm",), ()),
+    ("ring_continuity", "r1_vs_rn"): (("ring_r1_ohm", "ring_rn_ohm"), ()),
+    ("ring_continuity", "r2_vs_r1"): (("ring_r1_ohm", "ring_r2_ohm", "line_mm2", "cpc_mm2"), ()),
+    ("ring_continuity", "cross_connected"): (("ring_r1_ohm", "ring_r2_ohm", "r1_r2_ohm"), ()),
+    ("insulation", "table_minimum"): (("ir_test_v", ("ir_ll_mohm", "ir_le_mohm")), ("nominal_voltage_v",)),
+    ("polarity", "recorded"): (("polarity_ok",), ()),
+    ("loop_impedance", "rule_of_thumb"): (("zs_ohm",), _LOOP_USES),
+    ("loop_impedance", "temperature_corrected"): (("zs_ohm", "ze_ohm"), _LOOP_USES),
+    ("loop_impedance", "rcd_fault_protection"): (("zs_ohm", "rcd_residual_ma"), ("ra_ohm",)),
+    ("external_impedance", "declared_maximum"): (("ze_ohm",), ("ra_ohm",)),
+    ("external_impedance", "operator_part_ze_minus_ra"): (("ze_ohm", "ra_ohm"), ()),
+    ("loop_consistency", "ze_plus_r1r2"): (("zs_ohm", "r1_r2_ohm"), ("ze_ohm",)),
+    ("loop_consistency", "board_consensus"): (("zs_ohm", "r1_r2_ohm"), ()),
+    ("fault_current", "breaking_capacity"): (("pfc_ka", "device_breaking_ka"), ()),
+    ("fault_current", "three_phase_estimate"): (("pfc_ka", "device_breaking_ka"), ()),
+    ("fault_current", "pfc_vs_ze"): (("pfc_ka", "ze_ohm"), ("nominal_voltage_v",)),
+    ("fault_current", "pfc_vs_zs"): (("pfc_ka", "zs_ohm"), ("nominal_voltage_v",)),
+    ("rcd_time", "trip_time_at_idn"): (("rcd_trip_ms", "rcd_residual_ma"), ()),
+    ("rcd_time", "trip_time_at_5idn"): (("rcd_trip_5x_ms", "rcd_residual_ma"), ()),
+    ("rcd_time", "half_idn_no_trip"): (("rcd_half_no_trip", "rcd_residual_ma"), ()),
+    ("earth_electrode", "ra_x_idn"): (("ra_ohm", "rcd_residual_ma"), ()),
+    ("earth_electrode", "electrode_stability"): (("ra_ohm",), ()),
+    ("additional_protection", "residual_current"): (("rcd_residual_ma",), ()),
+    ("additional_protection", "rcd_type"): (("rcd_type", "rcd_type_required"), ()),
+    ("overload", "ib_le_in"): (("design_current_a", "device_rating_a"), ()),
+    ("overload", "in_le_iz"): (("device_rating_a", ("cable_iz_a", "line_mm2")),
+                               ("ambient_factor", "grouping_factor", "thermal_insulation_factor")),
+    ("overload", "ring_433_1_204"): (("device_rating_a", ("cable_iz_a", "line_mm2")),
+                                     ("ambient_factor", "grouping_factor", "thermal_insulation_factor")),
+    ("protective_conductor", "table_minimum"): (("cpc_mm2", "line_mm2"), ()),
+    ("protective_conductor", "adiabatic"): (("cpc_mm2", "zs_ohm"), ("nominal_voltage_v",)),
+}
+for _method in ("r1r2_split", "r1r2_quick", "ring_r1r2_split", "ring_r1r2_quick", "three_phase_split",
+                "three_phase_quick"):
+    RESTS_ON[("voltage_drop", _method)] = ((*_VD_NEEDS, "r1_r2_ohm"), _VD_USES)
+RESTS_ON[("voltage_drop", "ring_end_to_end")] = ((*_VD_NEEDS, "ring_r1_ohm", "ring_rn_ohm"), _VD_USES)
+for _method in ("tabulated", "ring_tabulated", "three_phase_tabulated"):
+    RESTS_ON[("voltage_drop", _method)] = ((*_VD_NEEDS, "length_m", ("cable_mv_per_a_m", "line_mm2")),
+                                           _VD_USES)
+
+_ABOVE_ZERO_READINGS = {"r1_r2_ohm", "r2_ohm", "ring_r1_ohm", "ring_rn_ohm", "ring_r2_ohm", "zs_ohm",
+                        "ze_ohm", "pfc_ka", "rcd_trip_ms", "rcd_trip_5x_ms", "ra_ohm"}
+
+
+def _usable(record: CircuitRecord, name: str) -> bool:
+    """Present, not rejected, and not impossible by sign (physics: the oracle, written independently)."""
+    value = getattr(record, name)
+    if value is None or name in record.rejected:
+        return False
+    number = value.value if isinstance(value, Reading) else value
+    if isinstance(number, bool) or not isinstance(number, int | float):
+        return True
+    if name in ("ir_ll_mohm", "ir_le_mohm"):
+        return number >= 0
+    if name in _ABOVE_ZERO_READINGS or (FIELDS[name].kind == "number" and FIELDS[name].unit != "degC"):
+        return number > 0
+    return True
+
+
+@_SETTINGS
+@given(batch=st.lists(records(), min_size=1, max_size=3), ruleset=st.sampled_from(builtin_ruleset_ids()))
+def test_a_pass_never_rests_on_a_rejected_impossible_or_absent_value(batch: list[CircuitRecord],
+                                                                     ruleset: str) -> None:
+    """For any records (negative and zero values, rejected fields): every pass rests only on usable values."""
+    by_key = {r.key: r for r in batch}
+    for verdict in verify(batch, ruleset):
+        record = by_key[verdict.key]
+        for check in verdict.checks:
+            if check.outcome is not Outcome.PASS:
+                continue
+            assert (check.check, check.method) in RESTS_ON, (check.check, check.method)
+            needs, uses = RESTS_ON[(check.check, check.method or "")]
+            for need in needs:
+                options = need if isinstance(need, tuple) else (need,)
+                assert any(_usable(record, n) for n in options), (check.check, check.method, need, record)
+            for name in uses:
+                given_value = getattr(record, name) is not None or name in record.rejected
+                assert not given_value or _usable(record, name), (check.check, check.method, name, record)

@@ -1,0 +1,195 @@
+"""Overload protection: Ib ≤ In ≤ Iz (BS 7671 Reg. 433.1.1 / IEC 60364-4-43 433.1).
+
+Invariants:
+- Applies where the record describes the circuit's protection or cable
+  (``design_current_a``, ``device_rating_a``, ``line_mm2`` or ``cable_iz_a``):
+  every circuit needs overload protection, but a record with none of these
+  gives nothing to judge and is left out.
+- Two judgements. ``ib_le_in``: the design current within the device's rating,
+  where Ib is recorded. ``in_le_iz``: the rating within the cable's Iz after the
+  correction factors Ca × Cg × Ci (each 1 where unrecorded, and reported as a
+  default); with a rewirable fuse (BS 3036) In ≤ 0.725 Iz (Reg. 433.1.202).
+- Iz: the designer's ``cable_iz_a`` where given, else the ruleset's tables for
+  the recorded cable type, reference method, size and maximum conductor
+  temperature (:mod:`engine.cable_ratings`; from memory, and the basis says so).
+  Where the designer's figure is above the table's for the same cable, a pass
+  would rest on the designer's figure alone: ``investigate``.
+- Where the type or method is unrecorded, all fitting table entries count: In
+  within the least of them passes, In above the most fails, else ``incomplete``
+  naming what would decide it.
+- A ring final circuit (BS 7671 Reg. 433.1.204): 2.5 mm² copper or larger on a
+  device of at most 32 A meets the rule where Iz ≥ 20 A (``ring_433_1_204``);
+  outside those bounds the general rule applies (a 2.5 mm² ring on 40 A fails).
+  The IEC ruleset has no such rule: a ring there needs ``cable_iz_a``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from typing import Any
+
+from ..cable_ratings import Candidates, iz_candidates
+from ..context import CircuitView, Context
+from ..results import CheckResult, Outcome
+from ..ruleset import Ruleset
+from ..standards import match_standard
+from ._compare import incomplete
+
+__all__ = ["run"]
+
+CHECK = "overload"
+SECTION = "overload"
+_FACTORS = ("ambient_factor", "grouping_factor", "thermal_insulation_factor")
+_DESIGN = ("design_current_a", "device_rating_a", "line_mm2", "cable_iz_a")
+
+
+def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+    if not any(view.has(name) for name in _DESIGN):
+        return
+    rules = ctx.ruleset
+    basis = rules.basis(SECTION, "requirement")
+    rating, ib = view.raw("device_rating_a"), view.raw("design_current_a")
+    if rating is None:
+        yield incomplete(CHECK, ["device_rating_a"], basis=basis,
+                         detail="needs In (device_rating_a) to compare with Ib and Iz")
+        return
+    rating = float(rating)
+    if ib is not None:
+        within = float(ib) <= rating
+        yield CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=float(ib),
+                          limit=rating, limit_kind="max", unit="A", method="ib_le_in", basis=basis,
+                          inputs={"design_current_a": float(ib), "device_rating_a": rating},
+                          detail=f"Ib {float(ib):g} A is {'within' if within else 'above'} In {rating:g} A")
+    yield _in_le_iz(view, rules, rating, basis)
+
+
+def _factors(view: CircuitView) -> tuple[float, dict[str, float]]:
+    values = {name: float(view.get(name) or 1.0) for name in _FACTORS}
+    product = 1.0
+    for value in values.values():
+        product *= value
+    return product, values
+
+
+def _in_le_iz(view: CircuitView, rules: Ruleset, rating: float, basis: str) -> CheckResult:
+    product, factors = _factors(view)
+    rewirable = match_standard(view.raw("device_standard"),
+                               rules.get(SECTION, "rewirable_fuse_standards", []) or [])
+    k = float(rules.value(SECTION, "rewirable_fuse_factor")) if rewirable else 1.0
+    inputs: dict[str, Any] = {"device_rating_a": rating, "correction_factor": product, **factors}
+    if rewirable:
+        inputs["rewirable_fuse_factor"] = k
+        basis = f"{basis}; {rules.basis(SECTION, 'rewirable_fuse_factor')}"
+    table = _table(view, rules)
+    designer = view.raw("cable_iz_a")
+    ring = _ring_rule(view, rules, rating)
+    if ring is not None:
+        return _ring(view, rules, ring, designer, table, product, inputs)
+    if designer is not None:
+        return _designer(float(designer), table, product, rating, k, inputs, basis)
+    if table is None:
+        missing = ["cable_iz_a"] + [n for n in ("line_mm2",) if view.raw(n) is None]
+        return incomplete(CHECK, missing, basis=basis, inputs=inputs,
+                          detail="needs Iz: cable_iz_a, or a copper cable's size, type and reference method "
+                                 "the ruleset's tables hold")
+    return _from_table(table, product, rating, k, inputs, basis)
+
+
+def _table(view: CircuitView, rules: Ruleset) -> Candidates | None:
+    line = view.raw("line_mm2")
+    if line is None:
+        return None
+    insulation = view.get("insulation_temp_c")
+    return iz_candidates(rules, cable_type=view.raw("cable_type"), method=view.raw("reference_method"),
+                         insulation_c=float(insulation if insulation is not None else 70.0),
+                         loaded=3 if view.get("phases") == 3 else 2, line_mm2=float(line),
+                         material=str(view.get("conductor_material")))
+
+
+def _verdict(rating: float, limit: float, inputs: dict[str, Any], basis: str, what: str) -> CheckResult:
+    within = rating <= limit
+    return CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=rating,
+                       limit=limit, limit_kind="max", unit="A", method="in_le_iz", basis=basis, inputs=inputs,
+                       detail=f"In {rating:g} A is {'within' if within else 'above'} {what} = {limit:.4g} A")
+
+
+def _designer(iz: float, table: Candidates | None, product: float, rating: float, k: float,
+              inputs: dict[str, Any], basis: str) -> CheckResult:
+    inputs = {**inputs, "iz_a": iz, "iz_basis": "record: cable_iz_a (the designer's figure)"}
+    limit = k * iz
+    found = _verdict(rating, limit, inputs, f"{basis}; designer's Iz",
+                     f"{k:g} × the designer's Iz {iz:g} A" if k != 1.0 else f"the designer's Iz {iz:g} A")
+    if found.outcome is Outcome.PASS and table is not None and table.exact:
+        tabulated = table.least[0] * product
+        if rating > k * tabulated:
+            inputs["table_iz_a"] = tabulated
+            return CheckResult(check=CHECK, outcome=Outcome.INVESTIGATE, value=rating, limit=limit,
+                               limit_kind="max", unit="A", method="in_le_iz", basis=f"{basis}; {table.basis}",
+                               inputs=inputs,
+                               detail=f"In {rating:g} A is within the designer's Iz {iz:g} A but above the "
+                                      f"{k * tabulated:.4g} A the table gives for {table.least[1]} (from "
+                                      "memory): confirm the designer's figure")
+    return found
+
+
+def _from_table(table: Candidates, product: float, rating: float, k: float, inputs: dict[str, Any],
+                basis: str) -> CheckResult:
+    least, most = table.least, table.most
+    inputs = {**inputs, "iz_a": least[0] * product, "iz_basis": table.basis, "iz_table_a": least[0]}
+    basis = f"{basis}; {table.basis} (from memory)"
+    if table.exact:
+        return _verdict(rating, k * least[0] * product, inputs, basis,
+                        f"{'0.725 × ' if k != 1.0 else ''}Iz of {least[1]} ({least[0]:g} A × {product:.3g})")
+    if rating <= k * least[0] * product:
+        return _verdict(rating, k * least[0] * product, inputs, basis,
+                        f"the least Iz any fitting table gives ({least[1]}, {least[0]:g} A × {product:.3g})")
+    if rating > k * most[0] * product:
+        inputs["iz_a"] = most[0] * product
+        return _verdict(rating, k * most[0] * product, inputs, basis,
+                        f"the most Iz any fitting table gives ({most[1]}, {most[0]:g} A × {product:.3g})")
+    return incomplete(CHECK, list(table.unknown), basis=basis,
+                      inputs={**inputs, "iz_range_a": [least[0] * product, most[0] * product]},
+                      detail=f"In {rating:g} A is within the Iz of some installation methods and not others "
+                             f"({least[0] * product:.4g}–{most[0] * product:.4g} A): record "
+                             f"{' and '.join(table.unknown)}")
+
+
+def _ring_rule(view: CircuitView, rules: Ruleset, rating: float) -> dict[str, Any] | None:
+    rule = rules.get(SECTION, "ring_rule")
+    if not rule or view.get("circuit_form") != "ring":
+        return None
+    line = view.raw("line_mm2")
+    if (rating > float(rule["max_in_a"]) or line is None or float(line) < float(rule["min_line_mm2"])
+            or view.get("conductor_material") != "copper"):
+        return None
+    return dict(rule)
+
+
+def _ring(view: CircuitView, rules: Ruleset, rule: dict[str, Any], designer: Any, table: Candidates | None,
+          product: float, inputs: dict[str, Any]) -> CheckResult:
+    basis = rules.basis(SECTION, "ring_rule")
+    need = float(rule["min_iz_a"])
+    rating = inputs["device_rating_a"]
+    if designer is not None:
+        low = high = float(designer)
+        how = "the designer's Iz"
+    elif table is not None:
+        low, high = table.least[0] * product, table.most[0] * product
+        how = f"the Iz of {table.least[1]} (from memory)" if table.exact else "the Iz of every fitting table"
+        basis = f"{basis}; {table.basis}"
+    else:
+        return incomplete(CHECK, ["cable_iz_a", "reference_method"], basis=basis, inputs=inputs,
+                          detail=f"a ring on {rating:g} A needs Iz ≥ {need:g} A: give cable_iz_a, or the "
+                                 "cable type and reference method")
+    if low < need <= high:
+        return incomplete(CHECK, list(table.unknown) if table is not None else ["cable_iz_a"], basis=basis,
+                          inputs={**inputs, "iz_range_a": [low, high]},
+                          detail=f"a {rating:g} A ring needs Iz ≥ {need:g} A; the fitting tables give "
+                                 f"{low:.4g}–{high:.4g} A: record the cable type and reference method")
+    iz = low if low >= need else high
+    outcome = Outcome.PASS if iz >= need else Outcome.FAIL
+    return CheckResult(check=CHECK, outcome=outcome, value=iz, limit=need, limit_kind="min", unit="A",
+                       method="ring_433_1_204", basis=basis, inputs={**inputs, "iz_a": iz},
+                       detail=f"ring final circuit: {how} {iz:.4g} A is "
+                              f"{'at least' if iz >= need else 'below'} the {need:g} A a {rating:g} A ring "
+                              "needs")
