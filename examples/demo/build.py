@@ -5,6 +5,13 @@ DB2 (workshop, fed from DB1/5) and DB3 (TT yard cabin, fed from DB2/4). The
 schedule is the job-management system's JSON, DB1's readings a meter CSV in an
 invented layout (profile example-semicolon-decimal-comma), DB2/DB3 a field
 logger's key=value lines; demo-site.json holds the same records merged.
+Every check shows a pass and a fail somewhere: additional protection (DB1/2
+passes; the cooker DB1/7, cables concealed in the wall, has no RCD), overload
+(the ring DB1/2 passes Reg. 433.1.204; the water heater DB1/4 on a B20 in an
+insulated wall, method 101, does not), protective conductor (DB1/2 passes the
+adiabatic check; the compressor feed DB1/10, a 1.5 mm² cpc with 16 mm² lines
+on a 63 A fuse, fails it). DB1/10 names its fuse's standard only: the verdict
+shows the device kind it infers.
 tests/api/test_demo_data.py checks that the uploads merge into demo-site.json.
 
 Run: python examples/demo/build.py
@@ -17,23 +24,24 @@ import json
 common1 = {"earthing": "TN-C-S", "nominal_voltage_v": 230, "test_temp_c": 20}
 design = [
  # DB1: main consumer unit in the office block
- dict(board="DB1", circuit="1", description="Office lighting", load_type="lighting", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=6, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=24),
- dict(board="DB1", circuit="2", description="Office sockets ring", circuit_form="ring", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=52),
- dict(board="DB1", circuit="3", description="Kitchenette sockets ring", circuit_form="ring", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=46),
- dict(board="DB1", circuit="4", description="Water heater", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=20, device_breaking_ka=6, line_mm2=2.5, cpc_mm2=1.5, length_m=28),
- dict(board="DB1", circuit="5", description="Workshop sub-main to DB2", circuit_role="distribution", device_kind="fuse", device_standard="BS 88-2", device_rating_a=63, device_breaking_ka=80, design_current_a=45, line_mm2=16, cpc_mm2=6, length_m=38),
- dict(board="DB1", circuit="6", description="Yard floodlights", load_type="lighting", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=10, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=60),
- dict(board="DB1", circuit="7", description="Cooker", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=32, device_breaking_ka=6, line_mm2=6, cpc_mm2=2.5, length_m=14),
- dict(board="DB1", circuit="8", description="Boiler spur", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=6, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=9),
- dict(board="DB1", circuit="9", description="Store-room sockets", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=20, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=26),
+ dict(board="DB1", circuit="1", description="Office lighting", load_type="lighting", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=6, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=24, cable_type="twin_and_earth", reference_method="100"),
+ dict(board="DB1", circuit="2", description="Office sockets ring", circuit_form="ring", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=52, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB1", circuit="3", description="Kitchenette sockets ring", circuit_form="ring", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=46, cable_type="twin_and_earth", reference_method="A"),
+ dict(board="DB1", circuit="4", description="Water heater", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=20, device_breaking_ka=6, line_mm2=2.5, cpc_mm2=1.5, length_m=28, cable_type="twin_and_earth", reference_method="101"),
+ dict(board="DB1", circuit="5", description="Workshop sub-main to DB2", circuit_role="distribution", device_kind="fuse", device_standard="BS 88-2", device_rating_a=63, device_breaking_ka=80, design_current_a=45, line_mm2=16, cpc_mm2=6, length_m=38, cable_type="multicore", reference_method="C"),
+ dict(board="DB1", circuit="6", description="Yard floodlights", load_type="lighting", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=10, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=60, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB1", circuit="7", description="Cooker", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=32, device_breaking_ka=6, line_mm2=6, cpc_mm2=2.5, length_m=14, cable_type="twin_and_earth", reference_method="C", concealed_in_wall=True),
+ dict(board="DB1", circuit="8", description="Boiler spur", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=6, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=9, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB1", circuit="9", description="Store-room sockets", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=20, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=26, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB1", circuit="10", description="Compressor feed (16 mm² singles, 1.5 mm² cpc)", socket_outlets=False, device_standard="BS 88-2", device_rating_a=63, device_breaking_ka=80, line_mm2=16, cpc_mm2=1.5, length_m=28, cable_type="single_core", reference_method="B"),
  # DB2: workshop board, fed from DB1/5
- dict(board="DB2", circuit="1", description="Panel saw (three-phase)", phases=3, device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=20, device_breaking_ka=10, design_current_a=14, line_mm2=4, cpc_mm2=2.5, length_m=22),
- dict(board="DB2", circuit="2", description="Bench sockets", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", design_current_a=20, line_mm2=4, cpc_mm2=1.5, length_m=30),
- dict(board="DB2", circuit="3", description="Spray booth extract fan", device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=16, device_breaking_ka=6, line_mm2=2.5, cpc_mm2=1.5, length_m=17),
- dict(board="DB2", circuit="4", description="Yard cabin sub-main to DB3", circuit_role="distribution", device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=32, device_breaking_ka=6, design_current_a=20, line_mm2=10, cpc_mm2=4, length_m=25),
+ dict(board="DB2", circuit="1", description="Panel saw (three-phase)", phases=3, device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=20, device_breaking_ka=10, design_current_a=14, line_mm2=4, cpc_mm2=2.5, length_m=22, cable_type="single_core", reference_method="B"),
+ dict(board="DB2", circuit="2", description="Bench sockets", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=32, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", design_current_a=20, line_mm2=4, cpc_mm2=1.5, length_m=30, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB2", circuit="3", description="Spray booth extract fan", device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=16, device_breaking_ka=6, line_mm2=2.5, cpc_mm2=1.5, length_m=17, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB2", circuit="4", description="Yard cabin sub-main to DB3", circuit_role="distribution", device_kind="breaker", device_standard="BS EN 60898", device_curve="C", device_rating_a=32, device_breaking_ka=6, design_current_a=20, line_mm2=10, cpc_mm2=4, length_m=25, cable_type="multicore", reference_method="C"),
  # DB3: yard cabin, fed from DB2/4, TT with its own electrode
- dict(board="DB3", circuit="1", description="Cabin sockets", earthing="TT", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=16, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=12),
- dict(board="DB3", circuit="2", description="Cabin heater", earthing="TT", device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=16, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=8),
+ dict(board="DB3", circuit="1", description="Cabin sockets", earthing="TT", socket_outlets=True, device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=16, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=12, cable_type="twin_and_earth", reference_method="C"),
+ dict(board="DB3", circuit="2", description="Cabin heater", earthing="TT", device_kind="rcbo", device_standard="BS EN 61009", device_curve="B", device_rating_a=16, device_breaking_ka=6, rcd_residual_ma=30, rcd_type="A", line_mm2=2.5, cpc_mm2=1.5, length_m=8, cable_type="twin_and_earth", reference_method="C"),
 ]
 for d in design:
     d.setdefault("earthing", "TN-C-S")
@@ -41,7 +49,7 @@ for d in design:
     if d["board"] == "DB3": d["board_fed_from"] = "DB2/4"
 # readings, by circuit
 R = {
- ("DB1","1"): dict(r1_r2_ohm=0.71, zs_ohm=0.93, ze_ohm=0.22, pfc_ka=1.04, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","1"): dict(r1_r2_ohm=0.74, zs_ohm=0.96, ze_ohm=0.22, pfc_ka=1.04, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
  ("DB1","2"): dict(ring_r1_ohm=0.48, ring_rn_ohm=0.49, ring_r2_ohm=0.79, r1_r2_ohm=0.33, zs_ohm=0.56, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=21.4, rcd_trip_5x_ms=12.1),
  ("DB1","3"): dict(ring_r1_ohm=0.34, ring_rn_ohm=0.52, ring_r2_ohm=0.56, r1_r2_ohm=0.23, zs_ohm=0.45, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=24.0),
  ("DB1","4"): dict(r1_r2_ohm=0.55, zs_ohm=0.78, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm="350", polarity_ok=True),
@@ -50,6 +58,7 @@ R = {
  ("DB1","7"): dict(r1_r2_ohm=0.15, zs_ohm=0.37, ir_test_v=500, ir_ll_mohm="120", ir_le_mohm="1.4", polarity_ok=True),
  ("DB1","8"): dict(r1_r2_ohm=0.28, zs_ohm=0.49, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=False),
  ("DB1","9"): dict(r1_r2_ohm=0.52, zs_ohm=1.36, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=27.5),
+ ("DB1","10"): dict(r1_r2_ohm=0.37, zs_ohm=0.59, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
  ("DB2","1"): dict(r1_r2_ohm=0.27, zs_ohm=0.65, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
  ("DB2","2"): dict(r1_r2_ohm=0.37, zs_ohm=0.76, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=338, rcd_half_no_trip=True),
  ("DB2","3"): dict(r1_r2_ohm=0.34, zs_ohm=0.73, ir_test_v=500, ir_ll_mohm="0.62", ir_le_mohm="0.62", polarity_ok=True),

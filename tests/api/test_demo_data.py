@@ -45,7 +45,7 @@ def test_demo_uploads_merge_into_the_offline_site(client: FlaskClient) -> None:
 
 
 def test_demo_site_shows_every_check_and_outcome() -> None:
-    """The demo covers all eleven check ids and all four outcomes, as the README promises."""
+    """The demo covers every check id and all four outcomes, as the README promises."""
     verdicts = _offline()
     checks = {c["check"] for v in verdicts for c in v["checks"]}
     from engine import CHECK_IDS
@@ -78,3 +78,15 @@ def test_demo_records_round_trip_through_json() -> None:
     records, _ = records_from_objects(data["circuits"])
     again, rejected = records_from_objects([record_to_dict(r) for r in records])
     assert rejected == [] and [record_to_dict(r) for r in again] == [record_to_dict(r) for r in records]
+
+
+def test_demo_site_shows_a_pass_and_a_fail_of_each_newer_check() -> None:
+    """Additional protection, overload and protective conductor each pass somewhere and fail somewhere."""
+    outcomes: dict[str, set[str]] = {}
+    for verdict in _offline():
+        for check in verdict["checks"]:
+            outcomes.setdefault(check["check"], set()).add(check["outcome"])
+    for name in ("additional_protection", "overload", "protective_conductor"):
+        assert {"pass", "fail"} <= outcomes[name], (name, outcomes[name])
+    by_key = {(v["board"], v["circuit"]): v for v in _offline()}
+    assert by_key[("DB1", "10")]["inferred"] == {"device_kind": "fuse"}
