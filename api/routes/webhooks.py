@@ -178,9 +178,13 @@ class WebhookSecretRotation(MethodView):
     @blp.alt_response(503, description=_NO_KEY, **_PROBLEM)
     @_admin
     def post(self, webhook_id: int) -> Any:
-        """Rotate the signing secret: a new one (shown once) signs from now on, and the earlier ones
-        keep signing beside it for the overlap, so a receiver can switch without losing a delivery.
-        No delivery is dropped or re-sent by a rotation."""
+        """Rotate the signing secret, with an overlap.
+
+        A new secret (shown in this answer only) signs from now on; the earlier ones keep
+        signing beside it until their `valid_until` (`overlap_s`), so a receiver can switch
+        without refusing a delivery. No delivery is dropped, re-sent or reordered. No body:
+        a generated secret and the server's default overlap.
+        """
         data = json_body(SecretRotateSchema()) if request.get_data(cache=True) else {}
         session = get_session()
         row = _get(session, webhook_id)

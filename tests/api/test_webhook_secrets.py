@@ -145,6 +145,15 @@ def test_good_server_keys_load_and_stay_out_of_reprs() -> None:
     assert load_settings({}, environ={}).encryption_keys is None
 
 
+@pytest.mark.parametrize("value", ["0", "604801", "a day"])
+def test_the_default_overlap_is_bounded(value: str) -> None:
+    """OHMTALLY_WEBHOOK_SECRET_OVERLAP_S outside 1–604800 s (seven days) stops start-up."""
+    with pytest.raises(SettingsError, match="OHMTALLY_WEBHOOK_SECRET_OVERLAP_S"):
+        load_settings({"OHMTALLY_WEBHOOK_SECRET_OVERLAP_S": value}, environ={})
+    longest = load_settings({"OHMTALLY_WEBHOOK_SECRET_OVERLAP_S": "604800"}, environ={})
+    assert longest.webhook_secret_overlap_s == 604800
+
+
 def test_unset_key_with_auth_off_uses_one_generated_key_file(db_url: str, tmp_path: Path,
                                                              app_factory: Callable[..., Flask]) -> None:
     """With no key and auth off, the first subscription writes one key (mode 0600) into the instance

@@ -30,6 +30,7 @@ from flask import Flask
 from flask.testing import FlaskClient
 from sqlalchemy import select
 from sqlalchemy.orm import Session
+from standardwebhooks.webhooks import Webhook
 
 from api.cli.demo import free_port, wait_healthy
 from api.db.models import WebhookDelivery, WebhookEvent
@@ -272,20 +273,22 @@ def test_deliver_once_command_sends_what_is_due(hooks: FlaskClient, receiver: Re
 
 @pytest.mark.slow
 def test_serve_delivers_from_its_workers(tmp_path: Path, receiver: Receiver) -> None:
-    """A real `ohmtally serve --workers 2` delivers each event once, from its worker threads, in seconds."""
+    """A real `ohmtally serve --workers 2` delivers each event once, from its worker threads, in seconds,
+    each verifiable with the subscription's secret (standardwebhooks)."""
     url = f"sqlite:///{tmp_path / 'served.sqlite3'}"
     upgrade(url)
     port = free_port()
     env = {**os.environ, "OHMTALLY_AUTH": "off", "OHMTALLY_LOG_LEVEL": "WARNING",
-           "OHMTALLY_DATABASE_URL": url, "OHMTALLY_WEBHOOK_ALLOW_PRIVATE": "on"}
+           "OHMTALLY_DATABASE_URL": url, "OHMTALLY_WEBHOOK_ALLOW_PRIVATE": "on",
+           "OHMTALLY_INSTANCE_PATH": str(tmp_path)}  # its generated webhook key file goes there
     child = subprocess.Popen([sys.executable, "-m", "api.cli", "serve", "--bind", f"127.0.0.1:{port}",
                               "--workers", "2"], cwd=ROOT, env=env)
     base = f"http://127.0.0.1:{port}"
     try:
         assert wait_healthy(base, child), "ohmtally serve did not come up"
         with httpx.Client(base_url=base, timeout=10) as client:
-            assert client.post("/v1/webhooks", json={"url": receiver.url, "events": ["job.created"]}
-                               ).status_code == 201
+            made = client.post("/v1/webhooks", json={"url": receiver.url, "events": ["job.created"]})
+            assert made.status_code == 201
             for n in range(4):
                 started = time.monotonic()
                 assert client.post("/v1/jobs", json={"reference": f"S-{n}", "site": "Invented"}
@@ -297,6 +300,8 @@ def test_serve_delivers_from_its_workers(tmp_path: Path, receiver: Receiver) -> 
         time.sleep(1.5)  # a second, duplicate send would have arrived by now
         ids = [event_id for _type, event_id in received(receiver)]
         assert len(ids) == 4 and len(set(ids)) == 4
+        for receipt in receiver.receipts:  # both workers opened the secret with the one generated key
+            Webhook(made.json()["secret"]).verify(receipt.body, receipt.headers)
     finally:
         child.terminate()
         child.wait(timeout=20)
