@@ -2,9 +2,11 @@
 
 External references (the addresses are the RFCs' own examples or built by their rules):
 - RFC 3056 §2 (6to4): 2002:V4ADDR::/48, the IPv4 address in bits 16–47.
-- RFC 4380 §4 (Teredo): its worked example 2001:0:4136:e378:8000:63bf:3fff:fdd2 is server
-  65.54.227.120 with client 192.0.2.45 (the client's bits inverted in the last 32 bits).
-- RFC 6052 §2.4 (NAT64 well-known prefix): 64:ff9b::192.0.2.33 carries 192.0.2.33.
+- RFC 4380 §4 (Teredo): server IPv4 in bits 32–63, client IPv4 bit-inverted in the last 32 bits.
+  The much-quoted example 2001:0:4136:e378:8000:63bf:3fff:fdd2 (server 65.54.227.120, client
+  192.0.2.45) is from memory; the standard library's own Teredo decoding confirms it below.
+- RFC 6052 §2.4 (NAT64 well-known prefix): 64:ff9b::192.0.2.33 carries 192.0.2.33 (the RFC's
+  text-representation example, from memory; it follows from the /96 rule either way).
 - RFC 8215: 64:ff9b:1::/48 is for local use.
 - RFC 4291 §2.5.5: IPv4-mapped ::ffff:a.b.c.d and IPv4-compatible ::a.b.c.d.
 - RFC 1122, 1918, 3927, 6598, 5737 (documentation ranges): the IPv4 classes refused.
@@ -28,7 +30,7 @@ from api.webhooks.targets import TargetRefused, resolve_target
     ("2002:a9fe:a9fe::1", "169.254.169.254", "6to4"),               # link-local: cloud metadata
     ("2002:0a00:0001::1", "10.0.0.1", "6to4"),                      # RFC 1918
     ("2002:6440:0001::1", "100.64.0.1", "6to4"),                    # RFC 6598 shared space
-    ("2001:0:4136:e378:8000:63bf:3fff:fdd2", "192.0.2.45", "Teredo"),  # RFC 4380's example
+    ("2001:0:4136:e378:8000:63bf:3fff:fdd2", "192.0.2.45", "Teredo"),  # documentation client
     ("2001:0:7f00:1:8000:63bf:f7f7:f7f7", "127.0.0.1", "Teredo"),  # a loopback Teredo server
     ("64:ff9b::7f00:1", "127.0.0.1", "NAT64"),
     ("64:ff9b::c000:221", "192.0.2.33", "NAT64"),                   # RFC 6052's example
