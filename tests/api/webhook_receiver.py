@@ -73,4 +73,4 @@ class Receiver:
     def events(self) -> list[tuple[str, str]]:
         """(event type, event id) of every receipt, in arrival order."""
         with self._lock:
-            return [(r.headers["Ohmtally-Event"], r.headers["Ohmtally-Event-Id"]) for r in self.receipts]
+            return [(r.headers["Ohmtally-Event-Type"], r.headers["webhook-id"]) for r in self.receipts]
