@@ -35,6 +35,7 @@ from api.db.models import SCOPES, ApiKey, Organisation, utcnow
 from api.db.session import read_session, write_session
 from api.errors import ApiError
 from api.http.keys import find_key
+from api.render import HTML_STYLE_SOURCE
 
 __all__ = [
     "PUBLIC_PATHS",
@@ -128,7 +129,9 @@ def _safe_headers(response: Response) -> Response:
     # Everything we return is data: an upload served back with the content type its
     # sender claimed (text/html …) must not be sniffed or run by a browser.
     response.headers.setdefault("X-Content-Type-Options", "nosniff")
-    response.headers.setdefault("Content-Security-Policy", "default-src 'none'; sandbox")
+    # The one exception is our own verdicts page (format=html): its inline stylesheet, by its hash.
+    response.headers.setdefault("Content-Security-Policy",
+                                f"default-src 'none'; style-src {HTML_STYLE_SOURCE}; sandbox")
     if g.get("api_key_id") is not None:  # a tenant's data: no shared cache may keep it
         response.headers.setdefault("Cache-Control", "no-store")
     return response
