@@ -5,6 +5,7 @@ from __future__ import annotations
 from flask_smorest import Blueprint
 
 from api.routes.catalogue import blp as catalogue
+from api.routes.docs import blp as docs
 from api.routes.jobs import blp as jobs
 from api.routes.readings import blp as readings
 from api.routes.sync import blp as sync
@@ -13,4 +14,4 @@ from api.routes.webhooks import blp as webhooks
 
 __all__ = ["BLUEPRINTS"]
 
-BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, verify, jobs, sync, readings, webhooks)
+BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, verify, jobs, sync, readings, webhooks, docs)
