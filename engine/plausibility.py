@@ -41,7 +41,7 @@ from .records import CircuitRecord
 from .results import CheckResult, Outcome
 from .ruleset import Entry, Ruleset
 
-__all__ = ["Problem", "Withheld", "judge", "usable"]
+__all__ = ["JUDGED", "RULES", "Problem", "Rule", "Withheld", "judge", "usable"]
 
 SECTION = "plausibility"
 
@@ -188,10 +188,11 @@ def _u0(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], na
 
 def _temperatures(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], name: str,
                   value: Any) -> Problem | None:
-    shown = _shown(name, value)
-    low, high = _limit(rules, "test_temp_min_c"), _limit(rules, "test_temp_max_c")
-    lowest_max = _limit(rules, "insulation_temp_min_c")
+    limits = _limits(rules)
+    low, high = limits.get("test_temp_min_c"), limits.get("test_temp_max_c")
+    lowest_max = limits.get("insulation_temp_min_c")
     theta = float(value)
+    shown = f"{format_number(theta)} °C"
     if name == "test_temp_c" and low is not None and high is not None and not low[0] <= theta <= high[0]:
         return Problem(field=name, value=theta, shown=shown, basis=low[1],
                        reason=f"is outside the {low[0]:g}…{high[0]:g} °C a conductor is tested at")
@@ -264,6 +265,8 @@ _RULES: dict[str, Rule] = {
     "ra_ohm": _tt_loop,
 }
 JUDGED: frozenset[str] = frozenset(_RULES)
+#: field → its rule, for the circuit view's inlined look-up (judge() is the same, with the rejected case)
+RULES: Mapping[str, Rule] = _RULES
 
 
 def judge(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], name: str,

@@ -41,6 +41,8 @@ CHECK = "overload"
 SECTION = "overload"
 _FACTORS = ("ambient_factor", "grouping_factor", "thermal_insulation_factor")
 _DESIGN = ("design_current_a", "device_rating_a", "line_mm2", "cable_iz_a")
+_TABLE_KEY = "overload.iz_candidates"
+_MISS: Any = object()
 
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
@@ -60,7 +62,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
                           limit=rating, limit_kind="max", unit="A", method="ib_le_in", basis=basis,
                           inputs={"design_current_a": float(ib), "device_rating_a": rating},
                           detail=f"Ib {float(ib):g} A is {'within' if within else 'above'} In {rating:g} A")
-    yield _in_le_iz(view, rules, rating, basis)
+    yield _in_le_iz(view, ctx, rating, basis)
 
 
 def _factors(view: CircuitView) -> tuple[float, dict[str, float]]:
@@ -71,7 +73,8 @@ def _factors(view: CircuitView) -> tuple[float, dict[str, float]]:
     return product, values
 
 
-def _in_le_iz(view: CircuitView, rules: Ruleset, rating: float, basis: str) -> CheckResult:
+def _in_le_iz(view: CircuitView, ctx: Context, rating: float, basis: str) -> CheckResult:
+    rules = ctx.ruleset
     product, factors = _factors(view)
     rewirable = match_standard(view.raw("device_standard"),
                                rules.get(SECTION, "rewirable_fuse_standards", []) or [])
@@ -80,7 +83,7 @@ def _in_le_iz(view: CircuitView, rules: Ruleset, rating: float, basis: str) -> C
     if rewirable:
         inputs["rewirable_fuse_factor"] = k
         basis = f"{basis}; {rules.basis(SECTION, 'rewirable_fuse_factor')}"
-    table = _table(view, rules)
+    table = _table(view, ctx)
     designer = view.raw("cable_iz_a")
     ring = _ring_rule(view, rules, rating)
     if ring is not None:
@@ -95,15 +98,23 @@ def _in_le_iz(view: CircuitView, rules: Ruleset, rating: float, basis: str) -> C
     return _from_table(table, product, rating, k, inputs, basis)
 
 
-def _table(view: CircuitView, rules: Ruleset) -> Candidates | None:
+def _table(view: CircuitView, ctx: Context) -> Candidates | None:
+    """The fitting Iz table entries: a pure function of the ruleset and these values, cached per call."""
     line = view.raw("line_mm2")
     if line is None:
         return None
     insulation = view.get("insulation_temp_c")
-    return iz_candidates(rules, cable_type=view.raw("cable_type"), method=view.raw("reference_method"),
-                         insulation_c=float(insulation if insulation is not None else 70.0),
-                         loaded=3 if view.get("phases") == 3 else 2, line_mm2=float(line),
-                         material=str(view.get("conductor_material")))
+    args = (view.raw("cable_type"), view.raw("reference_method"),
+            float(insulation if insulation is not None else 70.0), 3 if view.get("phases") == 3 else 2,
+            float(line), str(view.get("conductor_material")))
+    key = (_TABLE_KEY, *args)
+    cached = ctx.cache.get(key, _MISS)
+    if cached is _MISS:
+        cached = ctx.cache[key] = iz_candidates(ctx.ruleset, cable_type=args[0], method=args[1],
+                                                insulation_c=args[2], loaded=args[3], line_mm2=args[4],
+                                                material=args[5])
+    found: Candidates | None = cached
+    return found
 
 
 def _verdict(rating: float, limit: float, inputs: dict[str, Any], basis: str, what: str) -> CheckResult:
