@@ -1,65 +1,104 @@
-"""JSON request logging with a request id carried in and out as ``X-Request-Id``.
+"""JSON logs for every ``ohmtally`` logger, and a request id carried in and out as ``X-Request-Id``.
 
 Invariants:
 - Every request gets an id: the client's ``X-Request-Id`` when it is a sane
   token (1–128 of ``A-Z a-z 0-9 . _ : -``), else a fresh UUID; the response
   carries it back and every log line written during the request names it.
-- One log line per request (method, path, status, duration); bodies and
-  query strings are not logged (they may hold site addresses).
+- One logging configuration, :func:`configure_logging` (``logging.config.dictConfig``):
+  the ``ohmtally`` logger holds the one handler (JSON lines on stderr) at
+  ``OHMTALLY_LOG_LEVEL``, and every logger under it (``ohmtally.api``,
+  ``ohmtally.webhooks``, ``ohmtally.capture`` …) propagates to it, so a module
+  only asks ``logging.getLogger("ohmtally.<part>")`` and its lines appear.
+  Loggers of other packages are left as they were (``disable_existing_loggers``
+  off); the ``ohmtally`` tree does not propagate to the root, so a line is
+  written once.
+- Each line is one JSON object (python-json-logger): ``time`` (UTC, RFC 3339),
+  ``level``, ``logger``, ``message``, ``request_id`` inside a request, and the
+  ``extra`` fields the caller gave (a delivery id, a status …).
+- One line per request (method, route, path, status, duration); bodies and query
+  strings are not logged (they may hold site addresses).
 """
 
 from __future__ import annotations
 
 import logging
+import logging.config
 import re
 import sys
 import time
 import uuid
 from typing import Any
 
-from flask import Flask, Response, g, has_request_context, json, request
+from flask import Flask, Response, g, has_request_context, request
+from pythonjsonlogger.json import JsonFormatter as _LibraryJsonFormatter
 
-__all__ = ["REQUEST_ID_HEADER", "JsonFormatter", "init_app"]
+__all__ = ["LOGGER_ROOT", "REQUEST_ID_HEADER", "JsonFormatter", "StderrHandler", "configure_logging",
+           "init_app"]
 
 REQUEST_ID_HEADER = "X-Request-Id"
+LOGGER_ROOT = "ohmtally"
 _SANE_ID = re.compile(r"^[A-Za-z0-9._:\-]{1,128}$")
 _LOGGER_NAME = "ohmtally.api"
+_RENAMED = {"asctime": "time", "levelname": "level", "name": "logger"}
 
 
-class JsonFormatter(logging.Formatter):
+class JsonFormatter(_LibraryJsonFormatter):
     """One JSON object per line; the request id is added inside a request."""
 
-    def format(self, record: logging.LogRecord) -> str:
-        out: dict[str, Any] = {
-            "time": self.formatTime(record, "%Y-%m-%dT%H:%M:%S"),
-            "level": record.levelname.lower(),
-            "logger": record.name,
-            "message": record.getMessage(),
-        }
-        if has_request_context():
-            out["request_id"] = g.get("request_id")
-        for key in ("method", "path", "status", "duration_ms"):
-            if hasattr(record, key):
-                out[key] = getattr(record, key)
-        if record.exc_info:
-            out["exception"] = self.formatException(record.exc_info)
-        return json.dumps(out)
+    converter = time.gmtime  # type: ignore[assignment]  # UTC on every host: lines sort together
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        kwargs.setdefault("fmt", ["asctime", "levelname", "name", "message"])
+        kwargs.setdefault("datefmt", "%Y-%m-%dT%H:%M:%SZ")
+        kwargs.setdefault("rename_fields", _RENAMED)
+        kwargs.setdefault("json_ensure_ascii", False)
+        super().__init__(*args, **kwargs)
+
+    def add_fields(self, log_data: dict[str, Any], record: logging.LogRecord,
+                   message_dict: dict[str, Any]) -> None:
+        super().add_fields(log_data, record, message_dict)
+        log_data["level"] = record.levelname.lower()
+        if has_request_context() and "request_id" not in log_data:
+            log_data["request_id"] = g.get("request_id")
 
 
-def _configure_logger(level: str) -> logging.Logger:
-    logger = logging.getLogger(_LOGGER_NAME)
-    logger.setLevel(level)
-    if not any(getattr(h, "_ohmtally", False) for h in logger.handlers):
-        handler = logging.StreamHandler(sys.stderr)
-        handler.setFormatter(JsonFormatter())
-        handler._ohmtally = True  # type: ignore[attr-defined]
-        logger.addHandler(handler)
-        logger.propagate = False
-    return logger
+class StderrHandler(logging.StreamHandler):  # type: ignore[type-arg]
+    """Writes to whatever ``sys.stderr`` is when a line is written (gunicorn and test runners
+    replace it), never to a stream kept from when logging was configured."""
+
+    def __init__(self) -> None:
+        super().__init__(sys.stderr)
+
+    @property
+    def stream(self) -> Any:
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, _value: Any) -> None:
+        pass
+
+
+def configure_logging(level: str) -> None:
+    """Install the one configuration of the ``ohmtally`` loggers (idempotent: a second call
+    replaces the handler, never adds one)."""
+    logging.config.dictConfig({
+        "version": 1,
+        "disable_existing_loggers": False,
+        "formatters": {"json": {"()": JsonFormatter}},
+        "handlers": {"stderr": {"()": StderrHandler, "formatter": "json"}},
+        "loggers": {
+            LOGGER_ROOT: {"level": level, "handlers": ["stderr"], "propagate": False},
+            # children carry no handler and no level of their own: they inherit both
+            _LOGGER_NAME: {"level": "NOTSET", "propagate": True},
+            "ohmtally.webhooks": {"level": "NOTSET", "propagate": True},
+            "ohmtally.capture": {"level": "NOTSET", "propagate": True},
+        },
+    })
 
 
 def init_app(app: Flask, level: str) -> None:
-    logger = _configure_logger(level)
+    configure_logging(level)
+    logger = logging.getLogger(_LOGGER_NAME)
     app.extensions["ohmtally.logger"] = logger
 
     @app.before_request
@@ -73,7 +112,9 @@ def init_app(app: Flask, level: str) -> None:
         request_id = g.get("request_id") or uuid.uuid4().hex
         response.headers[REQUEST_ID_HEADER] = request_id
         started = g.get("request_started", time.perf_counter())
+        rule = request.url_rule.rule if request.url_rule is not None else None
         logger.info("request", extra={
-            "method": request.method, "path": request.path, "status": response.status_code,
+            "method": request.method, "route": rule, "path": request.path,
+            "status": response.status_code, "remote_addr": request.remote_addr,
             "duration_ms": round((time.perf_counter() - started) * 1000, 2)})
         return response
