@@ -25,7 +25,15 @@ from werkzeug.exceptions import HTTPException
 from werkzeug.routing import IntegerConverter
 
 from api.db import session as db
-from api.errors import PROBLEM_MEDIA_TYPE, ApiError, messages_to_errors, problem_response
+from api.db.models.jobs import MAX_JOB_ID
+from api.errors import (
+    PROBLEM_MEDIA_TYPE,
+    ApiError,
+    insufficient_storage,
+    messages_to_errors,
+    problem_response,
+    storage_full,
+)
 from api.http import auth, idempotency, limits, request_log
 from api.http.json_provider import OrjsonProvider
 from api.routes import BLUEPRINTS
@@ -54,6 +62,9 @@ class OhmtallyApi(Api):  # type: ignore[misc]
         status = error.code or 500
         if status >= 500:
             original = getattr(error, "original_exception", None) or error
+            if storage_full(original):  # a full disk is the truth to tell: 507, not a bug's 500
+                current_app.extensions["ohmtally.logger"].error("storage full: %s", original)
+                return problem_response(insufficient_storage(kept=False))
             current_app.extensions["ohmtally.logger"].error(
                 "unhandled error", exc_info=(type(original), original, original.__traceback__))
             return problem_response(ApiError(500, "internal_error",
@@ -92,6 +103,16 @@ class DatabaseIdConverter(IntegerConverter):
         super().__init__(map, *args, **kwargs)
 
 
+class JobIdConverter(IntegerConverter):
+    """``<job:job_id>``: job ids are random in 1 … 2**53 − 1 in 64-bit columns (migration 0006);
+    a larger number names nothing and is a 404 from routing, never an overflow in the driver."""
+
+    def __init__(self, map: Any, *args: Any, **kwargs: Any) -> None:
+        kwargs.setdefault("min", 1)
+        kwargs.setdefault("max", MAX_JOB_ID)
+        super().__init__(map, *args, **kwargs)
+
+
 def _api_error(error: ApiError) -> Any:
     return problem_response(error)
 
@@ -100,13 +121,15 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     settings = load_settings(config)
     app = Flask("api", instance_path=settings.instance_path, instance_relative_config=False)
     app.url_map.converters["int"] = DatabaseIdConverter
+    app.url_map.converters["job"] = JobIdConverter
     app.config.update(
         API_TITLE="ohmtally",
         API_VERSION=__version__,
         OPENAPI_VERSION="3.1.0",
         OPENAPI_URL_PREFIX="/v1",
         OPENAPI_JSON_PATH="openapi.json",
-        MAX_CONTENT_LENGTH=settings.max_upload_bytes,
+        # one byte past the limit: a body cut there is known to be too large (api.http.limits)
+        MAX_CONTENT_LENGTH=settings.max_upload_bytes + 1,
         API_SPEC_OPTIONS={"info": {"description": "Installation test readings in, verdicts out. "
                                    "Verdicts are a decision aid; the person who signs decides."}},
     )

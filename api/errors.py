@@ -8,11 +8,17 @@ Invariants:
   HTTP ``status``; extra members (``choices``, ``upload`` …) go in ``extra``.
 - marshmallow messages become one error per bad field with an RFC 6901 pointer
   (``/circuits/3/zs_ohm``), so a client can show the error beside the field.
+- A full disk is not a server bug: :func:`storage_full` recognises it under any of its
+  names (SQLite's SQLITE_FULL "database or disk is full", PostgreSQL's SQLSTATE 53100
+  ``disk_full``, the OS's ENOSPC), and it is answered 507 Insufficient Storage
+  (RFC 4918 §11.5) with :func:`insufficient_storage`, never 500.
 """
 
 from __future__ import annotations
 
+import errno
 import http
+import sqlite3
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -22,8 +28,10 @@ __all__ = [
     "PROBLEM_MEDIA_TYPE",
     "ApiError",
     "escape_pointer",
+    "insufficient_storage",
     "messages_to_errors",
     "problem_response",
+    "storage_full",
 ]
 
 PROBLEM_MEDIA_TYPE = "application/problem+json"
@@ -72,6 +80,30 @@ def problem_response(error: ApiError) -> Response:
     for name, value in error.headers.items():
         response.headers[name] = value
     return response
+
+
+def storage_full(error: BaseException | None) -> bool:
+    """True if ``error`` (or what it wraps: SQLAlchemy's ``orig``, a ``__cause__``) is a full disk."""
+    seen = 0
+    while error is not None and seen < 8:
+        if isinstance(error, OSError) and error.errno == errno.ENOSPC:
+            return True
+        if getattr(error, "sqlite_errorcode", None) == sqlite3.SQLITE_FULL:
+            return True
+        if getattr(error, "sqlstate", None) == "53100":  # PostgreSQL disk_full
+            return True
+        error = getattr(error, "orig", None) or error.__cause__
+        seen += 1
+    return False
+
+
+def insufficient_storage(*, kept: bool) -> ApiError:
+    """The 507 problem for a full disk; ``kept``: the body itself was stored (as rejected)."""
+    what = ("the body was kept as a rejected upload; nothing of it was merged" if kept
+            else "nothing was stored, the body included: send it again later")
+    return ApiError(507, "insufficient_storage", f"the server's storage is full; {what}",
+                    errors=[{"pointer": "", "code": "insufficient_storage", "reason": "storage full"}],
+                    extra={"kept": kept}, headers={"Retry-After": "60"})
 
 
 def escape_pointer(token: str) -> str:

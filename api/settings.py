@@ -57,7 +57,8 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("RATE_LIMIT", "600/minute", "requests per API key (per client address with auth off); "
             "429 with Retry-After above; flask-limiter syntax, '' for none"),
     Setting("RATE_LIMIT_STORAGE", "memory://", "flask-limiter storage URI; memory:// counts per "
-            "worker process, redis://host:6379 shares counts between workers and hosts"),
+            "worker process (each allows RATE_LIMIT / WORKERS), redis://host:6379 shares counts "
+            "between workers and hosts (`pip install ohmtally[redis]`)"),
     Setting("REQUEST_TIMEOUT_S", "60", "seconds gunicorn lets a request run before the worker is "
             "restarted (`serve --timeout` overrides)"),
     Setting("DUPLICATE_WINDOW_S", "600", "an exact re-post of a job's latest upload without an "
@@ -70,6 +71,11 @@ SETTINGS: tuple[Setting, ...] = (
             "serving one database needs the same keys"),
     Setting("WEBHOOK_SECRET_OVERLAP_S", "86400", "after a secret rotation, seconds the previous "
             "secret still signs deliveries beside the new one (at most 604800, seven days)"),
+    # Sharing the rate limit between processes and hosts (README.md, "Limits").
+    Setting("WORKERS", "1", "worker processes serving this app (`serve --workers` sets it): with "
+            "RATE_LIMIT_STORAGE=memory:// each worker counts alone, so each allows RATE_LIMIT / WORKERS"),
+    Setting("RATE_LIMIT_PREFIX", "ohmtally", "namespace of the rate counters in a shared store: each "
+            "deployment (database) sharing one Redis needs its own"),
 )
 
 
@@ -96,6 +102,8 @@ class Settings:
     duplicate_window_s: int
     encryption_keys: ServerKeys | None = None
     webhook_secret_overlap_s: int = 86400
+    workers: int = 1
+    rate_limit_prefix: str = "ohmtally"
 
 
 def _env(environ: Mapping[str, str], overrides: Mapping[str, Any], name: str) -> str:
@@ -170,4 +178,6 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         duplicate_window_s=_positive_int("DUPLICATE_WINDOW_S", _env(env, over, "DUPLICATE_WINDOW_S")),
         encryption_keys=encryption_keys,
         webhook_secret_overlap_s=overlap_s,
+        workers=_positive_int("WORKERS", _env(env, over, "WORKERS")),
+        rate_limit_prefix=_env(env, over, "RATE_LIMIT_PREFIX").strip() or "ohmtally",
     )

@@ -2,8 +2,11 @@
 
 Invariants:
 - ``create`` prints the secret once, on stdout, and nothing else ever shows
-  it again: the database holds only its SHA-256 (``api.http.keys``). The
-  organisation is created on first use of its name (slug = lower-case name).
+  it again: the database holds only its SHA-256 (``api.http.keys``).
+- ``--org`` names an organisation by its slug, or by the exact name it was made
+  with; an unknown one is made then, its slug chosen once (``--org-slug``, else
+  derived from the name) and printed. A name differing from an existing
+  organisation's only in case or punctuation is refused (exit 3), never merged.
 - ``list`` never prints a secret or a hash: id, organisation, name, display
   prefix, scopes, created, expires, revoked, last used.
 - ``revoke`` takes effect on the next request; revoking twice is not an error.
@@ -28,7 +31,10 @@ def register(sub: Any) -> None:
     p = sub.add_parser("keys", help="API keys: create, list, revoke")
     inner = p.add_subparsers(dest="keys_command", metavar="ACTION", required=True)
     create = inner.add_parser("create", help="make a key; its secret is shown once")
-    create.add_argument("--org", required=True, metavar="NAME", help="organisation (created if new)")
+    create.add_argument("--org", required=True, metavar="ORG",
+                        help="organisation: its slug, or a new organisation's name (made then)")
+    create.add_argument("--org-slug", default=None, metavar="SLUG",
+                        help="a new organisation's slug (a-z, 0-9, '-'; default: from its name), chosen once")
     create.add_argument("--name", required=True, metavar="N",
                         help="what the key is for (e.g. 'van 3 logger')")
     create.add_argument("--scope", default="read", metavar="LIST",
@@ -37,7 +43,8 @@ def register(sub: Any) -> None:
                         help="12h, 30d, 2w or never (default never)")
     create.set_defaults(func=_create)
     listing = inner.add_parser("list", help="every key, without secrets")
-    listing.add_argument("--org", default=None, metavar="NAME", help="only this organisation's keys")
+    listing.add_argument("--org", default=None, metavar="ORG",
+                         help="only this organisation's keys (slug or name)")
     listing.set_defaults(func=_list)
     revoke = inner.add_parser("revoke", help="stop a key working")
     revoke.add_argument("id", type=int, metavar="ID")
@@ -86,11 +93,15 @@ def _create(args: argparse.Namespace) -> int:
         if session is None:
             return EXIT_BAD_INPUT
         try:
-            org = organisation_named(session, args.org, create=True)
+            known = organisation_named(session, args.org, create=False, slug=args.org_slug)
+            org = known or organisation_named(session, args.org, create=True, slug=args.org_slug)
         except KeySpecError as exc:
             print(f"ohmtally keys create: {exc}", file=sys.stderr)
             return EXIT_USAGE
         assert org is not None
+        if known is None:
+            print(f"organisation {org.slug!r} ({org.name}) made; name it --org {org.slug} from now on",
+                  file=sys.stderr)
         made = create_key(session, org, name=args.name, scopes=scopes, expires_at=expires_at)
         session.commit()
         key = made.key
@@ -116,9 +127,7 @@ def _list(args: argparse.Namespace) -> int:
             return EXIT_BAD_INPUT
         query = select(ApiKey, Organisation.slug).join(Organisation).order_by(ApiKey.id)
         if args.org:
-            from api.http.keys import slugify
-
-            query = query.where(Organisation.slug == slugify(args.org))
+            query = query.where((Organisation.slug == args.org) | (Organisation.name == args.org.strip()))
         print("id\torganisation\tname\tprefix\tscopes\tcreated\texpires\trevoked\tlast_used")
         for key, slug in session.execute(query):
             print("\t".join([str(key.id), slug, key.name, key.prefix + "…", key.scopes, _when(key.created_at),

@@ -7,6 +7,10 @@ Invariants:
 - The app is built once in the master before any worker starts, so an
   unmigrated database or a bad setting stops the server with its message
   (naming ``ohmtally db upgrade``) instead of a crash loop of workers.
+- Every worker's app is told the worker count (``OHMTALLY_WORKERS``), so a
+  per-process rate-limit store divides the limit between them (``api.http.limits``).
+- gunicorn's control socket is off unless ``--control-socket PATH`` names one for
+  this instance: its default path is shared by every instance of a user on the host.
 """
 
 from __future__ import annotations
@@ -15,6 +19,8 @@ import argparse
 import ipaddress
 import sys
 from collections.abc import Callable, Mapping
+from functools import partial
+from pathlib import Path
 from typing import Any
 
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
@@ -32,6 +38,8 @@ def register(sub: Any) -> None:
     p.add_argument("--timeout", type=int, default=None, metavar="S",
                    help="seconds a request may run before its worker is restarted "
                         "(default OHMTALLY_REQUEST_TIMEOUT_S, 60)")
+    p.add_argument("--control-socket", default=None, metavar="PATH",
+                   help="gunicorn's control socket for this instance (default: none)")
     p.set_defaults(func=run)
 
 
@@ -62,6 +70,15 @@ def _application(factory: Callable[[], Any], options: Mapping[str, Any]) -> Any:
     return _Server()
 
 
+def _control_socket(path: str | None) -> dict[str, Any]:
+    """gunicorn's control socket: none unless asked for, at the path given. gunicorn's default is
+    one path per user (``$XDG_RUNTIME_DIR/gunicorn.ctl``), so a second instance on the host
+    removed the first one's; an instance's own path (its instance folder, say) cannot clash."""
+    if path is None:
+        return {"control_socket_disable": True}
+    return {"control_socket": str(Path(path).resolve()), "control_socket_disable": False}
+
+
 def run(args: argparse.Namespace) -> int:
     from api.app import create_app
     from api.db.schema import SchemaNotCurrent
@@ -82,15 +99,21 @@ def run(args: argparse.Namespace) -> int:
               "server may only listen on a loopback address (127.0.0.1, ::1, localhost)",
               file=sys.stderr)
         return EXIT_USAGE
+    # every worker's app knows how many share its rate limit (api.http.limits: memory:// divides it)
+    factory = partial(create_app, {"OHMTALLY_WORKERS": str(args.workers)})
     try:
-        create_app()  # fail here, once, with the message, rather than in every worker
+        factory()  # fail here, once, with the message, rather than in every worker
     except SchemaNotCurrent as exc:
         print(f"ohmtally serve: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except SettingsError as exc:
+        print(f"ohmtally serve: {exc}", file=sys.stderr)
+        return EXIT_USAGE
     options = {"bind": [args.bind], "workers": args.workers, "timeout": timeout,
                "accesslog": None, "errorlog": "-", "loglevel": settings.log_level.lower(),
                "proc_name": "ohmtally", "graceful_timeout": 10,
                # one webhook delivery thread per worker, leased claims (api/webhooks/runner.py)
-               "post_worker_init": webhook_hooks.post_worker_init, "worker_exit": webhook_hooks.worker_exit}
-    _application(create_app, options).run()
+               "post_worker_init": webhook_hooks.post_worker_init, "worker_exit": webhook_hooks.worker_exit,
+               **_control_socket(args.control_socket)}
+    _application(factory, options).run()
     return EXIT_OK

@@ -28,10 +28,12 @@ from datetime import datetime
 from functools import lru_cache
 from typing import Any, NamedTuple
 
-from sqlalchemy import Text, cast, insert, select, update
+from sqlalchemy import Text, and_, cast, insert, or_, select, update
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from api.db.models import Circuit, FieldHistory, Job, Organisation, Upload, utcnow
+from api.db.models.jobs import new_job_id
 from api.errors import ApiError
 from api.intake.bodies import Item
 from engine import CircuitRecord, build_record
@@ -95,34 +97,75 @@ def bump_revision(job: Job) -> None:
     job.revision += 1
 
 
+_ID_ATTEMPTS = 5
+_CURSOR_MAX = 2**63 - 1  # a 64-bit id: anything larger names no row and is not a cursor of ours
+
+
 def create_job(session: Session, organisation_id: int, *, reference: str, site: str, ruleset: str,
                external_ref: str | None) -> Job:
-    org_id = organisation_id
+    """A new job with a random id (``new_job_id``); a clash with an existing id is tried again.
+
+    The insert runs in a SAVEPOINT, so a clash (about one in 10^10 per job at a million
+    jobs) costs a retry, never the request's transaction.
+    """
     now = utcnow()
-    job = Job(organisation_id=org_id, reference=reference, site=site, ruleset=ruleset,
-              external_ref=external_ref, created_at=now, updated_at=now)
-    session.add(job)
-    session.flush()
-    return job
+    for _attempt in range(_ID_ATTEMPTS):
+        job = Job(id=new_job_id(), organisation_id=organisation_id, reference=reference, site=site,
+                  ruleset=ruleset, external_ref=external_ref, created_at=now, updated_at=now)
+        if session.get(Job, job.id) is not None:
+            continue
+        try:
+            with session.begin_nested():
+                session.add(job)
+        except IntegrityError:
+            continue
+        return job
+    raise ApiError(503, "no_job_id", "no free job id was found; send the request again")
 
 
-def encode_cursor(last_id: int) -> str:
-    raw = json.dumps({"after": last_id}, separators=(",", ":")).encode()
+def _bad_cursor() -> ApiError:
+    return ApiError(400, "bad_cursor", "the cursor is not one this API handed out",
+                    errors=[{"parameter": "cursor", "code": "bad_cursor",
+                             "reason": "use next_cursor from the previous page"}])
+
+
+def encode_cursor(last_id: int, *, at: datetime | None = None) -> str:
+    """An opaque page cursor: the last row's id (and, for jobs, its creation time)."""
+    data: dict[str, Any] = {"after": last_id}
+    if at is not None:
+        data["at"] = at.isoformat()
+    raw = json.dumps(data, separators=(",", ":")).encode()
     return base64.urlsafe_b64encode(raw).decode().rstrip("=")
 
 
-def decode_cursor(cursor: str) -> int:
+def _cursor_data(cursor: str) -> dict[str, Any]:
     try:
         padded = cursor + "=" * (-len(cursor) % 4)
         data = json.loads(base64.urlsafe_b64decode(padded.encode()))
         after = data["after"]
-        if not isinstance(after, int) or isinstance(after, bool):
+    except (ValueError, KeyError, TypeError, binascii.Error, UnicodeDecodeError, RecursionError):
+        raise _bad_cursor() from None
+    if not isinstance(after, int) or isinstance(after, bool) or not 0 <= after <= _CURSOR_MAX:
+        raise _bad_cursor()  # 2**63 and beyond (or below 0) fit no id column: a forged cursor
+    return dict(data)
+
+
+def decode_cursor(cursor: str) -> int:
+    """The id a page continues after; 400 ``bad_cursor`` for anything we did not hand out."""
+    after: int = _cursor_data(cursor)["after"]
+    return after
+
+
+def _job_position(cursor: str) -> tuple[datetime, int]:
+    """(creation time, id) of the last job of the previous page."""
+    data = _cursor_data(cursor)
+    try:
+        at = datetime.fromisoformat(data["at"])
+        if at.tzinfo is None:
             raise ValueError
-        return after
-    except (ValueError, KeyError, TypeError, binascii.Error, UnicodeDecodeError):
-        raise ApiError(400, "bad_cursor", "the cursor is not one this API handed out",
-                       errors=[{"parameter": "cursor", "code": "bad_cursor",
-                                "reason": "use next_cursor from the previous page"}]) from None
+    except (KeyError, TypeError, ValueError):
+        raise _bad_cursor() from None
+    return at, int(data["after"])
 
 
 def list_jobs(session: Session, tenant: int | None, *, limit: int, cursor: str | None,
@@ -131,14 +174,18 @@ def list_jobs(session: Session, tenant: int | None, *, limit: int, cursor: str |
               ) -> tuple[list[Job], str | None]:
     """One page in creation order, and the cursor of the next page (``None`` at the end).
 
-    Ordered by id, which only grows: a job created while a client pages lands
-    after the cursor, never shifts a page it has seen (``updated_since`` uses ``>=``).
+    Ordered by creation time, then id (ids are random: they order nothing). A job's
+    place never changes, and a job created while a client pages is stamped later than
+    the jobs it has seen, so it lands after the cursor and never shifts a page it has
+    seen (``updated_since`` uses ``>=``). The cursor holds the last job's creation time
+    and id, both shown in that job: it reveals nothing the page did not.
     """
-    query = select(Job).order_by(Job.id).limit(limit + 1)
+    query = select(Job).order_by(Job.created_at, Job.id).limit(limit + 1)
     if tenant is not None:
         query = query.where(Job.organisation_id == tenant)
     if cursor:
-        query = query.where(Job.id > decode_cursor(cursor))
+        at, after = _job_position(cursor)
+        query = query.where(or_(Job.created_at > at, and_(Job.created_at == at, Job.id > after)))
     if reference is not None:
         query = query.where(Job.reference == reference)
     if external_ref is not None:
@@ -148,7 +195,7 @@ def list_jobs(session: Session, tenant: int | None, *, limit: int, cursor: str |
     rows = list(session.scalars(query))
     more = len(rows) > limit
     page = rows[:limit]
-    return page, encode_cursor(page[-1].id) if more and page else None
+    return page, encode_cursor(page[-1].id, at=page[-1].created_at) if more and page else None
 
 
 def get_job(session: Session, tenant: int | None, job_id: int) -> Job:

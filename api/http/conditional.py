@@ -49,11 +49,16 @@ def if_none_match(header: str | None, etag: str) -> bool:
 
 
 def parse_rfc3339(text: str, *, parameter: str) -> datetime:
-    """An RFC 3339 date-time with an offset (``Z`` or ``±hh:mm``), as an aware UTC datetime."""
+    """An RFC 3339 date-time with an offset (``Z`` or ``±hh:mm``), as an aware UTC datetime.
+
+    Empty text, a date-time without an offset, and one whose UTC time falls outside years
+    1–9999 (``0001-01-01T00:00:00+01:00``) are 422 problems naming ``parameter``."""
     try:
         # A "+" left unescaped in a query string arrives as a space: put it back.
-        parsed = datetime.fromisoformat(text.strip().replace(" ", "+").replace("z", "Z"))
-    except ValueError:
+        parsed: datetime | None = datetime.fromisoformat(text.strip().replace(" ", "+").replace("z", "Z"))
+        if parsed is not None and parsed.tzinfo is not None:
+            parsed = parsed.astimezone(UTC)  # year 1 at +01:00 is before year 1 in UTC: OverflowError
+    except (ValueError, OverflowError):
         parsed = None
     if parsed is None or parsed.tzinfo is None or "T" not in text.upper():
         raise ApiError(422, "invalid_parameters", f"{parameter} must be an RFC 3339 date-time with "

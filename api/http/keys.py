@@ -14,6 +14,11 @@ Invariants:
   many leading characters matched.
 - Nothing here logs or returns the secret except :func:`create_key`'s result,
   which the caller shows once.
+- An organisation is identified by its slug, chosen once when it is made (given, or
+  derived from its name) and never derived again: :func:`organisation_named` finds an
+  organisation by its exact slug, or by the exact name it was made with, and refuses a
+  name that differs from an existing organisation's only in case or punctuation ("ACME
+  Ltd" beside "Acme, Ltd.") instead of silently making both one tenant.
 """
 
 from __future__ import annotations
@@ -32,6 +37,7 @@ from api.db.models import SCOPES, ApiKey, Organisation, utcnow
 
 __all__ = [
     "KEY_PREFIX",
+    "SLUG_PATTERN",
     "CreatedKey",
     "KeySpecError",
     "create_key",
@@ -42,6 +48,8 @@ __all__ = [
     "parse_scopes",
     "slugify",
 ]
+
+SLUG_PATTERN = re.compile(r"^[a-z0-9](?:[a-z0-9-]{0,62}[a-z0-9])?$")
 
 KEY_PREFIX = "oht_"
 _TOKEN_BYTES = 32  # 256 bits; the brief asks for at least 128
@@ -87,19 +95,47 @@ def parse_expiry(text: str | None, now: datetime) -> datetime | None:
 
 
 def slugify(name: str) -> str:
-    slug = _SLUG.sub("-", name.strip().lower()).strip("-")[:64]
+    slug = _SLUG.sub("-", name.strip().lower()).strip("-")[:64].rstrip("-")
     if not slug:
         raise KeySpecError(f"an organisation needs a name with letters or digits, not {name!r}")
     return slug
 
 
-def organisation_named(session: Session, name: str, *, create: bool) -> Organisation | None:
-    slug = slugify(name)
-    org = session.scalars(select(Organisation).where(Organisation.slug == slug)).first()
-    if org is None and create:
-        org = Organisation(slug=slug, name=name.strip()[:200], created_at=utcnow())
-        session.add(org)
-        session.flush()
+def _by_slug(session: Session, slug: str) -> Organisation | None:
+    return session.scalars(select(Organisation).where(Organisation.slug == slug)).first()
+
+
+def organisation_named(session: Session, name: str, *, create: bool,
+                       slug: str | None = None) -> Organisation | None:
+    """The organisation whose slug is ``name``, or which was made with exactly this ``name``;
+    with ``create``, a new one (slug ``slug`` if given, else derived from ``name``).
+
+    ``KeySpecError`` for a name that would collide with another organisation's (equal once case
+    and punctuation are set aside, or the same slug), and for a given slug that is taken or malformed.
+    """
+    text = name.strip()
+    found = _by_slug(session, text)
+    if found is not None and slug in (None, found.slug):
+        return found
+    others = list(session.scalars(select(Organisation).order_by(Organisation.id)))
+    for other in others:
+        if other.name == text and slug in (None, other.slug):
+            return other  # the name it was made with, spelt the same
+    if slug is not None and not SLUG_PATTERN.match(slug):
+        raise KeySpecError(f"an organisation slug is 1-64 of a-z, 0-9 and '-' (not at either end), "
+                           f"not {slug!r}")
+    wanted = slug if slug is not None else slugify(text)
+    normal = _SLUG.sub("", text.lower())
+    for other in others:
+        if other.slug == wanted or (normal and _SLUG.sub("", other.name.lower()) == normal):
+            raise KeySpecError(f"{text!r} would collide with organisation {other.slug!r}, which exists as "
+                               f"{other.name!r}: use --org {other.slug} to add a key to it, or choose "
+                               "another name or slug (--org-slug)")
+    if not create:
+        return None
+    org = Organisation(slug=wanted, name=text[:200], created_at=utcnow())
+    session.add(org)
+    session.flush()
     return org
 
 

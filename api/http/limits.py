@@ -1,33 +1,50 @@
-"""Request limits: rate per API key (429 + Retry-After), rows per body and line length (413).
+"""Request limits: the body's size as it is read (413), NUL in a path or query (400), the rate
+per API key (429 + Retry-After), and the row and line limits every body reader gets.
 
 Invariants:
-- The rate limit counts per API key id (``key:<id>``); with no key (auth off,
-  or a request refused before a key was found) per client address. Health is
-  never counted, so a load balancer's probe cannot lock a client out.
+- The body of a POST, PUT, PATCH or DELETE is read once, here, before any view or the
+  Idempotency-Key check sees it, and only after the key check and the rate limit: a
+  stranger cannot make the server read 16 MiB. A declared ``Content-Length`` over
+  ``OHMTALLY_MAX_UPLOAD_BYTES`` is refused before a byte is read; any other body (chunked,
+  or a length that lies) is read through werkzeug's ``LimitedStream`` capped at one byte
+  more than the limit, so memory never holds more than that, and a body that reaches that
+  byte is refused whole (413 ``body_too_large``) — never cut and taken. Such a body is not
+  kept (it was not read to its end), and the problem says so.
+- Rows and lines are limited per body by :class:`api.intake.line_scan.BodyLimits`
+  (:func:`body_limits`), checked by :mod:`api.intake.bodies` the same way for every
+  media type and adapter.
+- A NUL (``%00``) in a query parameter is a 400 naming the parameter, in the path a 404:
+  no text column (PostgreSQL) can hold it, and no name of ours contains it.
+- The rate limit counts per API key id (``key:<id>``); with no key (auth off, or a
+  request refused before a key was found) per client address. Health is never counted,
+  so a load balancer's probe cannot lock a client out.
+- The limit is the configured one whatever the worker count: a shared store
+  (``redis://``) counts for every worker and host; with ``memory://`` each of
+  ``OHMTALLY_WORKERS`` processes counts alone and allows ``RATE_LIMIT / WORKERS``
+  (never more than configured in all; a limit too small to divide is refused at start).
 - A refused request is a problem+json 429 carrying ``Retry-After`` (seconds,
   RFC 9110 §10.2.3) until the window frees a request.
-- :func:`check_text_limits` and :func:`check_row_count` raise 413 problems
-  naming the limit and where it was broken (line number); the readings view
-  keeps such a body as a rejected upload like any other refused body.
-- The body size limit itself is Flask's ``MAX_CONTENT_LENGTH`` (413 before
-  the body is read), set from ``OHMTALLY_MAX_UPLOAD_BYTES`` in ``create_app``.
 """
 
 from __future__ import annotations
 
 import math
 import time
-from collections.abc import Sequence
 from typing import Any
 
 from flask import Flask, current_app, g, request
+from flask_limiter import Limiter
+from flask_limiter.errors import RateLimitExceeded
+from limits import parse_many
+from werkzeug.exceptions import RequestEntityTooLarge
 
 from api.errors import ApiError, problem_response
-from api.intake.bodies import Item
+from api.intake.line_scan import BodyLimits
+from api.settings import Settings, SettingsError
 
-__all__ = ["check_row_count", "check_text_limits", "init_app", "rate_key"]
+__all__ = ["body_limits", "divided_limit", "init_app", "rate_key"]
 
-_TEXT_TYPES = frozenset({"text/csv", "text/plain", "application/x-ndjson"})
+_BODY_METHODS = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 
 
 def rate_key() -> str:
@@ -37,16 +54,85 @@ def rate_key() -> str:
     return f"addr:{request.remote_addr or 'unknown'}"
 
 
-def init_app(app: Flask) -> None:
-    from flask_limiter import Limiter
-    from flask_limiter.errors import RateLimitExceeded
+def body_limits() -> BodyLimits:
+    """The request's limits, from the app's settings."""
+    settings: Settings = current_app.extensions["ohmtally.settings"]
+    return BodyLimits(max_bytes=settings.max_upload_bytes, max_rows=settings.max_rows,
+                      max_line_bytes=settings.max_line_bytes)
 
-    settings = app.extensions["ohmtally.settings"]
-    limiter = Limiter(rate_key, app=app, default_limits=[settings.rate_limit] if settings.rate_limit else [],
+
+def divided_limit(limit: str, workers: int) -> str:
+    """``limit`` (flask-limiter syntax) as each of ``workers`` processes counting alone must apply it."""
+    if workers <= 1 or not limit:
+        return limit
+    parts = []
+    for item in parse_many(limit):
+        share = item.amount // workers
+        if share < 1:
+            raise SettingsError(f"OHMTALLY_RATE_LIMIT {limit!r} cannot be shared by {workers} workers "
+                                "counting alone (memory://): use fewer workers, a larger limit, or "
+                                "OHMTALLY_RATE_LIMIT_STORAGE=redis://…")
+        parts.append(f"{share} per {item.multiples} {item.GRANULARITY.name}")
+    return "; ".join(parts)
+
+
+def _too_large(most: int, declared: int | None) -> ApiError:
+    seen = f"declares {declared} bytes" if declared is not None else f"is longer than {most} bytes"
+    return ApiError(413, "body_too_large",
+                    f"the body {seen}; the most one body may carry is {most} bytes "
+                    "(OHMTALLY_MAX_UPLOAD_BYTES). It was refused as it arrived and is not kept: "
+                    "split it into several posts",
+                    errors=[{"pointer": "", "code": "body_too_large", "reason": f"more than {most} bytes"}],
+                    extra={"kept": False})
+
+
+def _read_body() -> None:
+    """Read the body once, bounded (see the invariants); later readers get these bytes."""
+    if request.method not in _BODY_METHODS:
+        return
+    most = current_app.extensions["ohmtally.settings"].max_upload_bytes
+    declared = request.content_length
+    if declared is not None and declared > most:
+        raise _too_large(most, declared)
+    try:
+        body = request.get_data(cache=True)  # MAX_CONTENT_LENGTH = most + 1 (api.app)
+    except RequestEntityTooLarge:
+        raise _too_large(most, None) from None
+    if len(body) > most:
+        raise _too_large(most, None)
+
+
+def _shown(text: str) -> str:
+    return text.replace("\x00", "\\u0000")
+
+
+def _refuse_nul() -> None:
+    if "\x00" in request.path:  # names nothing: before any hook stores the path (Idempotency-Key)
+        raise ApiError(404, "not_found", "the path holds U+0000 (%00), which names nothing",
+                       errors=[{"parameter": "path", "code": "nul_character", "reason": "holds %00"}])
+    for name, value in request.args.items(multi=True):
+        if "\x00" in name or "\x00" in value:
+            raise ApiError(400, "nul_character", f"the query parameter {_shown(name)!r} holds U+0000 (%00)",
+                           errors=[{"parameter": _shown(name), "code": "nul_character",
+                                    "reason": "holds %00, which no text can store"}])
+
+
+def init_app(app: Flask) -> None:
+    settings: Settings = app.extensions["ohmtally.settings"]
+    shared = not settings.rate_limit_storage.startswith("memory://")
+    own = settings.rate_limit if shared else divided_limit(settings.rate_limit, settings.workers)
+    limiter = Limiter(rate_key, app=app, default_limits=[own] if own else [],
                       storage_uri=settings.rate_limit_storage, headers_enabled=False,
-                      enabled=bool(settings.rate_limit))
+                      key_prefix=settings.rate_limit_prefix,
+                      enabled=bool(settings.rate_limit),
+                      # a shared store that stops answering: each worker counts alone meanwhile
+                      in_memory_fallback_enabled=shared,
+                      in_memory_fallback=[divided_limit(settings.rate_limit, settings.workers)]
+                      if shared and settings.rate_limit else None)
     limiter.request_filter(lambda: request.path.rstrip("/") == "/v1/health")
     app.extensions["ohmtally.limiter"] = limiter
+    app.before_request(_refuse_nul)
+    app.before_request(_read_body)  # after the key check and the rate limit, before idempotency
 
     @app.errorhandler(RateLimitExceeded)
     def _too_many(_error: RateLimitExceeded) -> Any:
@@ -57,40 +143,3 @@ def init_app(app: Flask) -> None:
         return problem_response(ApiError(
             429, "rate_limited", f"too many requests; the limit is {settings.rate_limit} per API key",
             headers={"Retry-After": str(wait)}, extra={"retry_after_s": wait}))
-
-
-def check_text_limits(body: bytes, media_type: str) -> None:
-    """413 if a text body has a line longer than the limit or more lines than rows allowed."""
-    if media_type not in _TEXT_TYPES:
-        return
-    settings = current_app.extensions["ohmtally.settings"]
-    limit = settings.max_line_bytes
-    start, number = 0, 0
-    while start < len(body):
-        end = body.find(b"\n", start)
-        end = len(body) if end < 0 else end
-        number += 1
-        if end - start > limit:
-            raise ApiError(413, "line_too_long", f"line {number} is {end - start} bytes; the most a line "
-                           f"may hold is {limit} (OHMTALLY_MAX_LINE_BYTES)",
-                           errors=[{"line": number, "code": "line_too_long",
-                                    "reason": f"longer than {limit} bytes"}])
-        if number > settings.max_rows + 1:  # + 1: a CSV header line is not a row
-            raise ApiError(413, "too_many_rows", f"the body has more than {settings.max_rows} rows "
-                           "(OHMTALLY_MAX_ROWS); split it into several posts",
-                           errors=[{"line": number, "code": "too_many_rows",
-                                    "reason": f"more than {settings.max_rows} rows"}])
-        start = end + 1
-
-
-def check_row_count(items: Sequence[Item]) -> None:
-    """413 if a body carries more rows (JSON circuits, input lines) than allowed, naming the first extra."""
-    limit = current_app.extensions["ohmtally.settings"].max_rows
-    if len(items) <= limit:
-        return
-    where = items[limit].location  # "/circuits/5" or "line 7"
-    entry: dict[str, Any] = ({"line": int(where.split()[1])} if where.startswith("line ") and
-                             where.split()[1].isdigit() else {"pointer": where})
-    raise ApiError(413, "too_many_rows", f"the body has {len(items)} rows; the most one body may carry "
-                   f"is {limit} (OHMTALLY_MAX_ROWS); split it into several posts",
-                   errors=[{**entry, "code": "too_many_rows", "reason": f"more than {limit} rows"}])

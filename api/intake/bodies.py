@@ -10,30 +10,61 @@ Invariants:
   :class:`Item`: its key, its fields in JSON form (``Reading.to_json()``) and
   where it came from; items merge per circuit and per field, later winning.
 - Every way a body can be unreadable is an :class:`ApiError` with a status:
-  empty 400, not UTF-8 400, malformed JSON 400, wrong content type 415,
-  unknown adapter/profile 404, no recognisable CSV header 422.
+  empty 400, not UTF-8 400, malformed JSON 400, JSON the server will not take
+  (too deep, a repeated member name, a number out of range, NUL, a lone
+  surrogate) 422 with a pointer (:mod:`api.intake.json_document`), wrong content
+  type or a charset that is no character encoding 415, unknown adapter 404, a
+  profile that is not a name of the profile directory 404, no recognisable CSV
+  header 422, over a row, line or value limit 413.
+- Limits hold identically for every media type and adapter (:class:`BodyLimits`):
+  a body read line by line (csv, lines, NDJSON) is scanned for its lines before
+  any adapter runs (:mod:`api.intake.line_scan`); a JSON document is bounded by
+  its arrays, objects and values before it is parsed; and the adapter's output is
+  counted as it streams, stopping at the first row past ``max_rows`` — so a body
+  over a limit is refused whole, before memory grows, and nothing of it is merged.
+- Boards and circuits never carry U+0000 or a lone surrogate into the database,
+  whatever an adapter lets through: such a row is rejected with its line.
 """
 
 from __future__ import annotations
 
 import codecs
 import io
-import json
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 from marshmallow import ValidationError
 
+from adapters import AdapterError, AdapterOptions, Fragment, LineError
+from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
 from api.errors import ApiError, messages_to_errors
+from api.intake.json_document import JsonSyntaxError, parse_strict
+from api.intake.json_records import screen_json_records
+from api.intake.line_scan import BodyLimits, as_utf8, scan_lines
 from api.intake.objects import records_from_objects
 from api.schemas.records import load_verify_request
 from engine import CircuitRecord, Reading, build_record, record_to_dict
 
-__all__ = ["JSON_MEDIA_TYPE", "Intake", "Item", "read_body", "read_json_document"]
+__all__ = [
+    "DEFAULT_LIMITS",
+    "JSON_MEDIA_TYPE",
+    "BodyLimits",
+    "Intake",
+    "Item",
+    "read_body",
+    "read_json_document",
+]
 
 JSON_MEDIA_TYPE = "application/json"
+DEFAULT_LIMITS = BodyLimits(max_bytes=16 * 1024 * 1024, max_rows=20000, max_line_bytes=8192)
 _UTF8_ONLY = frozenset({"application/json", "application/x-ndjson"})  # RFC 8259 §8.1
+# A profile is a name from the profile directory: never a path (`/etc/…`, `../x`, `x.json`).
+_PROFILE_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_-]*(?:\.[A-Za-z0-9_-]+)*$")
+# Codecs that decode text but are no character encoding of a file: escapes, IDNA, UTF-7.
+_NOT_CHARSETS = frozenset({"unicode-escape", "raw-unicode-escape", "punycode", "idna", "utf-7",
+                           "undefined"})
 
 
 @dataclass(frozen=True, slots=True)
@@ -86,19 +117,28 @@ def _decode_utf8(body: bytes, what: str) -> str:
                                 "reason": f"invalid UTF-8 at byte offset {exc.start}"}]) from None
 
 
-def read_json_document(body: bytes) -> Any:
-    """Bytes → a JSON value, or the problem that says why not (empty, not UTF-8, malformed)."""
+def read_json_document(body: bytes, *, max_rows: int = DEFAULT_LIMITS.max_rows) -> Any:
+    """Bytes → a JSON value, or the problem that says why not: empty, not UTF-8 or malformed
+    (400); too large (413); too deep, a repeated member, a number out of range, NUL or a lone
+    surrogate (422, a pointer each: :mod:`api.intake.json_document`)."""
     if not body.strip():
         raise ApiError(400, "empty_body", "the request body is empty; send a JSON document",
                        errors=[{"pointer": "", "code": "empty_body", "reason": "no content"}])
     text = _decode_utf8(body, "JSON")
     try:
-        return json.loads(text)
-    except json.JSONDecodeError as exc:
+        parsed = parse_strict(body, text, max_rows=max_rows)
+    except JsonSyntaxError as exc:
         raise ApiError(400, "malformed_json",
-                       f"the body is not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}",
-                       errors=[{"pointer": "", "line": exc.lineno, "code": "malformed_json",
-                                "reason": f"{exc.msg} (column {exc.colno})"}]) from None
+                       f"the body is not valid JSON: {exc.msg} at line {exc.line} column {exc.column}",
+                       errors=[{"pointer": "", "line": exc.line, "code": "malformed_json",
+                                "reason": f"{exc.msg} (column {exc.column})"}]) from None
+    if parsed.too_large:
+        raise ApiError(413, "too_many_values", parsed.problems[0]["reason"], errors=parsed.problems)
+    if parsed.problems:
+        raise ApiError(422, "invalid_json", f"the JSON document has {len(parsed.problems)} problem(s): "
+                       + ", ".join(sorted({p["code"] for p in parsed.problems})),
+                       errors=parsed.problems)
+    return parsed.value
 
 
 def _unknown_field_names(errors: list[dict[str, Any]]) -> list[str]:
@@ -120,8 +160,11 @@ def validation_problem(exc: ValidationError, *, what: str = "body") -> ApiError:
     return ApiError(422, "invalid_body", detail, errors=errors)
 
 
-def _read_json(body: bytes) -> Intake:
-    document = read_json_document(body)
+def _read_json(body: bytes, limits: BodyLimits) -> Intake:
+    document = read_json_document(body, max_rows=limits.max_rows)
+    circuits = document.get("circuits") if isinstance(document, dict) else None
+    if isinstance(circuits, list) and len(circuits) > limits.max_rows:
+        raise _too_many_rows(len(circuits), limits.max_rows, {"pointer": f"/circuits/{limits.max_rows}"})
     try:
         loaded = load_verify_request(document)
     except ValidationError as exc:
@@ -141,9 +184,6 @@ def _read_json(body: bytes) -> Intake:
 
 
 def _pick_adapter(media_type: str, adapter_name: str | None) -> Any:
-    from adapters import AdapterError
-    from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
-
     if adapter_name:
         try:
             return get_adapter(adapter_name)
@@ -180,29 +220,84 @@ def adapter_problem(exc: Exception, *, parameter: str) -> ApiError:
                              **({"pointer": str(details["pointer"])} if "pointer" in details else {})}])
 
 
-def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_name: str | None,
-                  profile: str | None, profile_dir: str | None) -> Intake:
-    from adapters import AdapterError, AdapterOptions, Fragment, LineError
+def _too_many_rows(count: int | None, limit: int, where: dict[str, Any]) -> ApiError:
+    seen = f"{count} rows" if count is not None else f"more than {limit} rows"
+    return ApiError(413, "too_many_rows", f"the body has {seen}; the most one body may carry is {limit} "
+                    "(OHMTALLY_MAX_ROWS); split it into several posts",
+                    errors=[{**where, "code": "too_many_rows", "reason": f"more than {limit} rows"}])
 
+
+def _check_charset(charset: str | None) -> None:
+    """415 unless ``charset`` names a character encoding (never rot13, zlib_codec, uu_codec …)."""
+    if not charset:
+        return
+    try:
+        name = codecs.lookup(charset).name
+        b"  ".decode(name, "replace")  # a transfer codec (base64, zlib, rot13, uu) is a LookupError here
+    except (LookupError, UnicodeError):
+        name = None
+    if name is None or name in _NOT_CHARSETS:
+        raise ApiError(415, "unknown_charset", f"charset {charset!r} is not a character encoding this "
+                       "server reads (utf-8, utf-16, cp1252, iso-8859-15 …)",
+                       errors=[{"parameter": "Content-Type", "code": "unknown_charset",
+                                "reason": f"{charset!r} is not a character encoding"}])
+
+
+def _check_profile(profile: str | None, adapter: str, profile_dir: str | None) -> None:
+    """404 unless ``profile`` is a plain name (the adapters resolve names in the profile directory;
+    a path such as ``/etc/x.json`` or ``../x`` is never opened, and the answer does not depend on
+    whether such a file exists)."""
+    if profile is None or (_PROFILE_NAME.match(profile) and not profile.lower().endswith(".json")):
+        return
+    choices = [p for a in list_adapters(profile_dir) if a["name"] == adapter for p in a["profiles"]]
+    raise ApiError(404, "unknown_profile", "a profile is named by its name in the profile directory, "
+                   "not by a path", extra={"choices": choices},
+                   errors=[{"parameter": "profile", "code": "unknown_profile",
+                            "reason": "not a profile name (letters, digits, '-', '_', '.')"}])
+
+
+def _bad_key(result: Fragment) -> dict[str, Any] | None:
+    """A rejected entry for a fragment whose board or circuit the database cannot key."""
+    for name in ("board", "circuit"):
+        text = getattr(result, name)
+        if "\x00" in text or any("\ud800" <= ch <= "\udfff" for ch in text):
+            return {"line": result.line, "field": name, "code": "bad_key",
+                    "reason": f"the {name} reference holds U+0000 or a lone surrogate; no circuit can be "
+                              "keyed by it"}
+    return None
+
+
+def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_name: str | None,
+                  profile: str | None, profile_dir: str | None, limits: BodyLimits) -> Intake:
     if not body.strip():
         raise ApiError(400, "empty_body", "the request body is empty",
                        errors=[{"line": 1, "code": "empty_body", "reason": "no content"}])
     if media_type in _UTF8_ONLY:
         _decode_utf8(body, media_type)
-    elif charset:
-        try:
-            codecs.lookup(charset)
-        except LookupError:
-            raise ApiError(415, "unknown_charset", f"charset {charset!r} is not known",
-                           errors=[{"parameter": "Content-Type", "code": "unknown_charset",
-                                    "reason": f"unknown charset {charset!r}"}]) from None
+    _check_charset(charset)
     adapter = _pick_adapter(media_type, adapter_name)
-    intake = Intake(adapter=getattr(adapter, "name", adapter_name), profile=profile)
-    options = AdapterOptions(profile=profile, profile_dir=profile_dir, encoding=charset)
+    name = str(getattr(adapter, "name", adapter_name))
+    _check_profile(profile, name, profile_dir)
+    intake = Intake(adapter=name, profile=profile)
+    encoding = charset
+    if name == "json":  # screened whole or per line, never handed a hazard (api.intake.json_records)
+        readable = as_utf8(body, charset)
+        encoding = "utf-8" if readable is not body else charset
+        readable, intake.rejected = screen_json_records(readable, limits)
+    else:
+        scan_lines(body, limits, charset=charset)
+        readable = body
+    options = AdapterOptions(profile=profile, profile_dir=profile_dir, encoding=encoding)
     header_errors: list[Any] = []
     try:
-        for result in adapter.read(io.BytesIO(body), options):
+        for result in adapter.read(io.BytesIO(readable), options):
             if isinstance(result, Fragment):
+                refused = _bad_key(result)
+                if refused is not None:
+                    intake.rejected.append(refused)
+                    continue
+                if len(intake.items) >= limits.max_rows:  # stop the stream at the first row too many
+                    raise _too_many_rows(None, limits.max_rows, {"line": result.line})
                 values = {k: _json_value(v) for k, v in result.fields.items()
                           if k not in ("board", "circuit") and v is not None}
                 intake.items.append(Item(result.board, result.circuit, values, f"line {result.line}"))
@@ -222,8 +317,10 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
 
 def read_body(body: bytes, media_type: str, *, charset: str | None = None,
               adapter: str | None = None, profile: str | None = None,
-              profile_dir: str | None = None) -> Intake:
-    """The readings in a request body, or the :class:`ApiError` saying why there are none."""
+              profile_dir: str | None = None, limits: BodyLimits = DEFAULT_LIMITS) -> Intake:
+    """The readings in a request body, or the :class:`ApiError` saying why there are none.
+
+    ``limits`` bound the rows and lines (the body's size was bounded as it was read)."""
     if media_type == JSON_MEDIA_TYPE and adapter in (None, ""):
-        return _read_json(body)
-    return _read_adapter(body, media_type, charset, adapter, profile, profile_dir)
+        return _read_json(body, limits)
+    return _read_adapter(body, media_type, charset, adapter, profile, profile_dir, limits)

@@ -79,7 +79,7 @@ def json_body(schema: Schema, *, media_types: tuple[str, ...] = (JSON_MEDIA_TYPE
                                 "reason": f"expected {media_types[0]}"}],
                        extra={"choices": list(media_types)})
     try:
-        loaded: dict[str, Any] = schema.load(read_json_document(body))
+        loaded: dict[str, Any] = schema.load(read_json_document(body, max_rows=settings().max_rows))
     except ValidationError as exc:
         raise validation_problem(exc) from None
     return loaded

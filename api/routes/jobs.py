@@ -79,11 +79,12 @@ class Jobs(MethodView):
         since = query.get("updated_since")
         jobs, cursor = list_jobs(get_session(), tenant(), limit=limit, cursor=query.get("cursor"),
                                  reference=query.get("reference"), external_ref=query.get("external_ref"),
-                                 updated_since=since and parse_rfc3339(since, parameter="updated_since"))
+                                 updated_since=None if since is None else parse_rfc3339(
+                                     since, parameter="updated_since"))
         return {"items": jobs, "next_cursor": cursor, "limit": limit}
 
 
-@blp.route("/jobs/<int:job_id>")
+@blp.route("/jobs/<job:job_id>")
 class JobDetail(MethodView):
     @blp.response(200, JobSchema)
     def get(self, job_id: int) -> Any:
@@ -107,7 +108,7 @@ def _page(session: Session, job: Job, query: dict[str, Any]) -> tuple[list[Circu
     return rows, encode_cursor(last) if last is not None else None, limit
 
 
-@blp.route("/jobs/<int:job_id>/circuits")
+@blp.route("/jobs/<job:job_id>/circuits")
 class JobCircuits(MethodView):
     @blp.arguments(CircuitsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.response(200, CircuitsResponseSchema, headers=_LINK_DOC)
@@ -124,7 +125,7 @@ class JobCircuits(MethodView):
         return body, _page_links(job.id, "circuits", cursor, query)
 
 
-@blp.route("/jobs/<int:job_id>/verdicts")
+@blp.route("/jobs/<job:job_id>/verdicts")
 class JobVerdicts(MethodView):
     @blp.arguments(VerdictsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.doc(parameters=[IF_NONE_MATCH_DOC], responses={

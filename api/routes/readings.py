@@ -26,6 +26,7 @@ from flask import Response, g
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
+from sqlalchemy.exc import DBAPIError
 
 from api.answers import ReadingsAnswer
 from api.db.models import Job, Upload
@@ -41,10 +42,10 @@ from api.db.repository import (
     upload_circuit_keys,
 )
 from api.db.session import get_session
-from api.errors import ApiError
+from api.errors import ApiError, insufficient_storage, storage_full
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key
-from api.http.limits import check_row_count, check_text_limits
+from api.http.limits import body_limits
 from api.intake.bodies import Intake, read_body
 from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
 from api.routes.verify import ReadingsQuerySchema
@@ -73,7 +74,7 @@ def _refuse(upload: Upload, problem: ApiError) -> ApiError:
     return problem
 
 
-@blp.route("/jobs/<int:job_id>/readings")
+@blp.route("/jobs/<job:job_id>/readings")
 class JobReadings(MethodView):
     @blp.arguments(ReadingsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.doc(requestBody=READINGS_BODY_DOC, parameters=[IDEMPOTENCY_PARAMETER_DOC])
@@ -89,9 +90,9 @@ class JobReadings(MethodView):
         intake: Intake | None = None
         unreadable: ApiError | None = None
         try:
-            check_text_limits(body, media_type)
             intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
-                               profile=query.get("profile"), profile_dir=settings().profile_dir)
+                               profile=query.get("profile"), profile_dir=settings().profile_dir,
+                               limits=body_limits())
         except ApiError as problem:
             unreadable = problem
         session = get_session()
@@ -103,9 +104,12 @@ class JobReadings(MethodView):
                                     content_type=content_type, window_s=settings().duplicate_window_s)
             if same is not None:
                 return _duplicate(job, same, records_of_rows(stored))
+        # the adapter and profile as the client named them, cut to their columns' width (a refused
+        # name is kept for the record; 300 characters of it must not fail the insert)
+        named_adapter = (intake.adapter if intake is not None else query.get("adapter")) or ""
         upload = store_upload(session, job, body=body, content_type=content_type,
-                              adapter=intake.adapter if intake is not None else query.get("adapter"),
-                              profile=query.get("profile"), idempotency_key=key)
+                              adapter=named_adapter[:100] or None,
+                              profile=(query.get("profile") or "")[:200] or None, idempotency_key=key)
         if unreadable is not None:
             raise _refuse(upload, unreadable)
         assert intake is not None
@@ -117,20 +121,27 @@ class JobReadings(MethodView):
                                f"{named!r} (change the job, or leave ruleset out)",
                                errors=[{**where, "code": "ruleset_mismatch",
                                         "reason": f"the job's ruleset is {job.ruleset!r}"}])
-            check_row_count(intake.items)
         except ApiError as problem:
             raise _refuse(upload, problem) from None
         ruleset = resolve_ruleset(job.ruleset)
-        # verdict.changed compares with the outcomes before the merge (None: nobody listens)
-        before = outcomes_before(session, job, ruleset, records_of_rows(stored))
-        merged = merge_items(session, job, upload, intake.items, stored)
-        upload.status, upload.accepted, upload.rejected = "merged", merged.accepted, intake.rejected
-        wanted = set(merged.touched)
-        # Every circuit sees the whole job (board-level checks), but only the touched ones are
-        # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
-        all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted)
-        # the webhook events commit with the merge, or neither does
-        emit_readings(session, job, upload, touched=merged.touched, before=before, after=all_verdicts)
+        merging = session.begin_nested()  # a full disk while merging still keeps the stored body
+        try:
+            # verdict.changed compares with the outcomes before the merge (None: nobody listens)
+            before = outcomes_before(session, job, ruleset, records_of_rows(stored))
+            merged = merge_items(session, job, upload, intake.items, stored)
+            upload.status, upload.accepted, upload.rejected = "merged", merged.accepted, intake.rejected
+            wanted = set(merged.touched)
+            # Every circuit sees the whole job (board-level checks), but only the touched ones are
+            # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
+            all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted)
+            # the webhook events commit with the merge, or neither does
+            emit_readings(session, job, upload, touched=merged.touched, before=before, after=all_verdicts)
+            merging.commit()  # RELEASE: the merge's rows are flushed inside the savepoint
+        except DBAPIError as exc:
+            if not storage_full(exc):
+                raise
+            merging.rollback()  # the upload row, written before the savepoint, stays
+            raise _refuse(upload, insufficient_storage(kept=True)) from None
         return ReadingsAnswer(accepted=merged.accepted, rejected=intake.rejected, upload=upload,
                               verdicts=[v for v in all_verdicts if v.key in wanted])
 
@@ -138,10 +149,11 @@ class JobReadings(MethodView):
 def _full_content_type(media_type: str, charset: str | None) -> str:
     if not media_type:
         return "application/octet-stream"
-    return f"{media_type}; charset={charset}" if charset else media_type
+    full = f"{media_type}; charset={charset}" if charset else media_type
+    return full[:200]  # the column's width; a longer header is junk, kept as far as it fits
 
 
-@blp.route("/jobs/<int:job_id>/uploads")
+@blp.route("/jobs/<job:job_id>/uploads")
 class JobUploads(MethodView):
     @blp.response(200, UploadListSchema)
     def get(self, job_id: int) -> Any:
@@ -151,7 +163,7 @@ class JobUploads(MethodView):
         return {"job_id": job.id, "uploads": list_uploads(session, job)}
 
 
-@blp.route("/jobs/<int:job_id>/uploads/<int:upload_id>")
+@blp.route("/jobs/<job:job_id>/uploads/<int:upload_id>")
 class JobUpload(MethodView):
     @blp.response(200, {"type": "string", "format": "binary"}, content_type="*/*",
                   description="the body exactly as received, with its content type")

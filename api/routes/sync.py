@@ -38,7 +38,7 @@ MERGE_PATCH = "application/merge-patch+json"
 _ACCEPTED = (MERGE_PATCH, JSON_MEDIA_TYPE)
 
 
-@blp.route("/jobs/<int:job_id>")
+@blp.route("/jobs/<job:job_id>")
 class JobPatch(MethodView):
     @blp.doc(requestBody=json_body_doc(JobPatchSchema, _ACCEPTED))
     @blp.response(200, JobSchema)
@@ -55,7 +55,7 @@ class JobPatch(MethodView):
         return job
 
 
-@blp.route("/jobs/<int:job_id>/circuits/<board>/<circuit>")
+@blp.route("/jobs/<job:job_id>/circuits/<board>/<circuit>")
 class CircuitPatch(MethodView):
     @blp.doc(requestBody=json_body_doc(CircuitPatchSchema, _ACCEPTED))
     @blp.response(200, CircuitStateSchema)

@@ -10,7 +10,7 @@ from flask_smorest import Blueprint
 from marshmallow import RAISE, Schema, fields, validate
 
 from api.answers import VerifyAnswer, verify_body
-from api.http.limits import check_row_count, check_text_limits
+from api.http.limits import body_limits
 from api.intake.bodies import read_body
 from api.render import (
     FAIL_ON_CHOICES,
@@ -83,10 +83,9 @@ class Verify(MethodView):
         if query.get("ruleset"):  # a bad name is reported before the body is read
             resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
-        check_text_limits(body, media_type)
         intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
-                           profile=query.get("profile"), profile_dir=settings().profile_dir)
-        check_row_count(intake.items)
+                           profile=query.get("profile"), profile_dir=settings().profile_dir,
+                           limits=body_limits())
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset),

@@ -101,7 +101,8 @@ def test_responses_are_never_sniffed_or_cached(auth_client: Any) -> None:
 
 
 def _serve_args(**given: Any) -> argparse.Namespace:
-    return argparse.Namespace(**{"bind": "127.0.0.1:8000", "workers": 1, "timeout": None, **given})
+    return argparse.Namespace(**{"bind": "127.0.0.1:8000", "workers": 1, "timeout": None,
+                                 "control_socket": None, **given})
 
 
 @pytest.mark.parametrize("bind", ["0.0.0.0:8000", "[::]:8000", "192.168.1.20:8000", "example.org:80"])

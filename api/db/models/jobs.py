@@ -1,7 +1,12 @@
 """Tables: organisations, jobs, circuits (current merged fields), field history, uploads.
 
 Invariants:
-- Every job belongs to an organisation; migration 0001 seeds the ``local`` one.
+- Every job belongs to an organisation; migration 0001 seeds the ``local`` one. An
+  organisation's ``slug`` is chosen once, explicitly (``ohmtally keys create --org``), and
+  is its identity; ``name`` is only shown (``api.http.keys``).
+- A job's id is random in 1 … 2**53 − 1 (:func:`new_job_id`, migration 0006): ids are
+  not a count, so a tenant's ids say nothing of anyone else's jobs, and every JSON reader
+  holds them exactly. Columns holding a job id are 64-bit (:data:`JOB_ID`).
 - ``circuits.fields`` holds the current merged record's fields as JSON, readings
   in their ``Reading.to_json()`` form, so ``engine.build_record`` rebuilds them
   unchanged. ``(job_id, board, circuit)`` is unique.
@@ -16,15 +21,35 @@ Invariants:
 
 from __future__ import annotations
 
+import secrets
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import JSON, ForeignKey, Index, LargeBinary, String, Text, UniqueConstraint
+from sqlalchemy import (
+    JSON,
+    BigInteger,
+    ForeignKey,
+    Index,
+    Integer,
+    LargeBinary,
+    String,
+    Text,
+    UniqueConstraint,
+)
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
 from api.db.models.base import Base, UtcDateTime, utcnow
 
-__all__ = ["Circuit", "FieldHistory", "Job", "Organisation", "Upload"]
+__all__ = ["JOB_ID", "MAX_JOB_ID", "Circuit", "FieldHistory", "Job", "Organisation", "Upload", "new_job_id"]
+
+MAX_JOB_ID = 2**53 - 1  # RFC 7493 §2.2: the integers every JSON reader holds exactly
+# BIGINT on PostgreSQL; on SQLite INTEGER, which is 64-bit already and keeps jobs.id the rowid
+JOB_ID = BigInteger().with_variant(Integer(), "sqlite")
+
+
+def new_job_id() -> int:
+    """A random job id in 1 … 2**53 − 1 (53 bits from the OS's CSPRNG)."""
+    return secrets.randbelow(MAX_JOB_ID) + 1
 
 
 class Organisation(Base):
@@ -38,8 +63,10 @@ class Organisation(Base):
 
 class Job(Base):
     __tablename__ = "jobs"
+    # GET /v1/jobs lists one organisation's jobs by creation time, then id (migration 0006)
+    __table_args__ = (Index("ix_jobs_org_created", "organisation_id", "created_at", "id"),)
 
-    id: Mapped[int] = mapped_column(primary_key=True)
+    id: Mapped[int] = mapped_column(JOB_ID, primary_key=True, autoincrement=False, default=new_job_id)
     organisation_id: Mapped[int] = mapped_column(ForeignKey("organisations.id"), index=True)
     reference: Mapped[str] = mapped_column(String(200), index=True)
     site: Mapped[str] = mapped_column(Text)
@@ -58,7 +85,7 @@ class Upload(Base):
                       Index("ix_uploads_job_sha256", "job_id", "sha256"))  # migration 0003
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
+    job_id: Mapped[int] = mapped_column(JOB_ID, ForeignKey("jobs.id"), index=True)
     content_type: Mapped[str] = mapped_column(String(200))
     adapter: Mapped[str | None] = mapped_column(String(100), default=None)
     profile: Mapped[str | None] = mapped_column(String(200), default=None)
@@ -77,7 +104,7 @@ class Circuit(Base):
     __table_args__ = (UniqueConstraint("job_id", "board", "circuit", name="uq_circuits_job_key"),)
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    job_id: Mapped[int] = mapped_column(ForeignKey("jobs.id"), index=True)
+    job_id: Mapped[int] = mapped_column(JOB_ID, ForeignKey("jobs.id"), index=True)
     board: Mapped[str] = mapped_column(String(200))
     circuit: Mapped[str] = mapped_column(String(200))
     fields: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
