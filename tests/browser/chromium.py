@@ -65,9 +65,12 @@ def ensure_chromium(run: Run = _run, is_root: Callable[[], bool] = lambda: os.ge
     if done.returncode != 0:  # a stale or empty package list: refresh it once and try again
         run([apt, "update", "-q"])
         done = run(install)
-    if _missing():
+    still = _missing()
+    if still:
         said = (done.stderr or done.stdout).strip().splitlines()[-3:]
-        return f"apt-get could not install {' '.join(PACKAGES)} (exit {done.returncode}): {' / '.join(said)}"
+        named = ", ".join(str(p) for p in still)
+        return (f"{named} still missing after `apt-get install {' '.join(PACKAGES)}` "
+                f"(exit {done.returncode}): {' / '.join(said)}")
     return None
 
 
