@@ -34,7 +34,7 @@ from api.errors import (
     problem_response,
     storage_full,
 )
-from api.http import auth, idempotency, limits, request_log
+from api.http import auth, compression, idempotency, limits, metrics, proxies, request_log
 from api.http.json_provider import OrjsonProvider
 from api.routes import BLUEPRINTS
 from api.schemas import json_types_attribute
@@ -139,6 +139,11 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.json = OrjsonProvider(app)  # one encoder for every answer (api.http.json_provider)
     app.extensions["ohmtally.settings"] = settings
     request_log.init_app(app, settings.log_level)
+    # Installed before every other step: the client's address from trusted proxies, then
+    # the metrics' latency and compression, whose after_request run after all the others'.
+    proxies.init_app(app, settings.trusted_proxies)
+    metrics.init_app(app)
+    compression.init_app(app)
     url = db.database_url_for(app.instance_path, settings.database_url)
     app.config["OHMTALLY_DATABASE_URL"] = url
     db.init_app(app, url)

@@ -63,6 +63,10 @@ SETTINGS: tuple[Setting, ...] = (
             "restarted (`serve --timeout` overrides)"),
     Setting("DUPLICATE_WINDOW_S", "600", "an exact re-post of a job's latest upload without an "
             "Idempotency-Key within this many seconds is answered as a duplicate, not merged"),
+    # Operations (api/README.md, "Operations").
+    Setting("TRUSTED_PROXIES", "0", "reverse proxies in front of the server that append to "
+            "X-Forwarded-For/-Proto/-Host (one nginx: 1); the client's address (rate limit, log) is "
+            "read from them. 0: the headers are ignored"),
     # Webhook secrets at rest and their rotation (api/webhooks/README.md).
     Setting("ENCRYPTION_KEY", "", "Fernet key(s), comma-separated, the first encrypting, that encrypt "
             "webhook signing secrets at rest; a weak or malformed key is refused at start-up. Empty: "
@@ -100,6 +104,7 @@ class Settings:
     rate_limit_storage: str
     request_timeout_s: int
     duplicate_window_s: int
+    trusted_proxies: int = 0
     encryption_keys: ServerKeys | None = None
     webhook_secret_overlap_s: int = 86400
     workers: int = 1
@@ -123,6 +128,16 @@ def _positive_int(name: str, text: str) -> int:
         raise SettingsError(f"OHMTALLY_{name} must be a whole number, not {text!r}") from None
     if value <= 0:
         raise SettingsError(f"OHMTALLY_{name} must be positive, not {value}")
+    return value
+
+
+def _count(name: str, text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise SettingsError(f"OHMTALLY_{name} must be a whole number, not {text!r}") from None
+    if value < 0:
+        raise SettingsError(f"OHMTALLY_{name} must be 0 or more, not {value}")
     return value
 
 
@@ -176,6 +191,7 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         rate_limit_storage=_env(env, over, "RATE_LIMIT_STORAGE").strip() or "memory://",
         request_timeout_s=_positive_int("REQUEST_TIMEOUT_S", _env(env, over, "REQUEST_TIMEOUT_S")),
         duplicate_window_s=_positive_int("DUPLICATE_WINDOW_S", _env(env, over, "DUPLICATE_WINDOW_S")),
+        trusted_proxies=_count("TRUSTED_PROXIES", _env(env, over, "TRUSTED_PROXIES")),
         encryption_keys=encryption_keys,
         webhook_secret_overlap_s=overlap_s,
         workers=_positive_int("WORKERS", _env(env, over, "WORKERS")),

@@ -47,7 +47,7 @@ __all__ = [
     "tenant",
 ]
 
-PUBLIC_PATHS = frozenset({"/v1/health", "/v1/openapi.json",
+PUBLIC_PATHS = frozenset({"/v1/health", "/v1/ready", "/v1/openapi.json",
                           "/v1/docs", "/v1/docs/swagger-ui.css", "/v1/docs/swagger-ui-bundle.js"})
 _REALM = 'Bearer realm="ohmtally"'
 _LAST_USED_STEP = timedelta(hours=1)  # last_used_at is kept to the hour: no write on every read

@@ -7,6 +7,7 @@ from flask_smorest import Blueprint
 from api.routes.catalogue import blp as catalogue
 from api.routes.docs import blp as docs
 from api.routes.jobs import blp as jobs
+from api.routes.operations import blp as operations
 from api.routes.readings import blp as readings
 from api.routes.sync import blp as sync
 from api.routes.verify import blp as verify
@@ -14,4 +15,4 @@ from api.routes.webhooks import blp as webhooks
 
 __all__ = ["BLUEPRINTS"]
 
-BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, verify, jobs, sync, readings, webhooks, docs)
+BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, operations, verify, jobs, sync, readings, webhooks, docs)

@@ -1,4 +1,4 @@
-"""What the server offers: health, rulesets (limits with sources), adapters and profiles."""
+"""What the server offers: health and readiness, rulesets (limits with sources), adapters and profiles."""
 
 from __future__ import annotations
 
@@ -10,6 +10,7 @@ from api.schemas.verdicts import RulesetRefSchema
 __all__ = [
     "AdapterListSchema",
     "HealthSchema",
+    "ReadySchema",
     "RulesetDetailSchema",
     "RulesetListSchema",
 ]
@@ -22,6 +23,26 @@ class HealthSchema(Schema):
     status = fields.String(required=True)
     version = fields.String(required=True)
     api = fields.String(required=True)
+
+
+class SchemaRevisionSchema(Schema):
+    class Meta:
+        unknown = RAISE
+
+    revision = fields.String(required=True, metadata={"description": "the database's migration revision"})
+    head = fields.String(required=True, metadata={"description": "the newest revision this build carries"})
+    serves_from = fields.String(required=True, allow_none=True, metadata={
+        "description": "the oldest code revision that can serve the database's schema (raised by "
+                       "contract migrations); null before it was first recorded"})
+
+
+class ReadySchema(Schema):
+    class Meta:
+        unknown = RAISE
+
+    status = fields.String(required=True, metadata={"description": "always `ready` (else a 503 problem)"})
+    version = fields.String(required=True)
+    schema = fields.Nested(SchemaRevisionSchema, required=True)
 
 
 class EntrySchema(Schema):
