@@ -80,8 +80,12 @@ def _control_socket(path: str | None) -> dict[str, Any]:
 
 
 def run(args: argparse.Namespace) -> int:
+    from api.ops.multiprocess import share_metrics_between_workers
+
+    share_metrics_between_workers()  # before api.app imports prometheus_client, which reads it once
     from api.app import create_app
     from api.db.schema import SchemaNotCurrent
+    from api.ops.agreement import HostsDisagree, check_agreement
     from api.settings import SettingsError, load_settings
     from api.webhooks import runner as webhook_hooks
 
@@ -102,8 +106,9 @@ def run(args: argparse.Namespace) -> int:
     # every worker's app knows how many share its rate limit (api.http.limits: memory:// divides it)
     factory = partial(create_app, {"OHMTALLY_WORKERS": str(args.workers)})
     try:
-        factory()  # fail here, once, with the message, rather than in every worker
-    except SchemaNotCurrent as exc:
+        # fail here, once, with the message, rather than in every worker; hosts' settings agree
+        check_agreement(factory(), close=True)
+    except (SchemaNotCurrent, HostsDisagree) as exc:
         print(f"ohmtally serve: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except SettingsError as exc:
