@@ -25,7 +25,7 @@ Invariants:
 - The sign and physics rules hold for every ruleset; the ranges and tolerances
   are ruleset data (section ``plausibility``), skipped where a user's ruleset
   has none.
-- :func:`judge` is pure and cheap; the view calls it once per field per circuit.
+- :func:`judge_record` is pure and cheap; the view calls it once per circuit.
 """
 
 from __future__ import annotations
@@ -41,7 +41,7 @@ from .records import CircuitRecord
 from .results import CheckResult, Outcome
 from .ruleset import Entry, Ruleset
 
-__all__ = ["JUDGED", "RULES", "Problem", "Rule", "Withheld", "judge", "usable"]
+__all__ = ["COMBINED", "JUDGED", "RULES", "Problem", "Rule", "Withheld", "judge", "judge_record", "usable"]
 
 SECTION = "plausibility"
 
@@ -265,6 +265,8 @@ _RULES: dict[str, Rule] = {
     "ra_ohm": _tt_loop,
 }
 JUDGED: frozenset[str] = frozenset(_RULES)
+#: Fields whose ruleset default is judged too: it can clash with a value the record gives.
+COMBINED: frozenset[str] = frozenset({"test_temp_c", "insulation_temp_c"})
 #: field → its rule, for the circuit view's inlined look-up (judge() is the same, with the rejected case)
 RULES: Mapping[str, Rule] = _RULES
 
@@ -279,6 +281,27 @@ def judge(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], 
         return Problem(field=name, shown=text, rejected=True, reason="was rejected at intake")
     rule = _RULES.get(name)
     return None if rule is None else rule(record, rules, defaults, name, value)
+
+
+def judge_record(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry]) -> dict[str, Problem]:
+    """Every field of ``record`` that must not be used, with why: rejected ones and impossible ones."""
+    found: dict[str, Problem] = {}
+    for name, rule in _RULES.items():
+        value = getattr(record, name)
+        if value is not None:
+            problem = rule(record, rules, defaults, name, value)
+            if problem is not None:
+                found[name] = problem
+    for name in COMBINED:  # a default can clash with the record's other value (test vs maximum temperature)
+        entry = defaults.get(name)
+        if getattr(record, name) is None and entry is not None and entry.value is not None:
+            problem = _RULES[name](record, rules, defaults, name, entry.value)
+            if problem is not None:
+                found[name] = problem
+    for name, text in record.rejected.items():
+        if getattr(record, name) is None:
+            found[name] = Problem(field=name, shown=text, rejected=True, reason="was rejected at intake")
+    return found
 
 
 def usable(record: CircuitRecord, rules: Ruleset, name: str) -> bool:

@@ -141,7 +141,7 @@ def _against_ze(view: CircuitView, ctx: Context, zs: Reading, r1r2: float, basis
     if not isinstance(chain, FeederProblem):
         for record in chain:
             ref = f"{record.board}/{record.circuit}"
-            reading = ctx.view(record).reading("r1_r2_ohm")  # judged like this circuit's own
+            reading = ctx.other_view(record).reading("r1_r2_ohm")  # judged like this circuit's own
             if reading is None or not reading.exact or reading.value is None:
                 yield incomplete(CHECK, [f"{ref} r1_r2_ohm"], basis=basis,
                                  detail=f"needs the exact R1+R2 of feeder {ref}, part of this loop")
