@@ -2,13 +2,15 @@
 
 Invariants:
 - ``create_app(config)`` reads ``OHMTALLY_*`` settings (``config`` wins) and
-  refuses to build an app on a database that is not migrated.
+  refuses to build an app on a database whose schema it cannot serve (``api.db.schema``).
 - Every error, ours (:class:`ApiError`), Flask's/werkzeug's (404, 405, 413),
   webargs'/marshmallow's (422) or an unexpected exception (500, logged),
   leaves as ``application/problem+json`` from :meth:`OhmtallyApi.handle_http_exception`
   or :func:`_api_error`; no traceback reaches a client.
 - Every request passes the middleware of :mod:`api.http` in one order: the request
-  log (a request id on every answer), the API key and its organisation
+  log (a request id on every answer), the client's address from trusted proxies,
+  metrics and compression (their ``after_request`` steps run after every other's),
+  the API key and its organisation
   (``OHMTALLY_AUTH=on`` fails closed), the rate limit, Idempotency-Key.
 - Every JSON answer is encoded by one provider (:mod:`api.http.json_provider`).
 """
