@@ -157,8 +157,7 @@ def _limits(rules: Ruleset) -> Mapping[str, tuple[float, str]]:
 
     Kept by the identity of the ruleset's section mapping, which is held beside the parse so
     the id cannot be reused while cached (as :mod:`engine.conductors` keeps its tables): every
-    circuit asks for the same few figures, and looking them up per field was a tenth of the
-    cost of judging (tests/bench).
+    circuit asks for the same few figures.
     """
     section = rules.sections.get(SECTION, _NO_SECTION)
     hit = _PARSED.get(id(section))
