@@ -55,7 +55,7 @@ ALGORITHMS = ("zstd", "br", "gzip")  # preference when the client rates them equ
 MIN_SIZE = 1400  # bytes: a body below one TCP segment (MSS 1460) gains no round trip compressed
 MEDIA_TYPES = (
     "application/json", "application/xml", "application/x-ndjson",
-    "text/csv", "text/html", "text/plain", "text/css", "application/javascript",
+    "text/csv", "text/html", "text/plain", "text/css", "application/javascript", "text/javascript",
 )
 _LEVELS = {"COMPRESS_ZSTD_LEVEL": 1, "COMPRESS_BR_LEVEL": 4, "COMPRESS_LEVEL": 5}
 _HELD = "ohmtally_if_none_match"  # g: the coded tags the client sent, plain tag → coded tag

@@ -50,8 +50,9 @@ class VerifyQuerySchema(ReadingsQuerySchema):
     """/verify only: the output format and the pipeline policy (the renderers of api.render)."""
 
     format = fields.String(validate=validate.OneOf(FORMATS),
-                           metadata={"description": "json (default), junit, csv or table: the bytes "
-                                                    "`ohmtally verify --format` prints"})
+                           metadata={"description": "json (default), junit, csv, table or html (a page "
+                                                    "a person reads): the bytes `ohmtally verify "
+                                                    "--format` prints"})
     fail_on = fields.String(validate=validate.OneOf(FAIL_ON_CHOICES),
                             metadata={"description": "least severe outcome that fails (default fail)"})
     warn_on = fields.String(validate=validate.OneOf(WARN_ON_CHOICES),
@@ -78,7 +79,7 @@ class Verify(MethodView):
 
         JSON bodies are all or nothing (422 with a pointer per bad field); CSV,
         lines and NDJSON take the good rows and list the bad ones in `rejected`.
-        `?format=junit|csv|table` renders the same body for a pipeline or a person.
+        `?format=junit|csv|table|html` renders the same body for a pipeline or a person.
         """
         if query.get("ruleset"):  # a bad name is reported before the body is read
             resolve_ruleset(query["ruleset"])

@@ -123,7 +123,7 @@ class CircuitsQuerySchema(_CircuitPageQuery):
 
 class VerdictsQuerySchema(_CircuitPageQuery):
     format = fields.String(validate=validate.OneOf(FORMATS), metadata={
-        "description": "json (default), junit, csv or table: the page rendered as `ohmtally verify "
+        "description": "json (default), junit, csv, table or html: the page rendered as `ohmtally verify "
                        "--format` renders it"})
 
 

@@ -23,9 +23,9 @@ BODY_CIRCUITS = [{"board": "DB1", "circuit": "1", "polarity_ok": False},
                  {"board": "DB\x1b[2J1", "circuit": "2"}]
 
 
-def test_formats_and_media_types_cover_the_four_outputs() -> None:
-    """FORMATS lists table/json/junit/csv and each has a media type for the API."""
-    assert set(FORMATS) == {"table", "json", "junit", "csv"} == set(MEDIA_TYPES)
+def test_formats_and_media_types_cover_the_five_outputs() -> None:
+    """FORMATS lists table/json/junit/csv/html and each has a media type for the API."""
+    assert set(FORMATS) == {"table", "json", "junit", "csv", "html"} == set(MEDIA_TYPES)
 
 
 def test_plain_table_has_no_escape_codes_and_escapes_control_characters() -> None:

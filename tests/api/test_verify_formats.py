@@ -121,10 +121,11 @@ def test_bad_format_or_policy_is_a_422_naming_the_parameter(client: FlaskClient,
 
 
 def test_formats_are_in_the_openapi_document(client: FlaskClient) -> None:
-    """The 200 of POST /v1/verify documents JSON, XML, CSV and text, and the format parameter's choices."""
+    """The 200 of POST /v1/verify documents JSON, XML, CSV, text and HTML, and the format parameter's
+    choices."""
     spec = client.get("/v1/openapi.json").get_json()
     operation = spec["paths"]["/v1/verify"]["post"]
     assert set(operation["responses"]["200"]["content"]) == {
-        "application/json", "application/xml", "text/csv", "text/plain"}
+        "application/json", "application/xml", "text/csv", "text/plain", "text/html"}
     param = next(p for p in operation["parameters"] if p["name"] == "format")
-    assert set(param["schema"]["enum"]) == {"json", "junit", "csv", "table"}
+    assert set(param["schema"]["enum"]) == {"json", "junit", "csv", "table", "html"}
