@@ -80,6 +80,9 @@ SETTINGS: tuple[Setting, ...] = (
             "RATE_LIMIT_STORAGE=memory:// each worker counts alone, so each allows RATE_LIMIT / WORKERS"),
     Setting("RATE_LIMIT_PREFIX", "ohmtally", "namespace of the rate counters in a shared store: each "
             "deployment (database) sharing one Redis needs its own"),
+    Setting("MAX_VALUES", "100000", "most field values (readings, ratings, text) in one body (413 "
+            "above): it bounds how long one post holds SQLite's writer lock and a worker (README.md, "
+            "\"Limits\")"),
 )
 
 
@@ -109,6 +112,7 @@ class Settings:
     webhook_secret_overlap_s: int = 86400
     workers: int = 1
     rate_limit_prefix: str = "ohmtally"
+    max_values: int = 100000
 
 
 def _env(environ: Mapping[str, str], overrides: Mapping[str, Any], name: str) -> str:
@@ -196,4 +200,5 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         webhook_secret_overlap_s=overlap_s,
         workers=_positive_int("WORKERS", _env(env, over, "WORKERS")),
         rate_limit_prefix=_env(env, over, "RATE_LIMIT_PREFIX").strip() or "ohmtally",
+        max_values=_positive_int("MAX_VALUES", _env(env, over, "MAX_VALUES")),
     )

@@ -58,7 +58,7 @@ def body_limits() -> BodyLimits:
     """The request's limits, from the app's settings."""
     settings: Settings = current_app.extensions["ohmtally.settings"]
     return BodyLimits(max_bytes=settings.max_upload_bytes, max_rows=settings.max_rows,
-                      max_line_bytes=settings.max_line_bytes)
+                      max_line_bytes=settings.max_line_bytes, max_values=settings.max_values)
 
 
 def divided_limit(limit: str, workers: int) -> str:

@@ -175,10 +175,14 @@ def _read_json(body: bytes, limits: BodyLimits) -> Intake:
                        f"{len(rejected)} field(s) of the circuits could not be taken; nothing was "
                        "verified or merged (JSON bodies are all or nothing)", errors=rejected)
     intake = Intake(ruleset=loaded.get("ruleset"), built=records)
+    count = 0
     for index, record in enumerate(records):
         values = record_to_dict(record)
         values.pop("board")
         values.pop("circuit")
+        count += len(values)
+        if count > limits.max_values:
+            raise _too_many_values(limits.max_values, {"pointer": f"/circuits/{index}"})
         intake.items.append(Item(record.board, record.circuit, values, f"/circuits/{index}"))
     return intake
 
@@ -218,6 +222,12 @@ def adapter_problem(exc: Exception, *, parameter: str) -> ApiError:
     return ApiError(422, code, message, extra=extra,
                     errors=[{"parameter": "profile", "code": code, "reason": message,
                              **({"pointer": str(details["pointer"])} if "pointer" in details else {})}])
+
+
+def _too_many_values(limit: int, where: dict[str, Any]) -> ApiError:
+    return ApiError(413, "too_many_values", f"the body carries more than {limit} field values "
+                    "(OHMTALLY_MAX_VALUES), which one post may merge; split it into several posts",
+                    errors=[{**where, "code": "too_many_values", "reason": f"more than {limit} values"}])
 
 
 def _too_many_rows(count: int | None, limit: int, where: dict[str, Any]) -> ApiError:
@@ -289,6 +299,7 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
         readable = body
     options = AdapterOptions(profile=profile, profile_dir=profile_dir, encoding=encoding)
     header_errors: list[Any] = []
+    count = 0
     try:
         for result in adapter.read(io.BytesIO(readable), options):
             if isinstance(result, Fragment):
@@ -300,6 +311,9 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
                     raise _too_many_rows(None, limits.max_rows, {"line": result.line})
                 values = {k: _json_value(v) for k, v in result.fields.items()
                           if k not in ("board", "circuit") and v is not None}
+                count += len(values)
+                if count > limits.max_values:
+                    raise _too_many_values(limits.max_values, {"line": result.line})
                 intake.items.append(Item(result.board, result.circuit, values, f"line {result.line}"))
             elif isinstance(result, LineError):
                 intake.rejected.append(result.as_dict())

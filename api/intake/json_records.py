@@ -32,7 +32,7 @@ from engine import FIELDS
 
 __all__ = ["screen_json_records"]
 
-_LINE = re.compile(rb"[^\r\n]*(?:\r\n|\r|\n|$)")
+_CONTENT = re.compile(rb"[^\r\n]+")
 _FIRST_KEY = re.compile(rb'^(?:\xef\xbb\xbf)?[ \t\r\n]*\{[ \t\r\n]*("(?:[^"\\]|\\.)*")')
 
 
@@ -77,22 +77,55 @@ def screen_json_records(body: bytes, limits: BodyLimits) -> tuple[bytes, list[di
 
 
 def _screen_lines(body: bytes, limits: BodyLimits, *, deep: bool) -> tuple[bytes, list[dict[str, Any]]]:
+    lines: list[tuple[int, int, int]] = []  # (line number, start, end) of each line with content
+    number, position = 1, 0
+    for match in _CONTENT.finditer(body):
+        start, end = match.span()
+        number += (body.count(b"\n", position, start) + body.count(b"\r", position, start)
+                   - body.count(b"\r\n", position, start))  # CR, LF and CRLF each end a line
+        position = start
+        if body[start:end].strip():
+            lines.append((number, start, end))
+    found = None if deep else _screen_at_once(body, lines, limits)
+    if found is None:
+        found = {number: _line_problems(body[start:end], limits, deep=deep) for number, start, end in lines}
+    if not any(found.values()):
+        return body, []
     kept = bytearray(body)
     rejected: list[dict[str, Any]] = []
-    for number, match in enumerate(_LINE.finditer(body), start=1):
-        start, end = match.span()
-        line = body[start:end].rstrip(b"\r\n")
-        if not line.strip() or match.start() == len(body):
-            continue
-        try:
-            parsed = parse_strict(line, line.decode("utf-8-sig", "replace"), max_rows=limits.max_rows,
-                                  prechecked=not deep)
-            problems = parsed.problems
-        except JsonSyntaxError:
-            hazard = parser_hazard(line)
-            problems = [{"pointer": "", "code": "invalid_json", "reason": hazard}] if hazard else []
+    for number, start, end in lines:
+        problems = found.get(number)
         if problems:
-            for problem in problems:
-                rejected.append({**problem, "line": number})
-            kept[start:start + len(line)] = b" " * len(line)
+            rejected.extend({**problem, "line": number} for problem in problems)
+            kept[start:end] = b" " * (end - start)
     return bytes(kept), rejected
+
+
+def _screen_at_once(body: bytes, lines: list[tuple[int, int, int]],
+                    limits: BodyLimits) -> dict[int, list[dict[str, Any]]] | None:
+    """Every line parsed in one call, as the elements of one array (C-speed; ~20 µs a line one
+    by one); ``None`` when that cannot tell the lines apart (a malformed line): then line by line."""
+    joined = b"[" + b",".join(body[start:end] for _number, start, end in lines) + b"]"
+    try:
+        parsed = parse_strict(joined, joined.decode("utf-8", "replace").replace("\ufeff", " ", 1),
+                              max_rows=limits.max_rows, prechecked=True)
+    except JsonSyntaxError:
+        return None
+    if not isinstance(parsed.value, list) or len(parsed.value) != len(lines):
+        return None
+    found: dict[int, list[dict[str, Any]]] = {}
+    for problem in parsed.problems:
+        index, _slash, rest = problem["pointer"].lstrip("/").partition("/")
+        number = lines[int(index)][0]
+        found.setdefault(number, []).append({**problem, "pointer": "/" + rest if rest else ""})
+    return found
+
+
+def _line_problems(line: bytes, limits: BodyLimits, *, deep: bool) -> list[dict[str, Any]]:
+    try:
+        parsed = parse_strict(line, line.decode("utf-8-sig", "replace"), max_rows=limits.max_rows,
+                              prechecked=not deep)
+    except JsonSyntaxError:
+        hazard = parser_hazard(line)
+        return [{"pointer": "", "code": "invalid_json", "reason": hazard}] if hazard else []
+    return parsed.problems

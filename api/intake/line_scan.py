@@ -29,11 +29,13 @@ _LINE_END = re.compile(rb"\r\n|\r|\n")
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class BodyLimits:
-    """What one body may hold (``OHMTALLY_MAX_UPLOAD_BYTES``, ``_MAX_ROWS``, ``_MAX_LINE_BYTES``)."""
+    """What one body may hold (``OHMTALLY_MAX_UPLOAD_BYTES``, ``_MAX_ROWS``, ``_MAX_LINE_BYTES``,
+    ``_MAX_VALUES``: field values across all its rows, which bound the work of one post)."""
 
     max_bytes: int
     max_rows: int
     max_line_bytes: int
+    max_values: int = 100_000
 
 
 def line_count(body: bytes) -> int:

@@ -176,3 +176,22 @@ def test_long_adapter_profile_and_charset_names_are_kept_not_a_500(client: Flask
     charset = client.post(f"/v1/jobs/{job_id}/readings", data=CSV_HEADER + _rows(1),
                           content_type="text/csv; charset=" + "u" * 300)
     assert charset.status_code == 415 and charset.get_json()["upload"]["id"]
+
+
+def test_field_values_are_capped_per_body_in_every_format(db_url: str,
+                                                          app_factory: Callable[..., Flask]) -> None:
+    """MAX_VALUES=10 (it bounds one post's merge, verification and writer lock): four CSV rows of
+    three values → 413 too_many_values at line 5, kept; JSON circuits → the pointer of the circuit."""
+    client = app_factory(db_url, OHMTALLY_MAX_VALUES="10").test_client()
+    job_id = _job(client)
+    body = b"board,circuit,zs_ohm,r1_r2_ohm,ir_le_mohm\n" + b"".join(
+        b"DB1,%d,0.41,0.3,200\n" % n for n in range(4))
+    answer = client.post(f"/v1/jobs/{job_id}/readings", data=body, content_type="text/csv")
+    assert answer.status_code == 413 and answer.get_json()["code"] == "too_many_values"
+    assert answer.get_json()["errors"][0]["line"] == 5 and answer.get_json()["upload"]["id"]
+    circuits = [{"board": "DB1", "circuit": str(n), "zs_ohm": 0.4, "r1_r2_ohm": 0.3, "ir_le_mohm": 200}
+                for n in range(4)]
+    refused = client.post("/v1/verify", json={"circuits": circuits})
+    assert refused.status_code == 413 and refused.get_json()["errors"][0]["pointer"] == "/circuits/3"
+    assert client.post("/v1/verify", json={"circuits": circuits[:3]}).status_code == 200
+    assert client.get(f"/v1/jobs/{job_id}/circuits").get_json()["circuits"] == []
