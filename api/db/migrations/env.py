@@ -10,6 +10,7 @@ from __future__ import annotations
 from alembic import context
 from sqlalchemy import create_engine, pool
 
+import api.db.schema  # noqa: F401  (puts deployment_facts on the metadata, so autogenerate keeps it)
 from api.db.models import Base
 
 config = context.config
