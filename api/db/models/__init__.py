@@ -11,19 +11,24 @@ from __future__ import annotations
 from .auth import SCOPES, ApiKey, IdempotencyRecord
 from .base import Base, UtcDateTime, utcnow
 from .jobs import Circuit, FieldHistory, Job, Organisation, Upload
+from .site import BOARD_SCOPE, INSTALLATION_SCOPE, FactHistory, SiteFacts
 from .webhooks import DELIVERY_STATUSES, EVENT_TYPES, WebhookDelivery, WebhookEvent, WebhookSubscription
 
 __all__ = [
+    "BOARD_SCOPE",
     "DELIVERY_STATUSES",
     "EVENT_TYPES",
+    "INSTALLATION_SCOPE",
     "SCOPES",
     "ApiKey",
     "Base",
     "Circuit",
+    "FactHistory",
     "FieldHistory",
     "IdempotencyRecord",
     "Job",
     "Organisation",
+    "SiteFacts",
     "Upload",
     "UtcDateTime",
     "WebhookDelivery",

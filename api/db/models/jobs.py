@@ -96,6 +96,8 @@ class Upload(Base):
     status: Mapped[str] = mapped_column(String(20))  # merged | rejected
     accepted: Mapped[int] = mapped_column(default=0)
     rejected: Mapped[list[dict[str, Any]]] = mapped_column(JSON, default=list)
+    # names read as nothing (migration 0008; null on uploads from before it)
+    warnings: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON, default=list)
     idempotency_key: Mapped[str | None] = mapped_column(String(200), default=None)  # the client's, if sent
 
 
