@@ -6,7 +6,10 @@ Invariants (every adapter keeps them; tests check the built-ins):
 - Every input line is accounted for exactly once: as one :class:`Fragment`,
   one :class:`LineError` or one :class:`Skipped` (blank, comment, header,
   context line). A row with one bad cell yields its good cells as a fragment
-  *and* a :class:`LineError` per bad cell (the fragment counts for the line).
+  *and* a :class:`LineError` per bad cell (the fragment counts for the line);
+  the fragment names each refused cell in ``rejected`` (field → the text
+  refused), so the record remembers it: a refused value is never replaced by
+  a default.
 - Every column and key is accounted for too: a name that is read as no field
   (unknown, ambiguous, a second column for a field already read, a column a
   profile leaves out) is an :class:`InputWarning` right after the result of
@@ -54,12 +57,19 @@ class AdapterError(Exception):
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Fragment:
-    """Some fields of one circuit record, from one input line (or row)."""
+    """Some fields of one circuit record, from one input line (or row).
+
+    ``rejected`` names the fields whose cell on this line was refused, with the
+    text refused (each also a :class:`LineError`), so the record remembers the
+    refusal and no check takes a default in its place; a field is in
+    ``fields`` or in ``rejected``, never both.
+    """
 
     board: str
     circuit: str
     fields: Mapping[str, Any]  # field name -> typed value (Reading, float, str, bool)
     line: int
+    rejected: Mapping[str, str] = field(default_factory=dict)  # field name -> the text refused
 
     @property
     def key(self) -> tuple[str, str]:

@@ -15,6 +15,10 @@ Invariants (beyond those of :mod:`adapters.base`):
 - A header cell read as no field (unknown, ambiguous, a second column for one
   field, left out by the profile) is a warning on the header line, once: the
   columns that are read are still read on every row.
+- A refused cell is an error and an entry in the row's ``Fragment.rejected``;
+  a profile's default fills in only fields the row neither gave nor refused.
+  A ``rejected`` column (wide) or test (long) carries refused values back in
+  from our neutral CSV (:mod:`adapters.rejections`).
 """
 
 from __future__ import annotations
@@ -26,13 +30,14 @@ from typing import IO, Any, ClassVar
 
 from engine import EngineError, coerce_field
 
-from .aliases import resolve_label
+from .aliases import fold, resolve_label
 from .base import AdapterError, AdapterOptions, Fragment, LineError, Result, Skipped
 from .cells import CellParser, CellProblem
 from .csv_layout import Layout, detect_decimal_comma, long_test, plan_layout, sniff_delimiter, split_cells
 from .encoding import DecodedLine, checked_encoding, detect_encoding_guess, iter_decoded_lines, read_sample
 from .identifiers import key_problem
 from .profiles import CsvProfile, get_profile
+from .rejections import REJECTED_LABEL, parse_rejected
 
 __all__ = ["CsvAdapter"]
 
@@ -190,7 +195,8 @@ class _Reader:
         if bad_key is not None:
             yield bad_key
             return
-        fields: dict[str, Any] = dict(self.defaults)
+        fields: dict[str, Any] = {}  # the row's own values; the profile's defaults fill in after
+        rejected: dict[str, str] = {}
         errors: list[LineError] = []
         if layout.kind == "wide":
             for index, name, parser in layout.columns:
@@ -205,22 +211,27 @@ class _Reader:
                 if type(value) is CellProblem:
                     errors.append(LineError(line=number, code="bad_value", field=name,
                                             column=self.header[index], text=value.text, reason=value.reason))
+                    rejected[name] = value.text if value.text is not None else raw
                 else:
                     fields[name] = value
+            if layout.rejected is not None and layout.rejected < count and cells[layout.rejected].strip():
+                errors.extend(self._carried(number, cells[layout.rejected], self.header[layout.rejected],
+                                            fields, rejected))
             extra = [c for c in cells[layout.width:] if c.strip()]
             if extra:
                 errors.append(LineError(
                     line=number, code="extra_cells", text=self.delimiter.join(extra)[:200],
                     reason=f"{len(extra)} cell(s) beyond the header's {layout.width} columns"))
         else:
-            outcome = self._long(number, cells, fields)
-            if isinstance(outcome, LineError):
-                errors.append(outcome)
-            elif outcome == "no reading" and not errors:
+            outcome = self._long(number, cells, fields, rejected, errors)
+            if outcome == "no reading" and not errors:
                 yield Skipped(line=number, reason="no reading")
                 return
-        if fields or not errors:
-            yield Fragment(board=board, circuit=circuit, fields=fields, line=number)
+        for name, value in self.defaults.items():  # a default fills in where the row gave nothing
+            if name not in fields and name not in rejected:
+                fields[name] = value
+        if fields or rejected or not errors:
+            yield Fragment(board=board, circuit=circuit, fields=fields, line=number, rejected=rejected)
         yield from errors
 
     def _key_error(self, number: int, board: str, circuit: str) -> LineError | None:
@@ -244,18 +255,37 @@ class _Reader:
                            "(charset, profile encoding) or correct the line")
         return None
 
-    def _long(self, number: int, cells: list[str], fields: dict[str, Any]) -> LineError | str:
+    def _carried(self, number: int, text: str, column: str, fields: dict[str, Any],
+                 rejected: dict[str, str]) -> list[LineError]:
+        """Refused values a neutral CSV carries: remembered unless this row's own cell gave or refused
+        the field (a profile's default gives way to them, as to a refused cell)."""
+        taken, problems = parse_rejected(text)
+        for name, refused in taken.items():
+            if name not in fields and name not in rejected:
+                rejected[name] = refused
+        return [LineError(line=number, code="bad_value", field=REJECTED_LABEL, column=column, text=bad,
+                          reason=why) for bad, why in problems]
+
+    def _long(self, number: int, cells: list[str], fields: dict[str, Any], rejected: dict[str, str],
+              errors: list[LineError]) -> str:
+        """One long-layout row into ``fields`` / ``rejected`` / ``errors``; "no reading" if it has none."""
         layout = self.layout
         assert layout is not None
         count = len(cells)
         label = cells[layout.test].strip() if layout.test < count else ""
+        if label and fold(label) == REJECTED_LABEL:
+            raw = cells[layout.value].strip() if layout.value < count else ""
+            if raw:
+                errors.extend(self._carried(number, raw, self.header[layout.value], fields, rejected))
+            return "ok" if rejected else "no reading"
         test = long_test(layout, label) if label else None
         if test is None:
             known = resolve_label(label) if label else None
             why = (f"{label!r} {known.why} (one of {', '.join(known.fields)}): name the field instead"
                    if known is not None and known.ambiguous else f"{label!r} names no test we know")
-            return LineError(line=number, code="unknown_test", column=self.header[layout.test],
-                             text=label, reason=why if label else "the row names no test")
+            errors.append(LineError(line=number, code="unknown_test", column=self.header[layout.test],
+                                    text=label, reason=why if label else "the row names no test"))
+            return "error"
         raw = cells[layout.value].strip() if layout.value < count else ""
         unit = cells[layout.unit].strip() if layout.unit is not None and layout.unit < count else ""
         key = (test.field, test.scale)
@@ -267,7 +297,10 @@ class _Reader:
         if value is None:
             return "no reading"
         if type(value) is CellProblem:
-            return LineError(line=number, code="bad_value", field=test.field,
-                             column=self.header[layout.value], text=value.text, reason=value.reason)
+            rejected[test.field] = f"{raw} {unit}" if unit else raw  # as the row wrote it, unit and all
+            errors.append(LineError(line=number, code="bad_value", field=test.field,
+                                    column=self.header[layout.value], text=value.text, reason=value.reason))
+            return "error"
         fields[test.field] = value
         return "ok"
+

@@ -28,6 +28,7 @@ from .base import InputWarning
 from .cells import CellParser
 from .name_notes import name_warning
 from .profiles import ColumnSpec, CsvProfile
+from .rejections import REJECTED_LABEL
 
 __all__ = [
     "Layout",
@@ -68,6 +69,7 @@ class Layout:
     tests: dict[str, LongTest] = field(default_factory=dict)
     width: int = 0
     notes: list[InputWarning] = field(default_factory=list)  # line 0: the adapter sets the header's
+    rejected: int | None = None  # wide: the column carrying refused values (adapters.rejections)
 
 
 def sniff_delimiter(sample_lines: list[str], declared: str | None) -> str:
@@ -122,6 +124,7 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
     wide: list[tuple[int, str, CellParser]] = []
     keys: dict[str, int] = {}
     notes: list[InputWarning] = []
+    rejected_column: int | None = None
     for index, cell in enumerate(header):
         bare, header_unit = split_header(cell)
         spec = mapped.get(fold(cell)) or mapped.get(fold(bare))
@@ -129,6 +132,14 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
             # the profile's unit, else the one written in the header ("Earth Loop (Ω)")
             name, scale = spec.field, spec.scale
             unit = spec.unit or (header_unit if fold(cell) not in mapped else None)
+        elif fold(cell) == REJECTED_LABEL and not only_mapped:
+            if rejected_column is None:
+                rejected_column = index
+            else:
+                notes.append(_note("duplicate_column", cell.strip(),
+                                   f"{cell.strip()!r} is a second column of refused values: its values "
+                                   "are not read"))
+            continue
         elif only_mapped:
             if cell.strip():
                 named = profile.name if profile else ""
@@ -170,7 +181,7 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
     if "board" not in keys and not default_board:
         return None, "no column names the board (DB, Board …) and the profile gives no default board"
     layout = Layout(kind="wide", board=keys.get("board"), circuit=keys["circuit"], width=len(header),
-                    notes=notes)
+                    notes=notes, rejected=rejected_column)
     wants_long = (profile.layout == "long") if profile and profile.layout else (
         "test" in roles and "value" in roles and not wide)
     if wants_long:
@@ -184,8 +195,14 @@ def plan_layout(header: list[str], profile: CsvProfile | None, decimal_comma: bo
                                f"{header[i].strip()!r} names {name}, but a long layout takes readings from "
                                "its test and value columns only: its values are not read", name)
                          for i, name, _ in wide]
+        if rejected_column is not None:
+            layout.rejected = None
+            cell = header[rejected_column].strip()
+            layout.notes.append(_note("ignored_column", cell,
+                                      f"{cell!r} carries refused values, but a long layout takes them from "
+                                      "rows whose test is 'rejected': its values are not read"))
         return layout, ""
-    if not wide and profile is None:
+    if not wide and profile is None and rejected_column is None:
         return None, "no column names a reading or design value"
     layout.columns = wide
     return layout, ""

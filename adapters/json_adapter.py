@@ -14,7 +14,11 @@ Invariants (beyond those of :mod:`adapters.base`):
   record spans many lines): the ``line`` is where the record starts.
 - A member that names no field (unknown or ambiguous) is a warning, once per
   input, as a CSV column or a line key would be; the record's other members
-  are taken.
+  are taken. Two members naming one field (``zs`` and ``Zs``) are a
+  ``duplicate_field`` error: neither value is taken.
+- A refused member is remembered in ``Fragment.rejected`` (field → text), and
+  a record's own ``rejected`` member (what :func:`engine.record_to_dict`
+  writes) is carried in the same way, each entry checked.
 - Text is UTF-8 (RFC 8259 §8.1), or UTF-16 found by its byte-order mark or its
   zero bytes. A string holding bytes that did not decode (U+FFFD) or a lone
   surrogate (``"\ud800"``) is an error for its member; as a board or circuit
@@ -23,8 +27,12 @@ Invariants (beyond those of :mod:`adapters.base`):
 
 from __future__ import annotations
 
+import json
 from collections.abc import Iterator
 from typing import IO, Any, ClassVar
+
+from engine import FIELDS
+from engine.records import REJECTED_KEY
 
 from .aliases import resolve_label
 from .base import AdapterOptions, Fragment, InputWarning, LineError, Result
@@ -99,14 +107,19 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
                         reason=f"the record has {len(value)} members, more than {max_columns}")
         return
     fields: dict[str, Any] = {}
+    rejected: dict[str, str] = {}
     errors: list[LineError] = []
     notes: list[InputWarning] = []
     board = circuit = None
+    seen: dict[str, str] = {}  # field -> the member that gave it
     for key, raw in value.items():
         where = f"{pointer}/{_escape(key)}"
         if _bad_text(key):
             errors.append(LineError(line=line, pointer=pointer, code="bad_encoding",
                                     reason=f"a member name {_bad_text(key)}"))
+            continue
+        if key == REJECTED_KEY:  # what a stored record carries (engine.record_to_dict)
+            errors.extend(_carried_rejections(raw, rejected, line, where))
             continue
         label = resolve_label(key)
         name, unit = label.field, label.unit
@@ -115,10 +128,24 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
             if note is not None:
                 notes.append(note)
             continue
+        if name in seen:
+            errors.append(LineError(line=line, pointer=where, field=name, code="duplicate_field", column=key,
+                                    reason=f"{name} is given twice in the record ({seen[name]!r} and "
+                                           f"{key!r}); neither value is taken"))
+            fields.pop(name, None)
+            if name not in ("board", "circuit"):
+                rejected[name] = f"{rejected.get(name, _shown(value[seen[name]]))} | {_shown(raw)}"
+            else:
+                board = None if name == "board" else board
+                circuit = None if name == "circuit" else circuit
+            continue
+        seen[name] = key
         bad_text = _bad_text(raw)
         if bad_text is not None:
             errors.append(LineError(line=line, pointer=where, field=name, code="bad_encoding",
                                     reason=f"{name} {bad_text}"))
+            if name not in ("board", "circuit"):
+                rejected[name] = _shown(raw)
             continue
         if name in ("board", "circuit"):
             text = _key(raw)
@@ -144,8 +171,11 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
         if type(typed) is CellProblem:
             errors.append(LineError(line=line, pointer=where, field=name, code="bad_value",
                                     text=typed.text, reason=typed.reason))
+            rejected[name] = typed.text if typed.text is not None else _shown(raw)
         else:
             fields[name] = typed
+    for name in [n for n in rejected if n in fields]:
+        del rejected[name]  # a carried rejection the record's own valid value clears (as build_record)
     if board is None or circuit is None:
         missing = "board" if board is None else "circuit"
         if not any(e.field == missing for e in errors):
@@ -154,7 +184,32 @@ def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser],
         yield from errors
         yield from notes
         return
-    if fields or not errors:
-        yield Fragment(board=board, circuit=circuit, fields=fields, line=line)
+    if fields or rejected or not errors:
+        yield Fragment(board=board, circuit=circuit, fields=fields, line=line, rejected=rejected)
     yield from errors
     yield from notes
+
+
+def _shown(raw: Any) -> str:
+    """A refused member's value as text that any JSON or database can hold (no lone surrogate)."""
+    text = raw if isinstance(raw, str) else json.dumps(raw, ensure_ascii=False)
+    text = text.encode("utf-8", "backslashreplace").decode("utf-8")
+    return text if len(text) <= 200 else text[:200] + "…"
+
+
+def _carried_rejections(raw: Any, rejected: dict[str, str], line: int, where: str) -> list[LineError]:
+    """A record's ``rejected`` member (field → text refused): taken as it is, each entry checked."""
+    if not isinstance(raw, dict):
+        return [LineError(line=line, pointer=where, field=REJECTED_KEY, code="bad_value",
+                          reason="rejected must be an object of field → the text refused")]
+    errors: list[LineError] = []
+    for name, text in raw.items():
+        if name not in FIELDS or name in ("board", "circuit") or not isinstance(text, str) \
+                or _bad_text(text) or _bad_text(name):
+            errors.append(LineError(line=line, pointer=f"{where}/{_escape(name)}", field=REJECTED_KEY,
+                                    code="bad_value", text=_shown(name),
+                                    reason=f"rejected: {_shown(name)!r} is not a field name with the text "
+                                           "refused for it"))
+            continue
+        rejected[name] = text
+    return errors

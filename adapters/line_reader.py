@@ -177,8 +177,10 @@ class LineReader:
         return parser
 
     def _emit(self, number: int, values: list[tuple[str, str, CellParser]], errors: list[LineError],
-              notes: list[InputWarning], had_keys: bool) -> Iterator[Result]:
+              notes: list[InputWarning], had_keys: bool,
+              rejected: dict[str, str] | None = None) -> Iterator[Result]:
         fields: dict[str, Any] = {}
+        rejected = rejected if rejected is not None else {}
         for name, raw, parser in values:
             value = parser.parse(raw)
             if value is None:
@@ -186,6 +188,7 @@ class LineReader:
             if type(value) is CellProblem:
                 errors.append(LineError(line=number, code="bad_value", field=name, text=value.text,
                                         reason=value.reason))
+                rejected[name] = value.text if value.text is not None else raw
             else:
                 fields[name] = value
         if not values and not errors and (had_keys or notes):
@@ -199,8 +202,9 @@ class LineReader:
                             reason=f"no {missing} given on or before line {number}")
             yield from notes
             return
-        if fields or not errors:
-            yield Fragment(board=context.board, circuit=context.circuit, fields=fields, line=number)
+        if fields or rejected or not errors:
+            yield Fragment(board=context.board, circuit=context.circuit, fields=fields, line=number,
+                           rejected=rejected)
         yield from errors
         yield from notes
 
@@ -220,6 +224,8 @@ class LineReader:
         notes: list[InputWarning] = []
         keys: dict[str, str | None] = {}
         seen: dict[str, str] = {}
+        given: dict[str, str] = {}  # field -> the value text first given for it
+        rejected: dict[str, str] = {}
         for key, raw in parsed.pairs:
             label = self._label(key)
             name = label.field
@@ -234,8 +240,11 @@ class LineReader:
                                                f"{key!r}); neither value is taken"))
                 values = [v for v in values if v[0] != name]
                 keys.pop(name, None)
+                if name not in ("board", "circuit"):  # which was meant is unknown: neither, remembered
+                    rejected[name] = f"{rejected.get(name, given.get(name, ''))} | {raw}"
                 continue
             seen[name] = key
+            given[name] = raw
             if name in ("board", "circuit"):
                 problem = key_problem(name, raw)
                 if problem:
@@ -247,7 +256,7 @@ class LineReader:
                 values.append((name, raw, self._parser(name, label.unit, spec.scale if spec else 1.0)))
         self._set_context(keys.get("board"), keys.get("circuit"))
         had_keys = keys.get("board") is not None or keys.get("circuit") is not None
-        yield from self._emit(number, values, errors, notes, had_keys)
+        yield from self._emit(number, values, errors, notes, had_keys, rejected)
 
     def _regex(self, number: int, text: str) -> Iterator[Result]:
         compiled = self.compiled

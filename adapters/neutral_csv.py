@@ -5,10 +5,20 @@ circuit. Long: ``board,circuit,test,value,unit``, one row per field, ``test``
 being the field name and ``unit`` its canonical unit symbol (blank for text,
 choices and flags).
 
+Refused values travel too, in their own place, never in the field's cell:
+wide, a last column ``rejected`` holding ``field=text`` pairs in the line
+format's spelling (``test_temp_c=-300 zs_ohm="0,8 8"``); long, one row per
+refused field with test ``rejected`` and that pair as the value. Why not the
+refused text in the field's own column: read back, it would be refused again
+(an error on every re-import) or, where the refusal depended on the source's
+decimal convention, even taken as a value; and leaving it out would let a
+default take the refused value's place after a round trip.
+
 Invariants:
 - Reading the output with the ``csv`` adapter (no profile) gives back records
-  equal field by field in :func:`engine.record_to_dict` form, for any record
-  whose text fields hold no line break (one physical line is one row).
+  equal field by field in :func:`engine.record_to_dict` form, ``rejected``
+  included, with no error, for any record whose texts hold no line break (one
+  physical line is one row).
 - Readings are written as :meth:`engine.Reading.to_json` writes them: a plain
   number, or the bounded text (``>999``, ``OL``).
 """
@@ -21,10 +31,14 @@ from collections.abc import Iterable
 
 from engine import FIELDS, CircuitRecord, record_to_dict
 from engine.readings import format_number
+from engine.records import REJECTED_KEY
 
-__all__ = ["LONG_COLUMNS", "WIDE_COLUMNS", "records_to_long_csv", "records_to_wide_csv"]
+from .line_format import format_pairs
 
-WIDE_COLUMNS: tuple[str, ...] = tuple(FIELDS)
+__all__ = ["LONG_COLUMNS", "REJECTED_COLUMN", "WIDE_COLUMNS", "records_to_long_csv", "records_to_wide_csv"]
+
+REJECTED_COLUMN = REJECTED_KEY  # the wide column, and the long layout's test, that carry refused values
+WIDE_COLUMNS: tuple[str, ...] = (*FIELDS, REJECTED_COLUMN)
 LONG_COLUMNS: tuple[str, ...] = ("board", "circuit", "test", "value", "unit")
 
 
@@ -42,7 +56,8 @@ def records_to_wide_csv(records: Iterable[CircuitRecord]) -> str:
     writer.writerow(WIDE_COLUMNS)
     for record in records:
         data = record_to_dict(record)
-        writer.writerow([_cell(data[name]) if name in data else "" for name in WIDE_COLUMNS])
+        refused = format_pairs(list(record.rejected.items())) if record.rejected else ""
+        writer.writerow([*(_cell(data[name]) if name in data else "" for name in FIELDS), refused])
     return out.getvalue()
 
 
@@ -52,8 +67,10 @@ def records_to_long_csv(records: Iterable[CircuitRecord]) -> str:
     writer.writerow(LONG_COLUMNS)
     for record in records:
         for name, value in record_to_dict(record).items():
-            if name in ("board", "circuit"):
+            if name in ("board", "circuit", REJECTED_KEY):
                 continue
             symbol = FIELDS[name].symbol or "" if FIELDS[name].kind in ("reading", "number") else ""
             writer.writerow([record.board, record.circuit, name, _cell(value), symbol])
+        for name, text in record.rejected.items():
+            writer.writerow([record.board, record.circuit, REJECTED_COLUMN, format_pairs([(name, text)]), ""])
     return out.getvalue()

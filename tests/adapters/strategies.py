@@ -51,8 +51,16 @@ def _value(name: str) -> st.SearchStrategy[Any]:
 _OPTIONAL = [n for n in FIELDS if n not in ("board", "circuit")]
 
 
+# the text a refused value held: anything on one line (a record remembers it as written)
+_refused_text = st.text(alphabet=st.characters(codec="utf-8", exclude_categories=("Cc", "Cs", "Zl", "Zp")),
+                        max_size=20)
+
+
 @st.composite
 def records(draw: st.DrawFn) -> CircuitRecord:
     chosen = draw(st.lists(st.sampled_from(_OPTIONAL), unique=True, max_size=12))
     values = {name: draw(_value(name)) for name in chosen}
-    return CircuitRecord(board=draw(keys), circuit=draw(keys), **values)
+    refused = draw(st.lists(st.sampled_from([n for n in _OPTIONAL if n not in values]), unique=True,
+                            max_size=2))
+    rejected = {name: draw(_refused_text) for name in refused}
+    return CircuitRecord(board=draw(keys), circuit=draw(keys), **values, rejected=rejected)

@@ -120,7 +120,8 @@ def test_decimal_comma_directive_holds_from_its_line_on() -> None:
             b"#% decimal=point\ncircuit=3 zs=0,5\n")
     results = _read(data)
     got = collect(results)
-    assert [(r.circuit, r.zs_ohm.value if r.zs_ohm else None) for r in got.records] == [("2", 0.82)]
+    assert [(r.circuit, r.zs_ohm.value if r.zs_ohm else None, dict(r.rejected)) for r in got.records] == [
+        ("1", None, {"zs_ohm": "0,82"}), ("2", 0.82, {}), ("3", None, {"zs_ohm": "0,5"})]
     assert [(e.line, e.code) for e in got.errors] == [(2, "bad_value"), (6, "bad_value")]
     assert [r.reason for r in results if isinstance(r, Skipped)].count("directive") == 2
 
