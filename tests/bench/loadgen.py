@@ -1,7 +1,7 @@
 """A bounded load generator, run as its own process so it never shares the server's interpreter.
 
 Run: ``python -m tests.bench.loadgen --url URL --mode verify|readings|bare --clients N
---requests N --body-file F [--jobs 1,2,…]``. Prints one JSON object: requests,
+--requests N --body-file F [--jobs 1,2,…] [--round R] [--path /bare/N]``. Prints one JSON object: requests,
 errors, statuses, wall time, throughput and latency percentiles (ms).
 
 Invariants:
@@ -11,7 +11,8 @@ Invariants:
 - ``readings`` mode: client ``i`` posts to job ``jobs[i % len(jobs)]``; each
   post carries 1 to 10 ``key=value`` lines (a logger's post), each line two
   readings of one circuit, with values unique to the post (so no post is a
-  duplicate of another). ``fields_sent`` counts the readings in posts that
+  duplicate of another, in this round or any other: ``--round`` shifts them).
+  ``fields_sent`` counts the readings in posts that
   got a 200, for the caller to compare with what the job holds.
 """
 
@@ -50,16 +51,16 @@ def readings_body(rng: random.Random, client: int, n: int, circuits: int = 48) -
 
 def _client(args: argparse.Namespace, index: int, body: bytes, jobs: list[int],
             out: list[tuple[float, int, int]]) -> None:
-    rng = random.Random(index)
+    rng = random.Random(index + 1_000 * args.round)
     with httpx.Client(base_url=args.url, timeout=60) as client:
         for n in range(args.requests):
             if args.mode == "readings":
-                payload, fields = readings_body(rng, index, n)
+                payload, fields = readings_body(rng, index, n + 100_000 * args.round)
                 path = f"/v1/jobs/{jobs[index % len(jobs)]}/readings"
                 headers = {"Content-Type": "text/plain; charset=utf-8"}
             else:
                 payload, fields = body, 0
-                path = "/v1/verify" if args.mode == "verify" else args.bare_path
+                path = args.path or "/v1/verify"
                 headers = {"Content-Type": "application/json"}
             began = time.perf_counter()
             try:
@@ -76,7 +77,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--clients", type=int, default=16)
     parser.add_argument("--requests", type=int, default=50, help="requests per client")
     parser.add_argument("--body-file", type=Path)
-    parser.add_argument("--bare-path", default="/bare")
+    parser.add_argument("--path", default="", help="the URL path for verify and bare (default /v1/verify)")
+    parser.add_argument("--round", type=int, default=0, help="interleaved round: keeps bodies unique")
     parser.add_argument("--jobs", default="")
     args = parser.parse_args(argv)
     body = args.body_file.read_bytes() if args.body_file else b""

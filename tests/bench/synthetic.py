@@ -5,7 +5,7 @@ Invariants:
   are never held (the streaming benchmark relies on it).
 - Each group of three boards is an origin board (TN-C-S, Ze and PFC recorded,
   a distribution circuit), a sub-board fed from it (``board_fed_from``) and a
-  TT board (RA, RCDs). Together their circuits reach all eleven check ids:
+  TT board (RA, RCDs). Together their circuits reach every check id (``engine.CHECK_IDS``):
   rings, RCDs, TT electrodes, feeders, three-phase circuits, voltage drop.
 - Values are our own invented scenario, drawn around typical readings with a
   few out of range, so passes, fails and investigates all occur. They are load,
@@ -25,8 +25,9 @@ COLUMNS: tuple[str, ...] = (
     "board", "circuit", "description", "board_fed_from", "phases", "earthing", "circuit_form",
     "circuit_role", "socket_outlets", "load_type", "design_current_a", "device_kind",
     "device_standard", "device_curve", "device_rating_a", "device_breaking_ka", "rcd_residual_ma",
-    "rcd_type", "line_mm2", "cpc_mm2", "length_m", "r1_r2_ohm", "ring_r1_ohm", "ring_rn_ohm",
-    "ring_r2_ohm", "ir_test_v", "ir_ll_mohm", "ir_le_mohm", "polarity_ok", "ze_ohm", "zs_ohm",
+    "rcd_type", "line_mm2", "cpc_mm2", "cable_type", "reference_method", "length_m", "r1_r2_ohm",
+    "ring_r1_ohm", "ring_rn_ohm", "ring_r2_ohm", "ir_test_v", "ir_ll_mohm", "ir_le_mohm", "polarity_ok",
+    "ze_ohm", "zs_ohm",
     "pfc_ka", "rcd_trip_ms", "rcd_trip_5x_ms", "rcd_half_no_trip", "ra_ohm",
 )
 
@@ -51,7 +52,8 @@ def _radial(rng: random.Random, row: Row, *, rating: int, curve: str, line: floa
     row.update({"circuit_form": "radial", "load_type": load, "device_kind": "rcbo" if rcd else "breaker",
                 "device_standard": "BS EN 61009" if rcd else "BS EN 60898", "device_curve": curve,
                 "device_rating_a": str(rating), "line_mm2": str(line), "cpc_mm2": str(cpc),
-                "length_m": str(length), "r1_r2_ohm": f"{r1r2}", "design_current_a": f"{rating * 0.6:g}",
+                "cable_type": "twin_and_earth", "reference_method": "C", "length_m": str(length),
+                "r1_r2_ohm": f"{r1r2}", "design_current_a": f"{rating * 0.6:g}",
                 "zs_ohm": f"{round(ze + r1r2 * rng.uniform(0.95, 1.15), 3)}"})
     if rcd:
         _rcd(rng, row)
@@ -71,6 +73,7 @@ def _ring(rng: random.Random, row: Row, ze: float) -> Row:
     row.update({"circuit_form": "ring", "socket_outlets": "yes", "load_type": "other",
                 "device_kind": "rcbo", "device_standard": "BS EN 61009", "device_curve": "B",
                 "device_rating_a": "32", "line_mm2": "2.5", "cpc_mm2": "1.5",
+                "cable_type": "twin_and_earth", "reference_method": "C",
                 "ring_r1_ohm": f"{r1}", "ring_rn_ohm": f"{round(r1 * rng.uniform(0.97, 1.03), 3)}",
                 "ring_r2_ohm": f"{r2}", "r1_r2_ohm": f"{r1r2}",
                 "zs_ohm": f"{round(ze + r1r2 * rng.uniform(0.97, 1.1), 3)}"})
@@ -90,11 +93,13 @@ def board_rows(group: int, rng: random.Random, circuits: int = 20) -> Iterator[R
         if n == 1:  # the feeder of the sub-board: a distribution circuit
             row.update({"description": "Feed to DB2", "circuit_role": "distribution",
                         "device_kind": "fuse", "device_standard": "BS 88-2", "device_rating_a": "63",
-                        "line_mm2": "16", "cpc_mm2": "16", "length_m": "25", "design_current_a": "45",
+                        "line_mm2": "16", "cpc_mm2": "16", "cable_type": "multicore", "reference_method": "C",
+                        "length_m": "25", "design_current_a": "45",
                         "r1_r2_ohm": "0.029", "zs_ohm": f"{round(ze + 0.03, 3)}"})
         elif n == 2:  # three-phase final circuit
             _radial(rng, row, rating=20, curve="C", line=4.0, cpc=2.5, load="other", ze=ze, rcd=False)
-            row.update({"phases": "3", "description": "Workshop 3-phase", "design_current_a": "16"})
+            row.update({"phases": "3", "description": "Workshop 3-phase", "design_current_a": "16",
+                        "cable_type": "multicore"})
         elif kind == 0:
             _ring(rng, row, ze).update({"description": "Sockets ring"})
         elif kind == 1:

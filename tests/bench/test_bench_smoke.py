@@ -1,4 +1,4 @@
-"""Smoke test: ``python -m tests.bench --smoke`` runs every benchmark and prints its figures.
+"""Smoke test: ``python -m tests.bench --smoke`` runs every benchmark; and the rounds' arithmetic is right.
 
 Not a timed test: nothing here depends on how fast the machine is.
 """
@@ -11,9 +11,22 @@ from pathlib import Path
 
 import pytest
 
+from engine import CHECK_IDS, verify
 from tests.bench import synthetic
+from tests.bench.common import UNAVAILABLE, compare, interleave, unavailable
 
 ROOT = Path(__file__).resolve().parents[2]
+
+# Each benchmark's figure as the final table names it; either its value or "not available in this build".
+FIGURES = (
+    "verify, circuits/s", "full results", "compact results",
+    "circuits, full view", "circuits, --view compact",
+    "CSV rows to compact verdicts", "CSV rows to full verdicts",
+    "full answer, B per circuit", "compact answer, B per circuit",
+    "1-circuit post into 200 vs 50 circuits, SQLite",
+    "verify 48 circuits, requests/s", "verify p99", "readings posts/s SQLite", "readings lost SQLite",
+    "peak RSS growth",
+)
 
 
 @pytest.mark.slow
@@ -23,14 +36,38 @@ def test_smoke_run_prints_every_figure() -> None:
                           text=True, timeout=300, check=False)
     assert done.returncode == 0, done.stderr[-3000:]
     table = done.stdout.split("== all figures", 1)[1]
-    figures = ("verify, circuits/s", "csv→verify→json", "RSS growth", "verify p99", "readings lost SQLite")
-    for figure in figures:
-        assert figure in table, table
+    lines = table.splitlines()
+    for figure in FIGURES:
+        assert any(figure in line for line in lines), (figure, table)
+    assert "nproc" in lines[0], lines[0]  # the machine is named beside the figures
 
 
 def test_synthetic_set_reaches_every_check() -> None:
-    """The engine benchmark's input makes all eleven check ids run (so the figure covers them all)."""
-    from engine import CHECK_IDS, verify
-
+    """The engine benchmark's input makes every check id run (so the figure covers them all)."""
     seen = {c.check for v in verify(synthetic.records(120)) for c in v.checks}
     assert seen == set(CHECK_IDS)
+
+
+def test_rounds_alternate_the_arms() -> None:
+    """Interleaving runs A B A B …: each round runs every arm once, in order."""
+    calls: list[str] = []
+    runs = interleave({"a": lambda: calls.append("a") or 1.0, "b": lambda: calls.append("b") or 2.0}, 3)
+    assert calls == ["a", "b"] * 3
+    assert runs == {"a": [1.0] * 3, "b": [2.0] * 3}
+
+
+def test_compare_takes_medians_spread_and_pairwise_ratios() -> None:
+    """The figure is the median of its rounds; the ratio is of the medians; the range is the rounds' own."""
+    figure = compare("x", "y", "s", [3.0, 1.0, 2.0], [1.0, 1.0, 4.0], target="t", met=lambda v, r: v < 3)
+    assert (figure.value, figure.spread) == (2.0, (1.0, 3.0))
+    assert (figure.baseline, figure.baseline_spread) == (1.0, (1.0, 4.0))
+    assert figure.ratio == 2.0
+    assert figure.ratio_spread == (0.5, 3.0)  # 3/1, 1/1, 2/4
+    assert figure.met is True and figure.rounds == 3
+
+
+def test_unavailable_feature_is_a_row_not_a_pass() -> None:
+    """A figure whose feature is missing says so, and is neither met nor missed."""
+    figure = unavailable("engine", "compact results", ">= 50,000/s")
+    assert figure.met is None and figure.value is None
+    assert UNAVAILABLE in figure.cells()

@@ -6,9 +6,9 @@
 -- flight, and the readings it carried are reported as in_flight_fields.
 --
 -- Arguments after `--`: mode (verify|readings|bare), path, body file
--- (verify/bare), comma-separated job ids (readings).
--- Readings bodies: 1 to 10 lines of one board, values unique to (client, n), two
--- readings per line; a post that gets a 200 counts its readings in fields_sent.
+-- (verify/bare), comma-separated job ids (readings), round (interleaved runs).
+-- Readings bodies: 1 to 10 lines of one board, values unique to (round, client, n),
+-- two readings per line; a post that gets a 200 counts its readings in fields_sent.
 
 local threads = {}
 
@@ -30,9 +30,10 @@ function init(args)
     static_body = f:read("*a")
     f:close()
   end
-  sent, ok, fields_sent, pending = 0, 0, 0, 0
+  local round = tonumber(args[5] or "0") or 0
+  sent, ok, fields_sent, pending = 100000 * round, 0, 0, 0
   statuses = {}
-  math.randomseed(index + 1)
+  math.randomseed(index + 1 + 1000 * round)
 end
 
 function request()

@@ -11,6 +11,8 @@ keeps the closed loop of the Python generator; the run is bounded in time.
 Invariants:
 - One wrk thread per client, one connection per thread: ``clients`` requests in
   flight at most, each client waits for its answer.
+- ``round_no`` (the interleaved round) shifts the readings bodies, so no
+  round re-sends a body of an earlier one.
 - A run lasts ``seconds``. A request still in flight at the end is not counted;
   the readings it carried are reported (``in_flight_fields``) because the server
   may still have merged them, so the benchmark's loss check can allow for them.
@@ -37,10 +39,10 @@ def available() -> bool:
 
 
 def run(url: str, mode: str, clients: int, seconds: float, *, path: str, body: Path | None = None,
-        jobs: list[int] | None = None) -> dict[str, Any]:
+        jobs: list[int] | None = None, round_no: int = 0) -> dict[str, Any]:
     argv = ["wrk", "-t", str(clients), "-c", str(clients), "-d", f"{max(1, round(seconds))}s",
             "--timeout", "30s", "-s", str(SCRIPT), url, "--", mode, path, str(body or ""),
-            ",".join(map(str, jobs or []))]
+            ",".join(map(str, jobs or [])), str(round_no)]
     done = subprocess.run(argv, capture_output=True, text=True, check=False, timeout=seconds + 120)
     line = next((ln for ln in done.stdout.splitlines() if ln.startswith(_MARK)), None)
     if line is None:
