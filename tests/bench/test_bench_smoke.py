@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
@@ -51,7 +52,14 @@ def test_synthetic_set_reaches_every_check() -> None:
 def test_rounds_alternate_the_arms() -> None:
     """Interleaving runs A B A B …: each round runs every arm once, in order."""
     calls: list[str] = []
-    runs = interleave({"a": lambda: calls.append("a") or 1.0, "b": lambda: calls.append("b") or 2.0}, 3)
+
+    def arm(name: str, value: float) -> Callable[[], float]:
+        def run() -> float:
+            calls.append(name)
+            return value
+        return run
+
+    runs = interleave({"a": arm("a", 1.0), "b": arm("b", 2.0)}, 3)
     assert calls == ["a", "b"] * 3
     assert runs == {"a": [1.0] * 3, "b": [2.0] * 3}
 
