@@ -32,6 +32,7 @@ from sqlalchemy import Text, and_, cast, insert, or_, select, update
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
+from api.db.merging import history_entries, merge_fields
 from api.db.models import Circuit, FieldHistory, Job, Organisation, Upload, utcnow
 from api.db.models.jobs import new_job_id
 from api.errors import ApiError
@@ -260,8 +261,8 @@ def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item
         values = merged.get(key)
         if values is None:
             row = rows.get(key)
-            values = merged[key] = json.loads(row.text) if row is not None and row.text else {}
-        values.update(item.fields)
+            values = json.loads(row.text) if row is not None and row.text else {}
+        merged[key] = merge_fields(values, item.fields)  # api.db.merging: values, refusals, marks
     changed = [{"id": rows[key].id, "fields": values, "updated_at": now, "upload_id": upload.id}
                for key, values in merged.items() if key in rows]
     if changed:  # one executemany UPDATE by primary key
@@ -276,12 +277,17 @@ def merge_items(session: Session, job: Job, upload: Upload, items: Iterable[Item
             rows[(board, circuit)] = Row(new_id, board, circuit, None)
     history = [{"circuit_id": rows[(item.board, item.circuit)].id, "field": name, "value": value,
                 "upload_id": upload.id, "location": item.location, "recorded_at": now}
-               for item in items for name, value in item.fields.items()]
+               for item in items for name, value in history_entries(item.fields)]
     if history:  # one multi-row INSERT, in arrival order, instead of an ORM object per value
         session.execute(insert(FieldHistory), history)
     bump_revision(job)
     after = records_of_rows(sorted(rows.values(), key=lambda r: r.id), merged)
-    return Merged(accepted=len(history), touched=list(merged), records=after)
+    taken = sum(1 for entry in history if not _is_refusal(entry["value"]))
+    return Merged(accepted=taken, touched=list(merged), records=after)
+
+
+def _is_refusal(value: Any) -> bool:
+    return isinstance(value, dict) and "rejected" in value
 
 
 def job_circuits(session: Session, job: Job) -> list[Circuit]:

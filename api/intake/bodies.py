@@ -37,8 +37,9 @@ from typing import Any
 
 from marshmallow import ValidationError
 
-from adapters import AdapterError, AdapterOptions, Fragment, LineError
+from adapters import AdapterError, AdapterOptions, Fragment, InputWarning, LineError
 from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
+from api.db.merging import merge_fields
 from api.errors import ApiError, messages_to_errors
 from api.intake.json_document import JsonSyntaxError, parse_strict
 from api.intake.json_records import screen_json_records
@@ -46,6 +47,7 @@ from api.intake.line_scan import BodyLimits, as_utf8, scan_lines
 from api.intake.objects import records_from_objects
 from api.schemas.records import load_verify_request
 from engine import CircuitRecord, Reading, build_record, record_to_dict
+from engine.intake import MARKS_KEY, REJECTED_KEY
 
 __all__ = [
     "DEFAULT_LIMITS",
@@ -79,6 +81,7 @@ class Item:
 class Intake:
     items: list[Item] = field(default_factory=list)
     rejected: list[dict[str, Any]] = field(default_factory=list)
+    warnings: list[dict[str, Any]] = field(default_factory=list)  # names read as nothing
     ruleset: str | None = None
     adapter: str | None = None
     profile: str | None = None
@@ -90,8 +93,9 @@ class Intake:
                 and len({r.key for r in self.built}) == len(self.built)):
             return list(self.built)  # nothing to merge: the records the body was checked with
         merged: dict[tuple[str, str], dict[str, Any]] = {}
-        for item in self.items:
-            merged.setdefault((item.board, item.circuit), {}).update(item.fields)
+        for item in self.items:  # the stored records' rule: values, refusals and marks, later wins
+            key = (item.board, item.circuit)
+            merged[key] = merge_fields(merged.get(key, {}), item.fields)
         out: list[CircuitRecord] = []
         for (board, circuit), values in merged.items():
             record, errors = build_record({"board": board, "circuit": circuit, **values})
@@ -311,10 +315,16 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
                     raise _too_many_rows(None, limits.max_rows, {"line": result.line})
                 values = {k: _json_value(v) for k, v in result.fields.items()
                           if k not in ("board", "circuit") and v is not None}
+                if result.rejected:  # refused cells are remembered on the record (api.db.merging)
+                    values[REJECTED_KEY] = dict(result.rejected)
+                if result.marks:
+                    values[MARKS_KEY] = dict(result.marks)
                 count += len(values)
                 if count > limits.max_values:
                     raise _too_many_values(limits.max_values, {"line": result.line})
                 intake.items.append(Item(result.board, result.circuit, values, f"line {result.line}"))
+            elif isinstance(result, InputWarning):
+                intake.warnings.append(result.as_dict())
             elif isinstance(result, LineError):
                 intake.rejected.append(result.as_dict())
                 if result.code == "unrecognised_header":

@@ -62,8 +62,9 @@ def _duplicate(job: Job, earlier: Upload, stored_records: list[Any]) -> Readings
     """The answer to a blind resend: the earlier upload's, recomputed on the job as it stands."""
     touched = upload_circuit_keys(get_session(), earlier)
     verdicts = verify(stored_records, resolve_ruleset(job.ruleset), only=touched)
-    return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected, upload=earlier,
-                          verdicts=verdicts, duplicate_of=earlier.id)
+    return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected,
+                          warnings=earlier.warnings or [], upload=earlier, verdicts=verdicts,
+                          duplicate_of=earlier.id)
 
 
 def _refuse(upload: Upload, problem: ApiError) -> ApiError:
@@ -130,6 +131,7 @@ class JobReadings(MethodView):
             before = outcomes_before(session, job, ruleset, records_of_rows(stored))
             merged = merge_items(session, job, upload, intake.items, stored)
             upload.status, upload.accepted, upload.rejected = "merged", merged.accepted, intake.rejected
+            upload.warnings = intake.warnings
             wanted = set(merged.touched)
             # Every circuit sees the whole job (board-level checks), but only the touched ones are
             # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
@@ -142,7 +144,8 @@ class JobReadings(MethodView):
                 raise
             merging.rollback()  # the upload row, written before the savepoint, stays
             raise _refuse(upload, insufficient_storage(kept=True)) from None
-        return ReadingsAnswer(accepted=merged.accepted, rejected=intake.rejected, upload=upload,
+        return ReadingsAnswer(accepted=merged.accepted, rejected=intake.rejected, warnings=intake.warnings,
+                              upload=upload,
                               verdicts=[v for v in all_verdicts if v.key in wanted])
 
 

@@ -158,6 +158,9 @@ class UploadSchema(_Strict):
     status = fields.String(required=True, validate=validate.OneOf(("merged", "rejected")))
     accepted = fields.Integer(required=True)
     rejected = rejected_list()
+    warnings = fields.Function(lambda upload: upload.warnings or [], required=True, metadata={
+        "type": "array", "items": {"$ref": "#/components/schemas/InputWarning"},
+        "description": "names the input carried that were read as nothing (none recorded before 0.2)"})
     href = fields.Function(lambda upload: f"/v1/jobs/{upload.job_id}/uploads/{upload.id}", required=True,
                            metadata={"type": "string", "description": "the raw bytes as received"})
 

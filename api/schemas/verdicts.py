@@ -55,11 +55,16 @@ class CheckSchema(_Strict):
 class VerdictSchema(_Strict):
     board = fields.String(required=True)
     circuit = fields.String(required=True)
+    description = fields.String(required=True, allow_none=True,
+                                metadata={"description": "the circuit's description, as recorded"})
     outcome = fields.String(required=True, validate=validate.OneOf(_OUTCOMES),
                             metadata={"description": "worst check: fail > investigate > incomplete > pass"})
     checks = fields.List(fields.Nested(CheckSchema), required=True)
     defaults_applied = fields.Dict(required=True, metadata={
         "description": "field → the ruleset default the checks used because the record was silent"})
+    inherited = fields.Dict(required=True, metadata={
+        "description": "field → where a value the checks used came from when the circuit did not say: "
+                       "'board DB2' or 'installation'"})
     inferred = fields.Dict(required=True, metadata={
         "description": "field → what the record's readings imply where it did not say (ring readings "
                        "mean a ring; a curve letter means a circuit-breaker; a trip time means an RCD)"})
