@@ -42,6 +42,7 @@ from api.routes import BLUEPRINTS
 from api.schemas import json_types_attribute
 from api.schemas.errors import ProblemSchema
 from api.settings import load_settings
+from api.webhooks import sealing
 from engine import __version__
 
 __all__ = ["OhmtallyApi", "create_app", "default_instance_path"]
@@ -149,6 +150,12 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     url = db.database_url_for(app.instance_path, settings.database_url)
     app.config["OHMTALLY_DATABASE_URL"] = url
     db.init_app(app, url)
+    # The webhook secrets' server key is checked now, so a bad key file stops the boot rather
+    # than the first subscription; with keys on and no OHMTALLY_ENCRYPTION_KEY, webhooks refuse
+    # to store secrets (api/webhooks/README.md) and the operator is told at start-up.
+    if sealing.box_for_app(app) is None:
+        app.extensions["ohmtally.logger"].warning(
+            "OHMTALLY_ENCRYPTION_KEY is not set: webhook subscriptions are refused until it is")
     # Request middleware, in this order: the key check, then the rate limit (it counts per
     # key), then Idempotency-Key (a key's reservation belongs to an organisation).
     auth.init_app(app)

@@ -12,9 +12,9 @@ import pytest
 from flask import Flask
 from sqlalchemy import create_engine, func, select
 
+from api.db.models import Base, FieldHistory
 from api.db.schema import SchemaNotCurrent
 from api.db.session import make_engine
-from api.db.models import Base, FieldHistory
 
 pytestmark = pytest.mark.postgres
 
