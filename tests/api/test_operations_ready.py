@@ -12,22 +12,27 @@ from typing import Any
 import pytest
 from flask import Flask
 from flask.testing import FlaskClient
-from sqlalchemy import event
+from sqlalchemy import event, select
 
-from api.db.schema import schema_window
+from api.db.schema import DEPLOYMENT_FACTS, SERVES_FROM, schema_window
 from engine import __version__
 
 pytestmark = pytest.mark.postgres
 
 
-def test_ready_when_the_database_is_at_this_build(client: FlaskClient) -> None:
+def test_ready_when_the_database_is_at_this_build(app: Flask, client: FlaskClient) -> None:
     """A migrated database: 200 with this build's version, the database's revision and its floor."""
     response = client.get("/v1/ready")
     assert response.status_code == 200
     body = response.get_json()
     head = schema_window().head
+    with app.extensions["ohmtally.engine"].connect() as connection:  # the floor as the database holds it
+        floor = connection.execute(select(DEPLOYMENT_FACTS.c.value).where(
+            DEPLOYMENT_FACTS.c.name == SERVES_FROM)).scalar_one()
     assert body == {"status": "ready", "version": __version__,
-                    "schema": {"revision": head, "head": head, "serves_from": head}}
+                    "schema": {"revision": head, "head": head, "serves_from": floor}}
+    # an expand migration after the last contract one leaves the floor behind the head, on its line
+    assert floor in schema_window().line
 
 
 def test_ready_asks_the_database_once(app: Flask, client: FlaskClient) -> None:
