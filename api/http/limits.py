@@ -129,7 +129,8 @@ def init_app(app: Flask) -> None:
                       in_memory_fallback_enabled=shared,
                       in_memory_fallback=[divided_limit(settings.rate_limit, settings.workers)]
                       if shared and settings.rate_limit else None)
-    limiter.request_filter(lambda: request.path.rstrip("/") == "/v1/health")
+    # probes are never counted: a load balancer's checks must not lock a client out
+    limiter.request_filter(lambda: request.path.rstrip("/") in ("/v1/health", "/v1/ready"))
     app.extensions["ohmtally.limiter"] = limiter
     app.before_request(_refuse_nul)
     app.before_request(_read_body)  # after the key check and the rate limit, before idempotency

@@ -1,7 +1,7 @@
 """Prometheus metrics (prometheus-client): requests, latency, uploads, verdicts, the webhook backlog.
 
 Invariants:
-- Requests and latency are labelled by the URL rule (``/v1/jobs/<int:job_id>/readings``),
+- Requests and latency are labelled by the URL rule (``/v1/jobs/<job:job_id>/readings``),
   never the raw path, so ids never become label values; a path no rule matches is
   ``<unmatched>``. Latency runs from the first ``before_request`` to the last
   ``after_request`` step but the log line: the view, the commit and compression.

@@ -2,8 +2,9 @@
 
 Importing this package registers every table in ``Base.metadata`` (Alembic's
 ``env.py`` and the models-match-migrations test rely on that). Each module
-imports only :mod:`.base` (and ``auth`` the organisation it belongs to), so
-there is no cycle between them.
+imports :mod:`.base`, and those whose rows belong to a job or an organisation
+import :mod:`.jobs` for its key type; ``jobs`` imports only ``base``, so there is
+no cycle between them.
 """
 
 from __future__ import annotations
