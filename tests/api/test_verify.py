@@ -171,11 +171,16 @@ def test_demo_csv_through_api_equals_offline_adapter(client: FlaskClient) -> Non
 
 
 def test_lines_and_ndjson_bodies(client: FlaskClient) -> None:
-    """key=value lines (text/plain) and NDJSON go through their adapters; a bad line is rejected alone."""
+    """key=value lines (text/plain) and NDJSON go through their adapters; a bad line is rejected alone.
+
+    A refused cell is remembered on its circuit (kA in an ohm field): the circuit is listed, and the
+    check that needs the value is incomplete naming the refused text, never judged on a default."""
     lines = b"board=DB2 circuit=1 zs=0.61\xce\xa9 r1r2=0.32\nboard=DB2 circuit=2 zs=0.4kA\n"
     body = client.post("/v1/verify", data=lines, content_type="text/plain").get_json()
-    assert [v["circuit"] for v in body["verdicts"]] == ["1"]
+    assert [v["circuit"] for v in body["verdicts"]] == ["1", "2"]
     assert body["rejected"][0]["line"] == 2
+    refused = [c for c in body["verdicts"][1]["checks"] if c["check"] == "loop_impedance"]
+    assert refused and all(c["outcome"] == "incomplete" and "0.4kA" in c["detail"] for c in refused)
     nd = b'{"board": "DB3", "circuit": "1", "zs_ohm": 0.4}\n{"board": "DB3"}\n'
     body = client.post("/v1/verify", data=nd, content_type="application/x-ndjson").get_json()
     assert [v["circuit"] for v in body["verdicts"]] == ["1"] and body["rejected"][0]["line"] == 2
