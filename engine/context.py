@@ -1,53 +1,77 @@
-"""What a check sees: one circuit with the ruleset's defaults, and the whole set.
+"""What a check sees: one circuit with what it inherits and the ruleset's defaults, and the whole set.
 
 Invariants:
 - :class:`CircuitView` is the only way a check reads a circuit. It answers a
-  field from the record or, where the record is silent, from an inference the
+  field from the record — the *effective* record, with what the circuit
+  inherits from its board and the installation written in
+  (:mod:`engine.inheritance`) — or, where that is silent, from an inference the
   trade's notation makes unambiguous (:mod:`engine.inference`), else from the
-  ruleset's ``defaults`` section, and remembers every inference and default it
-  handed out: the verdict reports exactly those (``inferred``,
-  ``defaults_applied``).
+  ruleset's ``defaults`` section, and remembers every inherited value,
+  inference and default it handed out: the verdict reports exactly those
+  (``inherited``, ``inferred``, ``defaults_applied``). What a kept notation
+  inferred (the standard of a bare ``B32``) is reported as inferred when read.
 - It asks :mod:`engine.plausibility` about the record's values once, when
   built: a rejected or impossible value raises
   :class:`engine.plausibility.Withheld` instead of being returned, so no check
   can use it, and a rejected field is never answered by a default.
+- Inherited values are judged exactly as the circuit's own (the same
+  plausibility rules, on the effective record); a refused or marked value
+  names where it was written (``Problem.origin``: ``"board DB2"``).
 - :class:`Context` is built once per :func:`engine.verify` call and holds every
-  record of the call, indexed by key and by board, plus a cache that board-level
+  (effective) record of the call, indexed by key and by board, the site, where
+  each circuit's inherited values came from, plus a cache that board-level
   computations (feeder chains, a board's Ze consensus) fill on first use. It is
   per call: nothing is shared between calls, so ``verify`` stays pure.
-- ``records``, ``by_board`` and ``cache`` are typed as mappings so that
+- ``records``, ``by_board``, ``sources`` and ``cache`` are typed as mappings so that
   :func:`engine.stream.verify_stream` can layer one board's records over the
   few it keeps from earlier boards (``collections.ChainMap``) without copying.
 """
 
 from __future__ import annotations
 
+import dataclasses
 from collections import defaultdict
 from collections.abc import Iterable, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from typing import Any
 
 from .inference import INFERENCES
+from .inheritance import board_plan, inherit
+from .marks import LIMITATION
 from .plausibility import Problem, Withheld, judge_record
 from .readings import Reading
+from .record_notation import notation_values
 from .records import CircuitRecord
 from .ruleset import Entry, Ruleset
+from .site import Site
 
 __all__ = ["CircuitView", "Context"]
 
 _NO_DEFAULTS: Mapping[str, Any] = {}
+_NO_SOURCES: Mapping[str, str] = {}
 
 
 class CircuitView:
     """A record plus inferences and defaults, recording which were used; values judged first."""
 
-    __slots__ = ("_defaults", "_withheld", "defaults_applied", "inferred", "record", "ruleset")
+    __slots__ = ("_defaults", "_notation_of", "_noted", "_sources", "_tracked", "_withheld",
+                 "defaults_applied", "inferred", "inherited", "notation_read", "record", "ruleset")
 
-    def __init__(self, record: CircuitRecord, ruleset: Ruleset) -> None:
+    def __init__(self, record: CircuitRecord, ruleset: Ruleset,
+                 sources: Mapping[str, str] = _NO_SOURCES) -> None:
         self.record = record
         self.ruleset = ruleset
         self.defaults_applied: dict[str, Any] = {}
         self.inferred: dict[str, Any] = {}
+        self.inherited: dict[str, str] = {}
+        self.notation_read: set[str] = set()  # notation inputs whose fields were read (verify_one resets)
+        self._sources = sources
+        # fields whose read is noted (inherited, or given by a kept notation): usually none
+        self._tracked: frozenset[str] | Mapping[str, str] = sources
+        self._notation_of: dict[str, str] = {}
+        self._noted: dict[str, Any] = {}
+        if record.notation:
+            self._note_notation(record)
         # the ruleset's defaults section, looked up once per circuit rather than per get()
         self._defaults: Mapping[str, Entry] = ruleset.sections.get("defaults", _NO_DEFAULTS)
         # Every value of the record is judged once, here, rather than at each of the ~100 reads a
@@ -55,18 +79,50 @@ class CircuitView:
         # mapping. verify(): 1.07× (48 circuits) and 1.03× (2,000) the rate of judging lazily per
         # read (tests/bench synthetic set, best of seven interleaved runs).
         self._withheld: dict[str, Problem] = judge_record(record, ruleset, self._defaults)
+        if sources and self._withheld:
+            for name, problem in self._withheld.items():
+                if name in sources:
+                    self._withheld[name] = dataclasses.replace(problem, origin=sources[name])
+
+    def _note_notation(self, record: CircuitRecord) -> None:
+        """Which split fields a kept notation gave (to name it in the checks' inputs) and inferred."""
+        values, inferred = notation_values(record.notation)
+        for name in record.notation:
+            for split, value in notation_values({name: record.notation[name]})[0].items():
+                if getattr(record, split) == value:
+                    self._notation_of[split] = name
+        self._noted = {f: values[f] for f in inferred if f in self._notation_of}
+        self._tracked = frozenset({*self._sources, *self._notation_of})
+
+    def _note(self, name: str) -> None:
+        source = self._sources.get(name)
+        if source is not None:
+            self.inherited[name] = source
+        notation = self._notation_of.get(name)
+        if notation is not None:
+            self.notation_read.add(notation)
+            if name in self._noted:
+                self.inferred[name] = self._noted[name]
 
     def __repr__(self) -> str:
         return f"CircuitView({self.record.board!r}, {self.record.circuit!r})"
 
     def raw(self, name: str) -> Any:
         """The record's own value, no inference and no default; withheld if rejected or impossible."""
+        if self._tracked and name in self._tracked:
+            self._note(name)
         if self._withheld and name in self._withheld:
             raise Withheld(self._withheld[name], self.record.key)
         return getattr(self.record, name)
 
+    def source(self, name: str) -> str | None:
+        """Where the effective ``name`` came from: ``"board DB2"``, ``"installation"``, ``None`` (its own)."""
+        return self._sources.get(name)
+
     def get(self, name: str) -> Any:
         """The record's value, else an inference, else the ruleset default (each reported), else ``None``."""
+        if self._tracked and name in self._tracked:
+            self._note(name)
         if self._withheld and name in self._withheld:
             raise Withheld(self._withheld[name], self.record.key)  # a rejected field gets no default
         value = getattr(self.record, name)
@@ -90,8 +146,13 @@ class CircuitView:
         return default
 
     def has(self, name: str) -> bool:
-        """Whether the record gives ``name`` at all: a value, or a text it rejected (nothing judged)."""
-        return getattr(self.record, name) is not None or name in self.record.rejected
+        """Whether the record gives ``name`` at all: a value, a text it rejected, or ``LIM`` (nothing judged).
+
+        ``N/A`` is not given: the test does not apply.
+        """
+        record = self.record
+        return (getattr(record, name) is not None or name in record.rejected
+                or (bool(record.marks) and record.marks.get(name) == LIMITATION))
 
     def reading(self, name: str) -> Reading | None:
         value = self.raw(name)
@@ -105,9 +166,12 @@ class Context:
     records: Mapping[tuple[str, str], CircuitRecord]
     by_board: Mapping[str, list[CircuitRecord]]
     cache: MutableMapping[Any, Any] = field(default_factory=dict)
+    site: Site | None = None
+    sources: Mapping[tuple[str, str], Mapping[str, str]] = field(default_factory=dict)
+    """Circuit key → where each of its inherited fields came from (only circuits that inherit)."""
 
     @classmethod
-    def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset) -> Context:
+    def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset, site: Site | None = None) -> Context:
         index: dict[tuple[str, str], CircuitRecord] = {}
         boards: dict[str, list[CircuitRecord]] = defaultdict(list)
         for record in records:
@@ -115,16 +179,27 @@ class Context:
                 boards[record.board].remove(index[record.key])
             index[record.key] = record
             boards[record.board].append(record)
-        return cls(ruleset=ruleset, records=index, by_board=dict(boards))
+        sources: dict[tuple[str, str], Mapping[str, str]] = {}
+        if site is not None and (site.installation is not None or site.boards):
+            for board, own in boards.items():
+                plan = board_plan(board, own, site)
+                if not plan:
+                    continue
+                for at, record in enumerate(own):
+                    effective, where = inherit(record, plan)
+                    if where:
+                        own[at] = index[record.key] = effective
+                        sources[record.key] = where
+        return cls(ruleset=ruleset, records=index, by_board=dict(boards), site=site, sources=sources)
 
     def view(self, record: CircuitRecord) -> CircuitView:
-        return CircuitView(record, self.ruleset)
+        return CircuitView(record, self.ruleset, self.sources.get(record.key, _NO_SOURCES))
 
     def other_view(self, record: CircuitRecord) -> CircuitView:
         """A view of another circuit (a feeder) read for this one: built once per call."""
         key = ("context.view", record.key)
         found = self.cache.get(key)
         if found is None or found.record is not record:
-            found = self.cache[key] = CircuitView(record, self.ruleset)
+            found = self.cache[key] = self.view(record)
         view: CircuitView = found
         return view

@@ -1,8 +1,9 @@
 """Feeder chains: which distribution circuits stand between a board and the origin.
 
-A board's records carry ``board_fed_from = "BOARD/CIRCUIT"``: the distribution
-circuit on the upstream board that feeds it. Walking those links gives the
-chain up to the origin (a board with no feeder).
+A board's record (:class:`engine.site.BoardRecord`, preferred) or its circuit
+records carry ``board_fed_from = "BOARD/CIRCUIT"``: the distribution circuit on
+the upstream board that feeds it. Walking those links gives the chain up to
+the origin (a board with no feeder).
 
 Invariants:
 - Every record of the call is in ``ctx.records``; a chain is resolved from
@@ -11,7 +12,8 @@ Invariants:
   never silently ignored: a missing feeder record, two records of one board
   naming different feeders, or boards feeding each other in a cycle. The
   problem belongs to the boards whose chain passes through the break; boards
-  whose chains do not are unaffected.
+  whose chains do not are unaffected. A board record and a circuit of that
+  board naming different feeders is a ``feeder_conflict`` like two circuits.
 - ``"A/B/3"`` is resolved against the records: the split at a ``/`` that names
   an existing record wins, so board or circuit references may contain ``/``.
 """
@@ -66,10 +68,15 @@ class Upstream:
 def _feeder_text(board: str, ctx: Context) -> str | FeederProblem | None:
     named = {r.board_fed_from.strip() for r in ctx.by_board.get(board, ())
              if r.board_fed_from and r.board_fed_from.strip()}
+    own = ctx.site.boards.get(board) if ctx.site is not None else None
+    said = own.board_fed_from.strip() if own is not None and own.board_fed_from else ""
+    if said:
+        named.add(said)
     if len(named) > 1:
+        where = f" (its board record names {said})" if said else ""
         return FeederProblem(code="feeder_conflict", boards=(board,),
                              message=f"records of board {board} name different feeders: "
-                                     f"{', '.join(sorted(named))}")
+                                     f"{', '.join(sorted(named))}{where}")
     return next(iter(named), None)
 
 

@@ -56,6 +56,7 @@ from types import MappingProxyType
 from typing import ClassVar, Final, NoReturn, TypeAlias
 
 from .errors import ReadingError
+from .readings import DECLARE_COMMAS
 
 __all__ = [
     "NOTATION_FIELDS",
@@ -158,7 +159,8 @@ def _fail(name: str, raw: str, why: str) -> NoReturn:
 
 def _number(token: str, what: str, name: str, raw: str, decimal_comma: bool) -> float:
     if "," in token and not decimal_comma:
-        _fail(name, raw, f"the {what} has a decimal comma, but the source does not declare decimal commas")
+        _fail(name, raw, f"the {what} has a decimal comma, but the source does not declare decimal commas"
+                         f"{DECLARE_COMMAS}")
     if "." in token and decimal_comma:
         _fail(name, raw, f"the {what} has a '.', but the source declares decimal commas")
     value = float(token.replace(",", "."))

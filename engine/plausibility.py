@@ -9,6 +9,15 @@ Invariants:
 - **Rejected is never replaced.** A field the record remembers as rejected at
   intake (``CircuitRecord.rejected``) is withheld: the check is ``incomplete``
   and names the refused text. No default takes its place.
+- **A mark is said, never passed.** A field marked ``LIM`` (a recorded
+  limitation: not tested) is withheld: the check is ``incomplete``, "limitation
+  recorded: not tested". A field marked ``N/A`` is absent (the test does not
+  apply), but where a default or an inference would stand in for it, it is
+  withheld too (``incomplete``, "recorded as N/A"): a mark is never answered by
+  a default.
+- An inherited value (:mod:`engine.inheritance`) is judged exactly as the
+  circuit's own, on the effective record; the view sets ``Problem.origin`` so
+  the result says where it was written ("board DB2").
 - **Impossible is never judged.** A value that cannot be physically so is
   withheld and the check is ``investigate``, with the reason. The reading itself
   is kept as the meter said it; only its use is refused:
@@ -36,10 +45,14 @@ from dataclasses import dataclass
 from typing import Any
 
 from .fields import FIELDS
+from .inference import INFERENCES
+from .inheritance import site_field
+from .marks import LIMITATION, MARK_REASONS
 from .readings import Reading, format_number
 from .records import CircuitRecord
 from .results import CheckResult, Outcome
 from .ruleset import Entry, Ruleset
+from .words import word_for
 
 __all__ = ["COMBINED", "JUDGED", "RULES", "Problem", "Rule", "Withheld", "judge", "judge_record", "usable"]
 
@@ -72,6 +85,10 @@ class Problem:
     value: float | None = None
     basis: str | None = None
     rejected: bool = False
+    mark: str | None = None
+    """``"N/A"`` or ``"LIM"`` when the field was withheld for its mark."""
+    origin: str | None = None
+    """Where an inherited value was written (``"board DB2"``, ``"installation"``); ``None``: the circuit."""
 
 
 class Withheld(Exception):
@@ -83,24 +100,40 @@ class Withheld(Exception):
         self.key = key
 
     def result(self, check: str, circuit: tuple[str, str]) -> CheckResult:
-        """The check's result: ``incomplete`` for a rejected value, ``investigate`` for an impossible one."""
+        """The check's result: ``incomplete`` for a refused or marked value, ``investigate`` for an
+        impossible one."""
         problem = self.problem
-        where = "" if self.key == circuit else f"feeder {self.key[0]}/{self.key[1]}: "
+        where = "" if self.key == circuit or not self.key[1] else f"feeder {self.key[0]}/{self.key[1]}: "
+        word = word_for(problem.field)
+        at = ""
         inputs: dict[str, Any] = {"field": problem.field}
         if where:
             inputs["record"] = f"{self.key[0]}/{self.key[1]}"
+        elif not self.key[1]:  # a board's own facts (engine.checks.zdb_feeder): the origin names it
+            inputs["board"] = self.key[0]
+        if problem.origin is not None:
+            inputs["inherited_from"] = problem.origin
+            written = site_field(problem.field, problem.origin)
+            at = f" in {problem.origin}" + ("" if written == problem.field else f" (as {word_for(written)})")
+        if problem.mark is not None:
+            inputs.update(missing=[problem.field], marked={problem.field: problem.mark})
+            method = "limitation_recorded" if problem.mark == LIMITATION else "recorded_not_applicable"
+            tail = "" if problem.mark == LIMITATION else ", and no default is used in its place"
+            return CheckResult(check=check, outcome=Outcome.INCOMPLETE, method=method, inputs=inputs,
+                               basis=problem.basis,
+                               detail=f"not judged: {where}{word} {MARK_REASONS[problem.mark]}{at}{tail}")
         if problem.rejected:
             inputs.update(missing=[problem.field], rejected={problem.field: problem.shown})
             return CheckResult(check=check, outcome=Outcome.INCOMPLETE, method="rejected_value",
                                inputs=inputs, basis=problem.basis,
-                               detail=f"not judged: {where}{problem.field} was rejected at intake "
+                               detail=f"not judged: {where}{word} was rejected at intake{at} "
                                       f"({problem.shown!r}) and no default is used in its place; "
                                       "record a valid value")
         inputs["implausible"] = problem.shown
         return CheckResult(check=check, outcome=Outcome.INVESTIGATE, method="implausible_value",
                            value=problem.value, unit=FIELDS[problem.field].symbol, inputs=inputs,
                            basis=problem.basis,
-                           detail=f"not judged: {where}{problem.field} {problem.shown} {problem.reason}; "
+                           detail=f"not judged: {where}{word} {problem.shown}{at} {problem.reason}; "
                                   "check the reading and the record")
 
 
@@ -300,7 +333,23 @@ def judge_record(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, E
     for name, text in record.rejected.items():
         if getattr(record, name) is None:
             found[name] = Problem(field=name, shown=text, rejected=True, reason="was rejected at intake")
+    if record.marks:
+        _judge_marks(record, defaults, found)
     return found
+
+
+def _judge_marks(record: CircuitRecord, defaults: Mapping[str, Entry], found: dict[str, Problem]) -> None:
+    """LIM is withheld; N/A only where a default or an inference would otherwise stand in for it."""
+    for name, mark in record.marks.items():
+        if getattr(record, name) is not None or name in found:
+            continue
+        if mark != LIMITATION:
+            entry = defaults.get(name)
+            stands_in = (entry is not None and entry.value is not None) or name in INFERENCES \
+                or name == "neutral_mm2"
+            if not stands_in:
+                continue
+        found[name] = Problem(field=name, shown=mark, mark=mark, reason=MARK_REASONS.get(mark, mark))
 
 
 def usable(record: CircuitRecord, rules: Ruleset, name: str) -> bool:

@@ -30,10 +30,14 @@ from typing import Literal
 from .errors import ReadingError
 from .units import UnitMismatch, UnknownUnit, unit_factor
 
-__all__ = ["Reading", "Relation", "format_number", "parse_number", "parse_reading", "tidy_value"]
+__all__ = ["DECLARE_COMMAS", "Reading", "Relation", "format_number", "parse_number", "parse_reading",
+           "tidy_value"]
 
 Relation = Literal["=", ">", "<"]
 
+#: How a source declares decimal commas, said wherever a comma is refused.
+DECLARE_COMMAS = (" (declare them with a '#% decimal=comma' line, the profile's decimal setting, "
+                  "or ?decimal=comma)")
 _OVER_RANGE = frozenset({"ol", "o.l", "o.l.", "over", "ovr", "or", "∞", "inf", ">", ">max", "> max"})
 _NO_READING = frozenset({"", "-", "–", "n/a", "na", "nt", "n.t.", "not tested", "none", "null"})
 _DASHES = re.compile(r"^-{3,}$")
@@ -120,7 +124,8 @@ def parse_number(text: str, *, decimal_comma: bool = False) -> float:
     if decimal_comma:
         cleaned = cleaned.replace(".", "").replace(",", ".")
     elif "," in cleaned:
-        raise ValueError(f"{text!r} has a comma, but the source does not declare decimal commas")
+        raise ValueError(f"{text!r} has a comma, but the source does not declare decimal "
+                         f"commas{DECLARE_COMMAS}")
     value = float(cleaned)
     if not math.isfinite(value):
         raise ValueError(f"{text!r} is not a finite number")

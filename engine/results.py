@@ -174,8 +174,11 @@ class Verdict:
     circuit: str
     outcome: Outcome
     checks: tuple[CheckResult, ...]
+    description: str | None = None
     defaults_applied: Mapping[str, Any] = field(default_factory=dict)
     inferred: Mapping[str, Any] = field(default_factory=dict)
+    inherited: Mapping[str, str] = field(default_factory=dict)
+    """Field → where the value a check read came from: ``"board DB2"`` or ``"installation"``."""
     errors: tuple[Mapping[str, str], ...] = ()
 
     @property
@@ -186,10 +189,12 @@ class Verdict:
         out: dict[str, Any] = {
             "board": self.board,
             "circuit": self.circuit,
+            "description": self.description,
             "outcome": self.outcome.value,
             "checks": [c.as_dict() for c in self.checks],
             "defaults_applied": dict(self.defaults_applied),
             "inferred": dict(self.inferred),
+            "inherited": dict(self.inherited),
         }
         if self.errors:
             out["errors"] = [dict(e) for e in self.errors]

@@ -18,7 +18,9 @@ What is kept from a finished board (few records whatever the input's size):
 
 Invariants:
 - On input grouped by board, with feeder circuits marked ``distribution``, the
-  verdicts equal ``verify()``'s on the same records (``tests/engine/test_stream.py``).
+  verdicts equal ``verify()``'s on the same records and site
+  (``tests/engine/test_stream.py``). The site (installation and board records)
+  is small and held whole; each run's circuits inherit from it as in ``verify``.
 - A board whose feeder chain names a record not seen yet (a sub-board listed
   before the board that feeds it) is held back and verified at the end of the
   stream, with everything kept by then: its verdicts come after the others.
@@ -31,7 +33,7 @@ Invariants:
 from __future__ import annotations
 
 from collections import ChainMap
-from collections.abc import Iterable, Iterator
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -41,6 +43,7 @@ from .feeders import FeederProblem, feeder_chain
 from .records import CircuitRecord
 from .results import Verdict
 from .ruleset import Ruleset, load_ruleset
+from .site import Site
 from .verify import verify_one
 
 __all__ = ["verify_stream"]
@@ -56,13 +59,15 @@ class _Kept:
     records: dict[tuple[str, str], CircuitRecord] = field(default_factory=dict)
     by_board: dict[str, list[CircuitRecord]] = field(default_factory=dict)
     cache: dict[Any, Any] = field(default_factory=dict)
+    sources: dict[tuple[str, str], Mapping[str, str]] = field(default_factory=dict)
 
-    def context(self, run: list[CircuitRecord], rules: Ruleset) -> Context:
+    def context(self, run: list[CircuitRecord], rules: Ruleset, site: Site | None) -> Context:
         """One board's run layered over the kept records (nothing copied)."""
-        own = Context.build(run, rules)
+        own = Context.build(run, rules, site)
         return Context(ruleset=rules, records=ChainMap(dict(own.records), self.records),
                        by_board=ChainMap(dict(own.by_board), self.by_board),
-                       cache=ChainMap({}, self.cache))
+                       cache=ChainMap({}, self.cache), site=site,
+                       sources=ChainMap(dict(own.sources), self.sources))
 
     def keep(self, board: str, ctx: Context) -> None:
         """Remember the board's distribution circuits, its own feeder and its Ze summary."""
@@ -79,6 +84,8 @@ class _Kept:
                 stub.append(record)
         for record in feeders:
             self.records[record.key] = record
+            if record.key in ctx.sources:
+                self.sources[record.key] = ctx.sources[record.key]
         self.by_board[board] = stub
         full = board_ze(board, ctx)  # per-circuit estimates matter only on the board itself
         self.cache[(_ZE_KEY, board)] = BoardZe(board=board, consensus_ohm=full.consensus_ohm,
@@ -108,19 +115,19 @@ def _verdicts(ctx: Context) -> list[Verdict]:
     return [verify_one(record, ctx) for record in own.values()]
 
 
-def verify_stream(records: Iterable[CircuitRecord],
-                  ruleset: Ruleset | str | None = None) -> Iterator[Verdict]:
+def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+                  site: Site | None = None) -> Iterator[Verdict]:
     """Verdicts board by board, for records grouped by board (see the module's notes)."""
     rules = load_ruleset(ruleset)
     kept = _Kept()
     held: list[list[CircuitRecord]] = []
     for run in _runs(records):
         board = run[0].board
-        ctx = kept.context(run, rules)
+        ctx = kept.context(run, rules, site)
         kept.keep(board, ctx)
         if _waits_for_feeder(board, ctx):
             held.append(run)
             continue
         yield from _verdicts(ctx)
     for run in held:
-        yield from _verdicts(kept.context(run, rules))
+        yield from _verdicts(kept.context(run, rules, site))

@@ -71,7 +71,7 @@ def own_drop(view: CircuitView) -> Drop | NoDrop:
     current = circuit_current(view)
     if current is None:
         return NoDrop(missing=["design_current_a or device_rating_a"],
-                      detail="needs Ib (design_current_a) or In (device_rating_a) for the current")
+                      detail="needs Ib (the design current) or In (the device's rating) for the current")
     amps, basis = current
     rules = view.ruleset
     alpha = float(rules.value("temperature", "alpha_per_k"))
@@ -159,7 +159,7 @@ def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, no
                     explanation="balanced three-phase, per-phase R1 × F × I", inputs=inputs)
     neutral = area(view.raw("neutral_mm2"))
     if neutral is not None and line is None:
-        notes.append("neutral_mm2 given without line_mm2: the neutral/line ratio is unknown")
+        notes.append("a neutral size given without the line size: the neutral/line ratio is unknown")
         return None
     ratio = 1.0 if neutral is None or line is None else line / neutral
     if neutral is None and line is not None:

@@ -13,6 +13,7 @@ from typing import Any
 
 from ..readings import Reading
 from ..results import CheckResult, Outcome
+from ..words import words
 
 __all__ = ["Side", "compare_max", "compare_min", "incomplete", "not_applicable_if_none"]
 
@@ -50,7 +51,7 @@ def compare_min(reading: Reading, limit: float) -> Side:
 def incomplete(check: str, missing: list[str], *, detail: str | None = None,
                basis: str | None = None, inputs: Mapping[str, Any] | None = None) -> CheckResult:
     """The check applies but the record lacks what it needs: say what."""
-    text = detail or f"needs {', '.join(missing)} to decide"
+    text = detail or f"needs {words(missing)} to decide"
     return CheckResult(check=check, outcome=Outcome.INCOMPLETE, detail=text, basis=basis,
                        inputs={"missing": list(missing), **(inputs or {})})
 

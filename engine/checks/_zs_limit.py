@@ -45,11 +45,11 @@ class ZsLimit:
         out = []
         timing = self.timing
         if timing is not None and timing.refused_override is not None:
-            out.append(f"the record's max_disconnection_s {timing.refused_override:g} s is longer than the "
-                       f"{timing.seconds:g} s the regulation requires ({timing.reason}): the regulation's "
-                       "time is used")
+            out.append(f"the record's maximum disconnection time {timing.refused_override:g} s is longer "
+                       f"than the {timing.seconds:g} s the regulation requires ({timing.reason}): "
+                       "the regulation's time is used")
         if self.refused and "device_max_zs_ohm" in self.refused:
-            out.append(f"the record's device_max_zs_ohm {self.refused['device_max_zs_ohm']:g} Ω is above the "
+            out.append(f"the record's given maximum Zs {self.refused['device_max_zs_ohm']:g} Ω is above the "
                        f"{self.max_zs.ohm:g} Ω the table gives {self.max_zs.device}: the table's value "
                        "is used")
         return "; ".join(out)
@@ -99,7 +99,7 @@ def table_max_zs(ctx: Context, device: Device, u0: float, seconds: float) -> Max
 
 
 def _designer(figure: float, why: str) -> MaxZs:
-    return MaxZs(ohm=figure, basis=f"record: device_max_zs_ohm (the designer's or maker's figure; {why})",
+    return MaxZs(ohm=figure, basis=f"record: the given maximum Zs (the designer's or maker's figure; {why})",
                  device="as recorded")
 
 
@@ -112,8 +112,8 @@ def _with_override(figure: float, device: Device | Missing, timing: Disconnectio
         strictest = table_max_zs(ctx, device, u0, min(times))
         if isinstance(strictest, MaxZs) and figure > strictest.ohm:
             return Missing(fields=timing.fields,
-                           reason=f"{timing.reason}: needed to tell whether device_max_zs_ohm {figure:g} Ω "
-                                  f"is within the table for {device.label()}")
+                           reason=f"{timing.reason}: needed to tell whether the given maximum Zs "
+                                  f"{figure:g} Ω is within the table for {device.label()}")
         return ZsLimit(max_zs=_designer(figure, "no longer than any tabulated time allows"), seconds=None)
     table = table_max_zs(ctx, device, u0, timing.seconds)
     if isinstance(table, Missing):

@@ -72,8 +72,8 @@ def _plausibility(view: CircuitView, name: str, reading: Reading,
     if expected is None:
         if reading.relation == ">":
             return Outcome.INVESTIGATE, f"{name} {shown} is bounded: continuity is not shown", {}, None
-        return (Outcome.PASS, f"{name} {shown} recorded; give length_m, line_mm2 and cpc_mm2 to compare "
-                "it with IEC 60228", {"expected_ohm": None}, None)
+        return (Outcome.PASS, f"{name} {shown} recorded; give the length, line size and cpc size to "
+                "compare it with IEC 60228", {"expected_ohm": None}, None)
     value, how = expected
     rules = view.ruleset
     ratio = float(rules.value(CHECK, "expected_ratio"))

@@ -30,6 +30,14 @@ __all__ = ["run"]
 CHECK = "earth_electrode"
 SECTION = "earth_electrode"
 _MA_PER_A = 1000.0
+
+
+def _volts(product: Reading) -> str:
+    """RA × IΔn as a person reads it: 1.86 V, not the float's 1.8599999999999999 V."""
+    if product.value is None:
+        return product.display("V")
+    relation = "" if product.relation == "=" else f"{product.relation} "
+    return f"{relation}{product.value:.4g} V"
 _OUTCOME = {Side.WITHIN: Outcome.PASS, Side.BEYOND: Outcome.FAIL, Side.UNKNOWN: Outcome.INVESTIGATE}
 
 
@@ -64,7 +72,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
             check=CHECK, outcome=_OUTCOME[side], value=product.value, relation=product.relation,
             limit=touch_v, limit_kind="max", unit="V", method="ra_x_idn", basis=basis,
             inputs={**inputs, "rcd_residual_ma": idn_ma},
-            detail=f"RA {ra.display('Ω')} × IΔn {idn_ma:g} mA = {product.display('V')}, {words} "
+            detail=f"RA {ra.display('Ω')} × IΔn {idn_ma:g} mA = {_volts(product)}, {words} "
                    f"the {touch_v:g} V limit")
     stable = float(rules.value(SECTION, "stable_max_ohm"))
     side = compare_max(ra, stable)

@@ -13,6 +13,9 @@ Invariants:
   installation's electrode too. Where ``ra_ohm`` is recorded (exact readings),
   Ze − RA is compared; otherwise Ze above 21 Ω → investigate, asking for RA.
 - Earthing unknown → incomplete; IT (no declared figure) → left out.
+- On the circuits of a sub-board with a board record, a second result judges
+  the board's Zdb against its feeder (method ``zdb_vs_feeder``,
+  :mod:`engine.checks.zdb_feeder`), in every ruleset: it needs no declared figure.
 """
 
 from __future__ import annotations
@@ -20,9 +23,11 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from ..context import CircuitView, Context
+from ..plausibility import Withheld
 from ..readings import Reading
 from ..results import CheckResult, Outcome
 from ._compare import Side, compare_max, incomplete
+from .zdb_feeder import zdb_vs_feeder
 
 __all__ = ["run"]
 
@@ -31,6 +36,16 @@ SECTION = "external_impedance"
 
 
 def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+    try:
+        yield from _declared(view, ctx)
+    except Withheld as exc:  # the board's Zdb is judged apart from this circuit's Ze
+        yield exc.result(CHECK, view.record.key)
+    board = zdb_vs_feeder(view, ctx)
+    if board is not None:
+        yield board
+
+
+def _declared(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     rules = ctx.ruleset
     ze = view.reading("ze_ohm")
     if ze is None or not rules.get(SECTION, "applies", False):
@@ -65,7 +80,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
                 f"{earthing}: not a regulation limit, but confirm the supply with the network "
                 "operator and check that the design used this Ze")
         if earthing == "TT" and method == "declared_maximum":
-            text += "; for TT the figure excludes the installation's electrode (record ra_ohm)"
+            text += "; for TT the figure excludes the installation's electrode (record RA)"
             inputs["missing"] = ["ra_ohm"] if ra is None else []
     yield CheckResult(check=CHECK, outcome=outcome, value=value, relation=relation, limit=limit,
                       limit_kind="max", unit="Ω", method=method, basis=basis, inputs=inputs,

@@ -26,6 +26,7 @@ Invariants:
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
 from typing import Any
 
@@ -59,7 +60,7 @@ def _capacity(view: CircuitView, rules: Ruleset, pfc: Reading) -> CheckResult:
         typical: dict[str, float] = rules.get(SECTION, "typical_breaking_ka", {}) or {}
         standard = match_standard(view.raw("device_standard"), list(typical))
         hint: dict[str, Any] = {}
-        detail = "needs device_breaking_ka to compare with the PFC"
+        detail = "needs the device's breaking capacity to compare with the PFC"
         if standard is not None:
             hint = {"typical_breaking_ka": typical[standard],
                     "typical_basis": rules.basis(SECTION, "typical_breaking_ka")}
@@ -71,7 +72,10 @@ def _capacity(view: CircuitView, rules: Ruleset, pfc: Reading) -> CheckResult:
     method, what, judged = "breaking_capacity", "PFC", pfc
     if phases == 3 and multiple is not None:
         factor = float(multiple)
-        judged = Reading(value=None if pfc.value is None else pfc.value * factor, relation=pfc.relation)
+        estimate = None if pfc.value is None else pfc.value * factor
+        if estimate is not None and not math.isfinite(estimate):  # beyond any float: over range, found
+            estimate = None  # by the property test (a PFC of 1.7e308 kA on a three-phase circuit)
+        judged = Reading(value=estimate, relation=pfc.relation if estimate is not None else ">")
         inputs.update(three_phase_multiple=factor, three_phase_ka=judged.value)
         method, what = "three_phase_estimate", f"three-phase PFC ≈ {factor:g} × {pfc.display('kA')} ="
         basis = f"{basis}; {rules.basis(SECTION, 'three_phase_multiple')}"

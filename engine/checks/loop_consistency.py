@@ -4,9 +4,12 @@ Two results per circuit that has a Zs reading (without Zs there is nothing to
 cross-check; ``loop_impedance`` reports the missing Zs):
 
 1. ``ze_plus_r1r2``: Zs against Ze + Σ(feeders' R1+R2) + R1+R2. Ze is the
-   origin's: the record's own ``ze_ohm``, else one recorded on its board, else
-   on the board at the top of its feeder chain. For a sub-board the feeders'
-   R1+R2 are part of the loop. Missing pieces → ``incomplete`` naming them.
+   origin's: the record's own ``ze_ohm`` (or the installation's, inherited),
+   else one recorded on its board, else on the board at the top of its feeder
+   chain. For a sub-board the feeders' R1+R2 are part of the loop. A Ze the
+   circuit inherited from its board's record is that board's Zdb, measured at
+   the board: the feeders are already in it, so Zs is compared with
+   Zdb + R1+R2. Missing pieces → ``incomplete`` naming them.
 2. ``board_consensus``: the circuit's Zs − (R1+R2) against the median of that
    estimate over the board (``engine.board_consistency``), when the board has
    at least ``consensus_min_circuits`` estimates. Catches the one circuit whose
@@ -28,6 +31,7 @@ from typing import Any
 from ..board_consistency import board_ze
 from ..context import CircuitView, Context
 from ..feeders import FeederProblem, feeder_chain
+from ..inheritance import INSTALLATION
 from ..readings import Reading
 from ..results import CheckResult, Outcome
 from ._compare import incomplete
@@ -46,7 +50,7 @@ def tolerance_ohm(view: CircuitView, expected_ohm: float) -> float:
 def _origin_ze(view: CircuitView, ctx: Context) -> tuple[Reading, str] | FeederProblem | None:
     own = view.reading("ze_ohm")
     if own is not None:
-        return own, "record"
+        return own, view.source("ze_ohm") or "record"
     board = view.record.board
     here = board_ze(board, ctx).measured_ze_ohm
     if here is not None:
@@ -115,7 +119,7 @@ def _against_ze(view: CircuitView, ctx: Context, zs: Reading, r1r2: float, basis
                 consensus: float | None) -> Iterator[CheckResult]:
     origin = _origin_ze(view, ctx)
     if view.raw("earthing") == "TT" and not (
-        isinstance(origin, tuple) and origin[1] in ("record", f"board {view.record.board}")
+        isinstance(origin, tuple) and origin[1] in ("record", INSTALLATION, f"board {view.record.board}")
     ):
         # On TT the fault loop returns through this installation's own electrode (RA),
         # not through the supply's earth: a Ze inherited from an upstream TN board says
@@ -131,11 +135,13 @@ def _against_ze(view: CircuitView, ctx: Context, zs: Reading, r1r2: float, basis
                          detail=f"needs Ze to compare Zs with Ze + R1+R2{said}")
         return
     ze, ze_source = origin
+    at_board = ze_source == f"board {view.record.board}" and view.source("ze_ohm") == ze_source
+    label = "Zdb" if at_board else "Ze"
     if not ze.exact or ze.value is None:
         yield incomplete(CHECK, ["ze_ohm"], basis=basis,
-                         detail=f"Ze {ze.display('Ω')} is not an exact reading{said}")
+                         detail=f"{label} {ze.display('Ω')} is not an exact reading{said}")
         return
-    chain = feeder_chain(view.record.board, ctx)
+    chain = () if at_board else feeder_chain(view.record.board, ctx)
     feeders: list[str] = []
     upstream = 0.0
     if not isinstance(chain, FeederProblem):
@@ -148,7 +154,7 @@ def _against_ze(view: CircuitView, ctx: Context, zs: Reading, r1r2: float, basis
                 return
             upstream += reading.value
             feeders.append(ref)
-    what = f"Ze {ze.value:.3g} Ω" + (f" + feeders {upstream:.3g} Ω" if feeders else "") \
+    what = f"{label} {ze.value:.3g} Ω" + (f" + feeders {upstream:.3g} Ω" if feeders else "") \
         + f" + R1+R2 {r1r2:.3g} Ω"
     inputs: dict[str, Any] = {"ze_ohm": ze.value, "ze_source": ze_source, "r1_r2_ohm": r1r2,
                               "feeders": feeders, "feeders_r1_r2_ohm": upstream}

@@ -114,7 +114,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     if zs is None:
         notes = limit.notes()
         yield incomplete(CHECK, ["zs_ohm"], basis=limit.max_zs.basis, inputs=limit.inputs(),
-                         detail=f"needs zs_ohm to decide{'; ' + notes if notes else ''}")
+                         detail=f"needs Zs to decide{'; ' + notes if notes else ''}")
         return
     yield _finish(_judge(view, ctx, zs, limit, idn), limit)
 
@@ -165,7 +165,7 @@ def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: ZsLimit, idn: fl
         return CheckResult(
             outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=thumb,
             method="rule_of_thumb", inputs={**inputs, "missing": ["ze_ohm"]}, **common,
-            detail=f"Zs {zs.display('Ω')} is within the {max_zs.ohm:g} Ω maximum but {why}; ze_ohm "
+            detail=f"Zs {zs.display('Ω')} is within the {max_zs.ohm:g} Ω maximum but {why}; Ze "
                    "would allow the temperature-corrected check")
     return _hot(view, rules, zs, ze, limit, idn, inputs, common)
 

@@ -53,7 +53,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     rating, ib = view.raw("device_rating_a"), view.raw("design_current_a")
     if rating is None:
         yield incomplete(CHECK, ["device_rating_a"], basis=basis,
-                         detail="needs In (device_rating_a) to compare with Ib and Iz")
+                         detail="needs the device's rating In to compare with Ib and Iz")
         return
     rating = float(rating)
     if ib is not None:
@@ -93,8 +93,8 @@ def _in_le_iz(view: CircuitView, ctx: Context, rating: float, basis: str) -> Che
     if table is None:
         missing = ["cable_iz_a"] + [n for n in ("line_mm2",) if view.raw(n) is None]
         return incomplete(CHECK, missing, basis=basis, inputs=inputs,
-                          detail="needs Iz: cable_iz_a, or a copper cable's size, type and reference method "
-                                 "the ruleset's tables hold")
+                          detail="needs Iz: the designer's Iz, or a copper cable's size, type and "
+                                 "installation method the ruleset's tables hold")
     return _from_table(table, product, rating, k, inputs, basis)
 
 
@@ -190,8 +190,8 @@ def _ring(view: CircuitView, rules: Ruleset, rule: dict[str, Any], designer: Any
         basis = f"{basis}; {table.basis}"
     else:
         return incomplete(CHECK, ["cable_iz_a", "reference_method"], basis=basis, inputs=inputs,
-                          detail=f"a ring on {rating:g} A needs Iz ≥ {need:g} A: give cable_iz_a, or the "
-                                 "cable type and reference method")
+                          detail=f"a ring on {rating:g} A needs Iz ≥ {need:g} A: give the designer's Iz, or "
+                                 "the cable type and installation method")
     if low < need <= high:
         return incomplete(CHECK, list(table.unknown) if table is not None else ["cable_iz_a"], basis=basis,
                           inputs={**inputs, "iz_range_a": [low, high]},

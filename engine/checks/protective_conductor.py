@@ -62,7 +62,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     cpc, line = view.raw("cpc_mm2"), view.raw("line_mm2")
     table_basis = rules.basis(SECTION, "table_minimum")
     if cpc is None:
-        yield incomplete(CHECK, ["cpc_mm2"], basis=table_basis, detail="needs the cpc's size (cpc_mm2)")
+        yield incomplete(CHECK, ["cpc_mm2"], basis=table_basis, detail="needs the cpc size")
         return
     cpc = float(cpc)
     inputs: dict[str, Any] = {"cpc_mm2": cpc}

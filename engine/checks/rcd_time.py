@@ -52,7 +52,7 @@ def _without_idn(result: CheckResult, evidence: str) -> CheckResult:
         return result
     return replace(result, outcome=Outcome.INCOMPLETE,
                    inputs={**result.inputs, "missing": ["rcd_residual_ma"], "rcd_inferred_from": evidence},
-                   detail=f"{result.detail}, but IΔn (rcd_residual_ma) is not recorded, so the test "
+                   detail=f"{result.detail}, but the RCD's IΔn is not recorded, so the test "
                           "current is not shown")
 
 

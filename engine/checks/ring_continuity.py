@@ -117,7 +117,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         ratio = cpc_to_line_ratio(view)
         if ratio is None:
             yield incomplete(CHECK, ["line_mm2", "cpc_mm2"], basis=basis,
-                             detail="needs line_mm2 and cpc_mm2 to compare r2 with r1")
+                             detail="needs the line size and cpc size to compare r2 with r1")
         else:
             factor, how = ratio
             lo, hi = _bounds(r1)

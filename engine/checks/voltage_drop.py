@@ -73,7 +73,7 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     u0 = float(view.get("nominal_voltage_v"))
     if u0 <= 0:
         yield incomplete(CHECK, ["nominal_voltage_v"], basis=basis, inputs=inputs,
-                         detail=f"nominal_voltage_v {u0:g} V is not a usable U0 for the limit")
+                         detail=f"U0 {u0:g} V is not usable for the limit")
         return
     limit = u0 * (base + allowance) / 100.0
     inputs.update(upstream_v=upstream.volts,
@@ -91,8 +91,8 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         detail = f"drop {figure}, within the {limit:.3g} V limit ({words})"
     elif own.method in _QUICK_METHODS:
         outcome = Outcome.INVESTIGATE
-        detail = (f"quick drop {figure} exceeds the {limit:.3g} V limit ({words}); give line_mm2 "
-                  f"and cpc_mm2 (or R2) so R1+R2 can be split before deciding")
+        detail = (f"quick drop {figure} exceeds the {limit:.3g} V limit ({words}); give the line size "
+                  f"and cpc size (or R2) so R1+R2 can be split before deciding")
     else:
         outcome = Outcome.FAIL
         detail = f"drop {figure} exceeds the {limit:.3g} V limit ({words})"

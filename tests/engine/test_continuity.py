@@ -116,4 +116,4 @@ def test_without_cable_data_the_reading_is_recorded() -> None:
     """With no length or sizes the reading passes as recorded and says what would let it be compared."""
     check = one(r1_r2_ohm=0.5)
     assert (check.outcome, check.method, check.limit) == ("pass", "recorded", None)
-    assert "length_m" in check.detail
+    assert "length, line size and cpc size" in check.detail  # the trade's words, not field names
