@@ -29,7 +29,7 @@ from standardwebhooks.webhooks import Webhook
 
 from api.db.models.webhooks import WebhookSecret
 from api.settings import SettingsError, load_settings
-from api.webhooks.sealing import KEY_FILE, SecretBox, SecretUnreadable, box_for_app
+from api.webhooks.sealing import KEY_FILE, SecretBox, SecretUnreadable, ServerKeyFileError, box_for_app
 from api.webhooks.secret_store import reseal_all
 from api.webhooks.signing import format_secret, new_secret, parse_secret
 from tests.api.keyring import bearer, issue_key, unique_org
@@ -156,8 +156,8 @@ def test_the_default_overlap_is_bounded(value: str) -> None:
 
 def test_unset_key_with_auth_off_uses_one_generated_key_file(db_url: str, tmp_path: Path,
                                                              app_factory: Callable[..., Flask]) -> None:
-    """With no key and auth off, the first subscription writes one key (mode 0600) into the instance
-    folder; a second app on the same folder uses the same key; a key file others may read is refused."""
+    """With no key and auth off, the first app writes one key (mode 0600) into the instance folder; a
+    second app on the same folder uses the same key; a key file others may read stops the boot."""
     first = app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
     sub = subscribe(first.test_client(), "http://127.0.0.1:9/x")
     key_file = tmp_path / KEY_FILE
@@ -168,11 +168,8 @@ def test_unset_key_with_auth_off_uses_one_generated_key_file(db_url: str, tmp_pa
         (row,) = session.scalars(select(WebhookSecret)).all()
     assert box is not None and box.open(sub["id"], row.sealed) == parse_secret(sub["secret"])
     key_file.chmod(0o644)
-    third = app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
-    refused = third.test_client().post("/v1/webhooks", json={"url": "http://127.0.0.1:9/y",
-                                                             "events": ["job.created"]})
-    assert refused.status_code == 503 and refused.get_json()["code"] == "secret_key_unusable"
-    assert str(tmp_path) not in refused.get_data(as_text=True)
+    with pytest.raises(ServerKeyFileError, match="chmod 600"):  # refused at boot, not at first use
+        app_factory(db_url, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
 
 
 def test_unset_key_with_auth_on_stores_nothing(db_url: str, app_factory: Callable[..., Flask]) -> None:
