@@ -1,4 +1,5 @@
-"""``ohmtally keys create|list|revoke``: API keys per organisation, administered on the server host.
+"""``ohmtally keys create|list|revoke|reseal``: API keys per organisation, and the server key that
+seals webhook secrets, administered on the server host.
 
 Invariants:
 - ``create`` prints the secret once, on stdout, and nothing else ever shows
@@ -10,6 +11,10 @@ Invariants:
 - ``list`` never prints a secret or a hash: id, organisation, name, display
   prefix, scopes, created, expires, revoked, last used.
 - ``revoke`` takes effect on the next request; revoking twice is not an error.
+- ``reseal`` re-encrypts every stored webhook secret with the first key of
+  ``OHMTALLY_ENCRYPTION_KEY`` (every key listed still opens them), in one
+  transaction: after it, the old server key can be dropped from the setting
+  (api/webhooks/README.md, "Rotating the server key").
 - The database is ``--database-url`` / ``OHMTALLY_DATABASE_URL`` / the
   instance SQLite file, like ``ohmtally db upgrade``; it must be migrated.
 """
@@ -22,7 +27,18 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from typing import Any
 
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.cli.db import resolve_database_url
+from api.db.models import ApiKey, Organisation, utcnow
+from api.db.schema import SchemaNotCurrent, check_schema
+from api.db.session import make_engine
+from api.http.keys import KeySpecError, create_key, organisation_named, parse_expiry, parse_scopes
+from api.settings import SettingsError, load_settings
+from api.webhooks.sealing import load_box
+from api.webhooks.secret_store import reseal_all
 
 __all__ = ["register"]
 
@@ -49,7 +65,10 @@ def register(sub: Any) -> None:
     revoke = inner.add_parser("revoke", help="stop a key working")
     revoke.add_argument("id", type=int, metavar="ID")
     revoke.set_defaults(func=_revoke)
-    for action in (create, listing, revoke):
+    reseal = inner.add_parser("reseal", help="seal every webhook secret again with the first server key "
+                              "(the last step of rotating OHMTALLY_ENCRYPTION_KEY)")
+    reseal.set_defaults(func=_reseal)
+    for action in (create, listing, revoke, reseal):
         action.add_argument("--database-url", help="SQLAlchemy URL (default: OHMTALLY_DATABASE_URL, "
                             "else the SQLite file in the instance folder)")
 
@@ -57,12 +76,6 @@ def register(sub: Any) -> None:
 @contextmanager
 def _open(args: argparse.Namespace) -> Iterator[Any]:
     """A session on the migrated database (``None`` after printing why not); the pool closed after."""
-    from sqlalchemy.orm import Session
-
-    from api.cli.db import resolve_database_url
-    from api.db.schema import SchemaNotCurrent, check_schema
-    from api.db.session import make_engine
-
     url = resolve_database_url(args.database_url)
     engine = make_engine(url)
     try:
@@ -80,9 +93,6 @@ def _open(args: argparse.Namespace) -> Iterator[Any]:
 
 
 def _create(args: argparse.Namespace) -> int:
-    from api.db.models import utcnow
-    from api.http.keys import KeySpecError, create_key, organisation_named, parse_expiry, parse_scopes
-
     try:
         scopes = parse_scopes(args.scope)
         expires_at = parse_expiry(args.expires, utcnow())
@@ -118,10 +128,6 @@ def _when(value: Any) -> str:
 
 
 def _list(args: argparse.Namespace) -> int:
-    from sqlalchemy import select
-
-    from api.db.models import ApiKey, Organisation
-
     with _open(args) as session:
         if session is None:
             return EXIT_BAD_INPUT
@@ -136,8 +142,6 @@ def _list(args: argparse.Namespace) -> int:
 
 
 def _revoke(args: argparse.Namespace) -> int:
-    from api.db.models import ApiKey, utcnow
-
     with _open(args) as session:
         if session is None:
             return EXIT_BAD_INPUT
@@ -149,4 +153,25 @@ def _revoke(args: argparse.Namespace) -> int:
             key.revoked_at = utcnow()
             session.commit()
         print(f"key {key.id} ({key.name}) revoked at {_when(key.revoked_at)}")
+    return EXIT_OK
+
+
+def _reseal(args: argparse.Namespace) -> int:
+    try:
+        settings = load_settings()
+    except SettingsError as exc:
+        print(f"ohmtally keys reseal: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    if settings.encryption_keys is None:
+        print("ohmtally keys reseal: set OHMTALLY_ENCRYPTION_KEY (the new key first, then the old ones)",
+              file=sys.stderr)
+        return EXIT_USAGE
+    box = load_box(settings, settings.instance_path or "")
+    assert box is not None  # a key is set, so the box is made from it
+    with _open(args) as session:
+        if session is None:
+            return EXIT_BAD_INPUT
+        count = reseal_all(session, box)
+        session.commit()
+    print(f"{count} webhook secret(s) sealed with the first server key; the others may now be dropped")
     return EXIT_OK

@@ -203,3 +203,26 @@ def test_rotating_the_server_key_keeps_every_delivery_verifiable(db_url: str, re
     (receipt,) = receiver.receipts
     assert Webhook(sub["secret"]).verify(receipt.body, receipt.headers)["type"] == "job.created"
     assert format_secret(parse_secret(sub["secret"])) == sub["secret"]
+
+
+def test_keys_reseal_finishes_a_server_key_rotation(db_url: str, receiver: Receiver, tmp_path: Path,
+                                                    app_factory: Callable[..., Flask],
+                                                    runner: Callable[..., tuple[int, str, str]],
+                                                    monkeypatch: pytest.MonkeyPatch) -> None:
+    """`ohmtally keys reseal` with NEW,OLD seals every secret with NEW: afterwards NEW alone opens them
+    and a delivery verifies with the subscription's secret; without a key set it is a usage error."""
+    old, new = Fernet.generate_key().decode(), Fernet.generate_key().decode()
+    before = app_factory(db_url, OHMTALLY_ENCRYPTION_KEY=old, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
+    sub = subscribe(before.test_client(), receiver.url, ["job.created"])
+    monkeypatch.setenv("OHMTALLY_INSTANCE_PATH", str(tmp_path))
+    monkeypatch.delenv("OHMTALLY_ENCRYPTION_KEY", raising=False)
+    status, _out, err = runner("keys", "reseal", "--database-url", db_url)
+    assert status == 3 and "OHMTALLY_ENCRYPTION_KEY" in err
+    monkeypatch.setenv("OHMTALLY_ENCRYPTION_KEY", f"{new},{old}")
+    status, out, _err = runner("keys", "reseal", "--database-url", db_url)
+    assert status == 0 and out.startswith("1 webhook secret(s)")
+    after = app_factory(db_url, OHMTALLY_ENCRYPTION_KEY=new, OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on")
+    after.test_client().post("/v1/jobs", json={"reference": "R-2", "site": "Invented site"})
+    assert deliver(after) == 1
+    (receipt,) = receiver.receipts
+    assert Webhook(sub["secret"]).verify(receipt.body, receipt.headers)["type"] == "job.created"
