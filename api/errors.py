@@ -22,7 +22,7 @@ import sqlite3
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from flask import Response, current_app, json
+from flask import Response, current_app, g, json
 
 __all__ = [
     "PROBLEM_MEDIA_TYPE",
@@ -69,8 +69,6 @@ class ApiError(Exception):
 
 
 def problem_response(error: ApiError) -> Response:
-    from flask import g
-
     body = error.body()
     request_id = g.get("request_id")
     if request_id:

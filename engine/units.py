@@ -54,6 +54,9 @@ _registry: Any = None
 def _ureg() -> Any:
     global _registry
     if _registry is None:
+        # Measured start-up cost: pint takes ~100 ms to import here (python -X importtime), more
+        # than the rest of the engine (~55 ms). It is loaded on the first reading that carries a
+        # unit (each token is then cached), so records of bare numbers never pay for it.
         import pint
 
         _registry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)

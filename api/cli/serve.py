@@ -23,7 +23,10 @@ from functools import partial
 from pathlib import Path
 from typing import Any
 
+from gunicorn.app.base import BaseApplication
+
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
+from api.ops.multiprocess import share_metrics_between_workers
 
 __all__ = ["is_loopback_bind", "register", "run"]
 
@@ -57,8 +60,6 @@ def is_loopback_bind(bind: str) -> bool:
 
 
 def _application(factory: Callable[[], Any], options: Mapping[str, Any]) -> Any:
-    from gunicorn.app.base import BaseApplication
-
     class _Server(BaseApplication):  # type: ignore[misc]
         def load_config(self) -> None:
             for key, value in options.items():
@@ -80,14 +81,14 @@ def _control_socket(path: str | None) -> dict[str, Any]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from api.ops.multiprocess import share_metrics_between_workers
-
-    share_metrics_between_workers()  # before api.app imports prometheus_client, which reads it once
+    share_metrics_between_workers()
+    # Start-up order, not cost: prometheus_client reads the multiprocess folder's variable once,
+    # when it is first imported, so the app (which imports it) is imported only after it is set.
     from api.app import create_app
-    from api.db.schema import SchemaNotCurrent
-    from api.ops.agreement import HostsDisagree, check_agreement
-    from api.settings import SettingsError, load_settings
-    from api.webhooks import runner as webhook_hooks
+    from api.db.schema import SchemaNotCurrent  # start-up order (above)
+    from api.ops.agreement import HostsDisagree, check_agreement  # start-up order (above)
+    from api.settings import SettingsError, load_settings  # start-up order (above)
+    from api.webhooks import runner as webhook_hooks  # start-up order (above)
 
     try:
         settings = load_settings()
