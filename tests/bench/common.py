@@ -10,9 +10,8 @@ Invariants:
 - A target that is missed is printed as missed; a feature a target needs that
   this build lacks is a row saying so (``not available in this build``), never
   an error and never a pass. Nothing here fails a test on a time.
-- Nothing here reads a clock other than ``time.perf_counter`` nor changes
-  process-wide state except where a caller asks (the engine bench's one-core
-  pinning restores the affinity it found).
+- Timings come from ``time.perf_counter``; nothing here changes process-wide
+  state (a benchmark that pauses the collector restores it).
 """
 
 from __future__ import annotations
@@ -56,6 +55,8 @@ class Figure:
     def cells(self) -> list[str]:
         met = "" if self.met is None else ("yes" if self.met else "NO")
         value = self.note if self.value is None else _with_spread(self.value, self.spread, self.unit)
+        if self.note and self.value is not None:
+            value += f" ({self.note})"
         ratio = "-" if self.ratio is None else _with_spread(self.ratio, self.ratio_spread, "", ratio=True)
         return [self.bench, self.what, value, _with_spread(self.baseline, self.baseline_spread, self.unit),
                 ratio, self.target, met, str(self.rounds)]
