@@ -16,16 +16,25 @@ from __future__ import annotations
 import json
 import re
 import sys
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from typing import Any
 
 from .checks import CHECKS
-from .fields import FIELDS
+from .fields import FIELDS, FieldSpec
 from .results import CHECK_IDS, OUTCOME_MEANINGS, Outcome
 from .ruleset import MARKERS, builtin_ruleset_ids, load_builtin
+from .site import (
+    BOARD_FIELDS,
+    BOARD_TO_CIRCUIT,
+    INSTALLATION_FIELDS,
+    INSTALLATION_TO_CIRCUIT,
+    ORIGIN_ONLY,
+    SAME_EARTHING_ONLY,
+)
+from .words import word_for
 
-__all__ = ["BLOCKS", "check_table", "field_table", "marker_table", "outcome_table", "ruleset_table",
-           "splice"]
+__all__ = ["BLOCKS", "board_field_table", "check_table", "field_table", "inheritance_table",
+           "installation_field_table", "marker_table", "outcome_table", "ruleset_table", "splice"]
 
 _SHORT_VALUE = 48  # a table or list longer than this is summarised, GET /v1/rulesets/<id> holds it whole
 
@@ -34,15 +43,43 @@ def _cell(text: str) -> str:
     return text.replace("|", "\\|").replace("\n", " ")
 
 
-def field_table() -> str:
+def field_table(table: Mapping[str, FieldSpec] = FIELDS) -> str:
     """Every record field: name, kind, canonical unit, allowed values, meaning."""
     rows = ["| field | kind | unit | values | meaning |", "|---|---|---|---|---|"]
-    for spec in FIELDS.values():
+    for spec in table.values():
         values = ", ".join(f"`{c}`" for c in spec.choices) if spec.choices else ""
         if spec.kind == "flag":
             values = "`true`, `false`"
         rows.append(f"| `{spec.name}` | {spec.kind} | {spec.symbol or ''} | {values} | "
                     f"{_cell(spec.meaning)} |")
+    return "\n".join(rows)
+
+
+def installation_field_table() -> str:
+    """The installation record's fields (engine/site.py)."""
+    return field_table(INSTALLATION_FIELDS)
+
+
+def board_field_table() -> str:
+    """The board record's fields (engine/site.py)."""
+    return field_table(BOARD_FIELDS)
+
+
+def inheritance_table() -> str:
+    """Which circuit field each board and installation field gives, and when."""
+    rows = ["| circuit field | from the board's | from the installation's |", "|---|---|---|"]
+    from_board = {circuit: board for board, circuit in BOARD_TO_CIRCUIT.items()}
+    from_installation = {circuit: inst for inst, circuit in INSTALLATION_TO_CIRCUIT.items()}
+    for name in dict.fromkeys((*BOARD_TO_CIRCUIT.values(), *INSTALLATION_TO_CIRCUIT.values())):
+        board = f"`{from_board[name]}`" if name in from_board else "—"
+        inst = "—"
+        if name in from_installation:
+            inst = f"`{from_installation[name]}`"
+            if from_installation[name] in ORIGIN_ONLY:
+                inst += " (boards at the origin only)"
+            elif from_installation[name] in SAME_EARTHING_ONLY:
+                inst += " (not for a board earthed otherwise)"
+        rows.append(f"| `{name}` ({_cell(word_for(name))}) | {board} | {inst} |")
     return "\n".join(rows)
 
 
@@ -104,6 +141,9 @@ def ruleset_table() -> str:
 
 BLOCKS: dict[str, Callable[[], str]] = {
     "fields": field_table,
+    "installation_fields": installation_field_table,
+    "board_fields": board_field_table,
+    "inheritance": inheritance_table,
     "checks": check_table,
     "outcomes": outcome_table,
     "markers": marker_table,

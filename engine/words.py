@@ -54,11 +54,11 @@ def word_for(name: str) -> str:
     found = FIELD_WORDS.get(name)
     if found is not None:
         return found
+    if " or " in name:  # "design_current_a or device_rating_a"
+        return " or ".join(word_for(part) for part in name.split(" or "))
     where, _, field = name.rpartition(" ")
     if where and field in FIELD_WORDS:
         return f"{where} {FIELD_WORDS[field]}"
-    if " or " in name:  # "design_current_a or device_rating_a"
-        return " or ".join(word_for(part) for part in name.split(" or "))
     return name
 
 

@@ -29,6 +29,7 @@ from typing import Any
 from ..context import CircuitView, Context
 from ..results import CheckResult, Outcome
 from ..ruleset import Ruleset
+from ..words import word_for
 from ._compare import incomplete
 from ._rcd import rcd_evidence
 
@@ -85,8 +86,8 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     top = float(rules.value(SECTION, "max_residual_ma"))
     if idn is None:
         yield incomplete(CHECK, ["rcd_residual_ma"], basis=basis, inputs=inputs,
-                         detail=f"an RCD is there ({evidence}) but its IΔn is not recorded; required "
-                                f"for {why}")
+                         detail=f"an RCD is there ({word_for(evidence)}) but its IΔn is not recorded; "
+                                f"required for {why}")
     else:
         within = float(idn) <= top
         yield CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=float(idn),

@@ -13,6 +13,9 @@ Invariants:
   installation's electrode too. Where ``ra_ohm`` is recorded (exact readings),
   Ze − RA is compared; otherwise Ze above 21 Ω → investigate, asking for RA.
 - Earthing unknown → incomplete; IT (no declared figure) → left out.
+- The declared maxima are the supply's, at the origin: a Ze a circuit inherits
+  from a sub-board's record is that board's Zdb (the sub-main is in it), so it
+  is not compared with them; ``zdb_vs_feeder`` judges it instead.
 - On the circuits of a sub-board with a board record, a second result judges
   the board's Zdb against its feeder (method ``zdb_vs_feeder``,
   :mod:`engine.checks.zdb_feeder`), in every ruleset: it needs no declared figure.
@@ -23,6 +26,8 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from ..context import CircuitView, Context
+from ..feeders import feeder_chain
+from ..inheritance import board_source
 from ..plausibility import Withheld
 from ..readings import Reading
 from ..results import CheckResult, Outcome
@@ -47,6 +52,9 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
 
 def _declared(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     rules = ctx.ruleset
+    board = view.record.board
+    if view.source("ze_ohm") == board_source(board) and feeder_chain(board, ctx) != ():
+        return  # a sub-board's Zdb, not the supply's Ze (judged against its feeder instead)
     ze = view.reading("ze_ohm")
     if ze is None or not rules.get(SECTION, "applies", False):
         return

@@ -114,7 +114,7 @@ def _test_voltage_note(rules: Ruleset, band: Band, test_v: float | None,
                        name: str) -> tuple[Outcome | None, str]:
     """What the test voltage allows: (``None`` = fine, else the outcome it forces), and a note."""
     if test_v is None:
-        return Outcome.INCOMPLETE, "no test voltage recorded (ir_test_v)"
+        return Outcome.INCOMPLETE, "no test voltage recorded (IR test voltage)"
     if test_v >= band.test_v:
         return None, f"tested at {test_v:g} V"
     reduced = rules.get(SECTION, "reduced_le_test_v")

@@ -58,6 +58,8 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         yield incomplete(CHECK, own.missing, detail=own.detail, basis=basis, inputs=own.inputs)
         return
     upstream = upstream_drop(view.record.board, ctx)
+    if view.source("board_fed_from") is not None:
+        view.raw("board_fed_from")  # the feeder its board record names: listed in the verdict's inherited
     inputs: dict[str, Any] = {**own.inputs, "circuit_v": own.volts}
     if isinstance(upstream, FeederProblem):
         inputs["error"] = upstream.as_dict()

@@ -75,15 +75,15 @@ def _judge(board: str, ctx: Context) -> CheckResult | None:
     rules = ctx.ruleset
     basis = (f"{rules.value(_TOLERANCE, 'basis')}, at a board: Zdb = Ze upstream + R1+R2 of the "
              "circuit feeding it")
-    zdb = here.reading("ze_ohm")
-    if zdb is None:
-        return None  # recorded as N/A: no Zdb to compare
     chain = feeder_chain(board, ctx)
+    if not chain:
+        return None  # at the origin: Zdb there is the supply's Ze
     if isinstance(chain, FeederProblem):
         return incomplete(CHECK, ["board_fed_from"], basis=basis, inputs={"error": chain.as_dict()},
                           detail=f"Zdb of board {board} cannot be compared with its feeder: {chain.message}")
-    if not chain:
-        return None  # at the origin: Zdb there is the supply's Ze
+    zdb = here.reading("ze_ohm")
+    if zdb is None:
+        return None  # recorded as N/A: no Zdb to compare
     feeder = chain[0]
     ref = f"{feeder.board}/{feeder.circuit}"
     up = ctx.other_view(feeder)

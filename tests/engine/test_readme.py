@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from engine import CHECK_IDS, FIELDS
+from engine import BOARD_FIELDS, CHECK_IDS, FIELDS, INSTALLATION_FIELDS
 from engine.docs import BLOCKS, splice
 from tests.engine.update_readme import README
 
@@ -27,6 +27,16 @@ def test_every_field_and_check_id_is_in_the_readme() -> None:
         assert f"| `{name}` |" in text, name
     listed = re.findall(r"^\| \d+ \| `([a-z_]+)` \|", text, re.MULTILINE)
     assert tuple(listed) == CHECK_IDS
+
+
+def test_every_board_and_installation_field_is_in_the_readme() -> None:
+    """The site records' fields and the inheritance mapping appear in their generated tables."""
+    text = README.read_text(encoding="utf-8")
+    for block, table in (("installation_fields", INSTALLATION_FIELDS), ("board_fields", BOARD_FIELDS)):
+        body = text.split(f"<!-- generated:{block} -->")[1].split(f"<!-- /generated:{block} -->")[0]
+        assert [line.split("`")[1] for line in body.strip().splitlines()[2:]] == list(table), block
+    inheritance = text.split("<!-- generated:inheritance -->")[1].split("<!-- /generated:inheritance -->")[0]
+    assert "| `ze_ohm` (Ze) | `zdb_ohm` |" in inheritance
 
 
 def test_splice_replaces_only_the_marked_blocks() -> None:
