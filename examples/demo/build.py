@@ -4,7 +4,11 @@ The site is invented (Quarry Hill Joinery, unit 4): boards DB1 (TN-C-S origin),
 DB2 (workshop, fed from DB1/5) and DB3 (TT yard cabin, fed from DB2/4). The
 schedule is the job-management system's JSON, DB1's readings a meter CSV in an
 invented layout (profile example-semicolon-decimal-comma), DB2/DB3 a field
-logger's key=value lines; demo-site.json holds the same records merged.
+logger's key=value lines. demo-site.json is the site document: the installation
+once (TN-C-S, U0, Ze and PFC at the origin, the test temperature), the boards
+with their facts (DB2's Zdb and PFC, fed from DB1/5; DB3 a TT cabin with its own
+RA, fed from DB2/4) and the circuits, which inherit those facts instead of
+repeating them (so its circuits carry no earthing, feeder, Ze, PFC or RA).
 Every check shows a pass and a fail somewhere: additional protection (DB1/2
 passes; the cooker DB1/7, cables concealed in the wall, has no RCD), overload
 (the ring DB1/2 passes Reg. 433.1.204; the water heater DB1/4 on a B20 in an
@@ -123,4 +127,17 @@ for d in design:
         if " " in key or "-" in key: key = key
         lines.append(ck(f"{key}={val}"))
 open(f"{out}/db2-db3-logger.log","w",encoding="utf-8").write("\n".join(lines)+"\n")
-json.dump({"ruleset": "bs7671-2018-a2", "circuits": recs}, open(str(HERE.parent / "demo-site.json"),"w"), indent=1, ensure_ascii=False)
+# ---- the site document: facts recorded once, inherited by the circuits ----
+installation = {"description": "Quarry Hill Joinery, unit 4 (invented demo site)", "earthing": "TN-C-S",
+                "nominal_voltage_v": 230, "supply": "public", "ze_ohm": 0.22, "pfc_ka": 1.04, "test_temp_c": 20}
+boards = [
+ {"board": "DB1", "description": "Main board", "location": "office block, entrance"},
+ {"board": "DB2", "description": "Workshop board", "location": "workshop, north wall", "board_fed_from": "DB1/5",
+  "zdb_ohm": 0.39, "pfc_ka": 0.61},
+ {"board": "DB3", "description": "Yard cabin board", "location": "yard cabin", "board_fed_from": "DB2/4",
+  "earthing": "TT", "ra_ohm": 68},
+]
+SAID_ONCE = {"earthing", "board_fed_from", "ze_ohm", "pfc_ka", "ra_ohm", "test_temp_c"}  # the site says them
+circuits = [{k: v for k, v in r.items() if k not in SAID_ONCE} for r in recs]
+json.dump({"ruleset": "bs7671-2018-a2", "installation": installation, "boards": boards, "circuits": circuits},
+          open(str(HERE.parent / "demo-site.json"),"w"), indent=1, ensure_ascii=False)
