@@ -6,9 +6,14 @@ Invariants:
   the trade's lower- and upper-case resistances, where case is the meaning:
   ``r1``, ``rn`` are a ring's end-to-end readings, ``R2`` the cpc's continuity
   (:data:`_CASED`).
-- Every field name of :mod:`engine.fields` is its own alias, always. Its
-  unit-free form (``zs`` for ``zs_ohm``) is one too, unless that form is
-  ambiguous (``line``, ``cpc``, ``r2``).
+- Every field name of :mod:`engine.fields` is its own alias, always, and so is
+  every trade-notation input (``device``, ``cable``; ``rcd`` spelt exactly so,
+  since ``RCD`` alone is ambiguous) and every board or installation field
+  (``zdb_ohm``, ``location``). Its unit-free form (``zs`` for ``zs_ohm``) is one
+  too, unless that form is ambiguous (``line``, ``cpc``, ``r2``).
+- A label may belong to one scope: ``PFC at board`` is the board's PFC, never
+  a circuit's (``Label.scope``); :mod:`adapters.scopes` says whether a name is
+  read in the record at hand.
 - An alias means one field to every tester. A label that testers use for
   several things (``Voltage``: U0 or the insulation test voltage; ``Type``:
   breaker curve or RCD type; ``RCD``; ``Rating`` …) maps to no field: it is an
@@ -29,11 +34,13 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from engine import FIELDS
+from engine import BOARD_FIELDS, FIELDS, INSTALLATION_FIELDS
+from engine.record_notation import NOTATION_INPUTS
 
 __all__ = [
     "ALIASES",
     "AMBIGUOUS",
+    "SCOPED",
     "Label",
     "field_for_label",
     "fold",
@@ -66,7 +73,7 @@ _TRADE_LABELS: dict[str, tuple[str, ...]] = {
     "load_type": ("Load type",),
     "design_current_a": ("Ib", "Design current"),
     "max_disconnection_s": ("Max disconnection time", "Maximum disconnection time"),
-    "device_kind": ("Device", "Device type", "OCPD type", "Protective device"),
+    "device_kind": ("Device type", "Device kind", "OCPD type"),
     "device_standard": ("Device standard", "BS EN", "BS"),
     "device_curve": ("Curve", "Device curve", "Breaker curve"),
     "device_rating_a": ("In", "Device rating", "OCPD rating"),
@@ -99,7 +106,23 @@ _TRADE_LABELS: dict[str, tuple[str, ...]] = {
     "rcd_trip_5x_ms": ("x5", "5x", "RCD x5", "RCD 5x", "RCD ms x5", "RCD 5x ms", "RCD time x5"),
     "rcd_half_no_trip": ("x1/2", "x½", "RCD x1/2", "RCD half", "Half trip", "No trip at half"),
     "ra_ohm": ("RA", "Ra", "Electrode", "Earth electrode", "Electrode resistance"),
+    # trade notation, read by the engine into the split fields (B32, BS 88-3 32A; 2.5/1.5)
+    "device": ("Device", "Protective device", "OCPD", "Overcurrent device"),
+    "cable": ("Cable", "Cable size", "Cable csa", "Line/cpc", "Live/cpc"),
+    # board facts that are no circuit field
+    "zdb_ohm": ("Zdb", "Zs at board", "Zs at DB"),
+    "location": ("Location", "Board location", "DB location"),
 }
+
+# Labels that name a fact of one scope only: (field, scope) → labels.
+_SCOPED_LABELS: dict[tuple[str, str], tuple[str, ...]] = {
+    ("pfc_ka", "board"): ("PFC at board", "PFC at DB", "Ipf at board"),
+    ("ze_ohm", "installation"): ("Ze at origin",),
+    ("pfc_ka", "installation"): ("PFC at origin", "Ipf at origin"),
+}
+#: Every name that is its own alias: circuit fields, notation inputs, board and installation fields.
+_OWN_NAMES: dict[str, object] = {**INSTALLATION_FIELDS, **BOARD_FIELDS, **FIELDS,
+                                 **dict.fromkeys(NOTATION_INPUTS)}
 
 # Labels that mean different fields to different testers: never guessed, always reported.
 _AMBIGUOUS_LABELS: tuple[tuple[tuple[str, ...], tuple[str, ...], str], ...] = (
@@ -108,7 +131,8 @@ _AMBIGUOUS_LABELS: tuple[tuple[tuple[str, ...], tuple[str, ...], str], ...] = (
     (("Type",), ("device_curve", "rcd_type", "device_kind"),
      "may be a breaker curve, an RCD type (B is both) or the kind of device"),
     (("RCD",), ("rcd_trip_ms", "rcd_residual_ma", "rcd_type"),
-     "may be a trip time, IΔn or the RCD type"),
+     "may be a trip time, IΔn or the RCD type (the RCD as a schedule writes it, 30mA A, is the key "
+     "'rcd' in lower case)"),
     (("Rating",), ("device_rating_a", "rcd_residual_ma", "device_breaking_ka"),
      "may be In, IΔn or the breaking capacity"),
     (("Line", "Live", "L"), ("line_mm2", "ring_r1_ohm"),
@@ -145,8 +169,9 @@ _AMBIGUOUS_LABELS: tuple[tuple[tuple[str, ...], tuple[str, ...], str], ...] = (
      "lower-case r2 is a ring's end-to-end cpc reading, upper-case R2 the cpc's continuity"),
 )
 
-# Exact spellings where case is the meaning (checked before folding).
-_CASED: dict[str, str] = {"r1": "ring_r1_ohm", "rn": "ring_rn_ohm", "R2": "r2_ohm"}
+# Exact spellings where case is the meaning (checked before folding); ``rcd`` is the notation input,
+# while ``RCD`` stays ambiguous.
+_CASED: dict[str, str] = {"r1": "ring_r1_ohm", "rn": "ring_rn_ohm", "R2": "r2_ohm", "rcd": "rcd"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -157,6 +182,7 @@ class Label:
     unit: str | None = None
     fields: tuple[str, ...] = ()
     why: str = ""
+    scope: str | None = None  # "board" / "installation": the label names that record's fact only
 
     @property
     def ambiguous(self) -> bool:
@@ -165,13 +191,13 @@ class Label:
 
 def _unit_free(name: str) -> str:
     """``zs_ohm`` → ``zs``, ``device_rating_a`` → ``device_rating``."""
-    spec = FIELDS[name]
-    if spec.kind in ("reading", "number"):
+    spec = FIELDS.get(name) or BOARD_FIELDS.get(name) or INSTALLATION_FIELDS.get(name)
+    if spec is not None and spec.kind in ("reading", "number"):
         return re.sub(r"_(ohm|mohm|ka|ma|a|v|s|ms|c|m|mm2|mv_per_a_m)$", "", name)
     return name
 
 
-def _build() -> tuple[dict[str, str], dict[str, Label]]:
+def _build() -> tuple[dict[str, str], dict[str, Label], dict[str, Label]]:
     table: dict[str, str] = {}
     for name, labels in _TRADE_LABELS.items():
         for label in labels:
@@ -180,20 +206,25 @@ def _build() -> tuple[dict[str, str], dict[str, Label]]:
     for labels, fields, why in _AMBIGUOUS_LABELS:
         for label in labels:
             ambiguous[fold(label)] = Label(None, None, fields, why)
-    for name in FIELDS:  # a field's own name always means that field
+    for name in _OWN_NAMES:  # a field's own name always means that field
+        if name in _CASED and fold(name) in ambiguous:
+            continue  # spelt exactly (rcd), never folded into an ambiguous label (RCD)
         table[fold(name)] = name
         ambiguous.pop(fold(name), None)
-    for name in FIELDS:  # its unit-free form too, unless testers read it otherwise
+    for name in _OWN_NAMES:  # its unit-free form too, unless testers read it otherwise
         short = fold(_unit_free(name))
         if short not in ambiguous:
             table.setdefault(short, name)
     for key in ambiguous:
         table.pop(key, None)
-    return table, ambiguous
+    scoped = {fold(label): Label(name, scope=scope)
+              for (name, scope), labels in _SCOPED_LABELS.items() for label in labels}
+    return table, ambiguous, scoped
 
 
-ALIASES, AMBIGUOUS = _build()
-"""Folded label → field name; folded label → the fields an ambiguous label could mean."""
+ALIASES, AMBIGUOUS, SCOPED = _build()
+"""Folded label → field name; folded label → the fields an ambiguous label could mean; folded
+label → the field of one scope it names (``PFC at board``)."""
 
 # "Zs (Ω)", "IR L-E [MΩ]", "Zs / Ω": a trailing bracketed or slashed unit
 _HEADER_UNIT = re.compile(r"^(?P<label>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\])\s*$")
@@ -217,7 +248,7 @@ def _lookup(label: str) -> Label | None:
     folded = fold(label)
     if folded in ALIASES:
         return Label(ALIASES[folded])
-    return AMBIGUOUS.get(folded)
+    return SCOPED.get(folded) or AMBIGUOUS.get(folded)
 
 
 @lru_cache(maxsize=4096)
@@ -231,13 +262,13 @@ def resolve_label(label: str) -> Label:
     if unit is not None:
         named = _lookup(bare)
         if named is not None:
-            return Label(named.field, unit if named.field else None, named.fields, named.why)
+            return Label(named.field, unit if named.field else None, named.fields, named.why, named.scope)
     whole = _lookup(label)
     if whole is not None:
         return whole
     named = _lookup(bare)
     if named is not None:
-        return Label(named.field, unit if named.field else None, named.fields, named.why)
+        return Label(named.field, unit if named.field else None, named.fields, named.why, named.scope)
     return Label(None)
 
 
@@ -250,5 +281,5 @@ def field_for_label(label: str) -> tuple[str | None, str | None]:
 @lru_cache(maxsize=1024)
 def suggestion(label: str) -> str | None:
     """The nearest known label, for an unknown one's warning (``Zss`` → ``zs``), or None."""
-    close = difflib.get_close_matches(fold(label), list(ALIASES), n=1, cutoff=0.75)
+    close = difflib.get_close_matches(fold(label), [*ALIASES, *SCOPED], n=1, cutoff=0.75)
     return close[0] if close else None

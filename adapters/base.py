@@ -3,13 +3,16 @@
 Invariants (every adapter keeps them; tests check the built-ins):
 - Results come in input order and stream: memory stays constant in the size of
   the input (one line or row at a time).
-- Every input line is accounted for exactly once: as one :class:`Fragment`,
-  one :class:`LineError` or one :class:`Skipped` (blank, comment, header,
-  context line). A row with one bad cell yields its good cells as a fragment
-  *and* a :class:`LineError` per bad cell (the fragment counts for the line);
-  the fragment names each refused cell in ``rejected`` (field → the text
-  refused), so the record remembers it: a refused value is never replaced by
-  a default.
+- Every input line is accounted for exactly once: as one :class:`Fragment`
+  (a circuit's fields), one :class:`BoardFacts` or :class:`InstallationFacts`
+  (facts recorded once, which circuits inherit), one :class:`LineError` or one
+  :class:`Skipped` (blank, comment, header, context line). A row with one bad
+  cell yields its good cells as a fragment *and* a :class:`LineError` per bad
+  cell (the fragment counts for the line); the fragment names each refused
+  cell in ``rejected`` (field → the text refused), so the record remembers
+  it: a refused value is never replaced by a default. A cell holding ``N/A``
+  or ``LIM`` (:func:`engine.cell_mark`) is neither a value nor an error: it
+  is remembered in ``marks``.
 - Every column and key is accounted for too: a name that is read as no field
   (unknown, ambiguous, a second column for a field already read, a column a
   profile leaves out) is an :class:`InputWarning` right after the result of
@@ -33,8 +36,11 @@ __all__ = [
     "Adapter",
     "AdapterError",
     "AdapterOptions",
+    "BoardFacts",
+    "Facts",
     "Fragment",
     "InputWarning",
+    "InstallationFacts",
     "LineError",
     "Result",
     "Skipped",
@@ -67,13 +73,41 @@ class Fragment:
 
     board: str
     circuit: str
-    fields: Mapping[str, Any]  # field name -> typed value (Reading, float, str, bool)
+    # field name -> typed value (Reading, float, str, bool); a notation input (device, cable,
+    # rcd) -> its text, for engine.build_record to read into the split fields
+    fields: Mapping[str, Any]
     line: int
     rejected: Mapping[str, str] = field(default_factory=dict)  # field name -> the text refused
+    marks: Mapping[str, str] = field(default_factory=dict)  # field name -> "N/A" | "LIM" (engine.marks)
 
     @property
     def key(self) -> tuple[str, str]:
         return (self.board, self.circuit)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BoardFacts:
+    """Facts of one distribution board (:data:`engine.BOARD_FIELDS`), from one line, row or object.
+
+    ``fields`` hold typed values (coerced by the board field table), ``rejected``
+    and ``marks`` what a :class:`Fragment` holds for a circuit; ``board`` is the key.
+    """
+
+    board: str
+    fields: Mapping[str, Any]
+    line: int
+    rejected: Mapping[str, str] = field(default_factory=dict)
+    marks: Mapping[str, str] = field(default_factory=dict)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class InstallationFacts:
+    """Facts of the installation (:data:`engine.INSTALLATION_FIELDS`), from one line, row or object."""
+
+    fields: Mapping[str, Any]
+    line: int
+    rejected: Mapping[str, str] = field(default_factory=dict)
+    marks: Mapping[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -134,7 +168,8 @@ class InputWarning:
         return out
 
 
-Result = Fragment | LineError | Skipped | InputWarning
+Facts = BoardFacts | InstallationFacts
+Result = Fragment | BoardFacts | InstallationFacts | LineError | Skipped | InputWarning
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

@@ -1,12 +1,17 @@
-"""Merging an adapter's fragments into circuit records.
+"""Merging an adapter's results into circuit records, board records and the installation record.
 
 Invariants:
 - Fragments for the same ``(board, circuit)`` merge field by field, later
   fragments winning, in input order; records come out in first-seen order.
-- A refused cell is merged like a value: the record's ``rejected`` holds the
-  text refused for each field whose latest cell was refused (a later valid
-  value clears it; a later refusal drops an earlier value and marks it
-  again), so no check takes a default in a refused value's place.
+  Board facts merge per board and installation facts into one record the same
+  way (:class:`adapters.merge.Merged`: refusals and marks are merged like
+  values, so a refused cell is remembered in the record's ``rejected`` and no
+  check takes a default in its place).
+- Records are built by the engine's own builders (:func:`engine.build_record`,
+  :func:`engine.build_board`, :func:`engine.build_installation`), so trade
+  notation, marks and refusals mean what they mean in a JSON body; what those
+  builders refuse (a notation that contradicts a split field) is a
+  :class:`LineError` on the line that gave it.
 - Errors and skipped lines are counted and kept with their line numbers, so a
   caller can report every line it was given; warnings (names read as no
   field) are kept beside them, in input order.
@@ -16,13 +21,39 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
-from typing import Any
 
-from engine import CircuitRecord
+from engine import BoardRecord, CircuitRecord, InstallationRecord, Site, build_board, build_installation
 
-from .base import Fragment, InputWarning, LineError, Result, Skipped
+from .base import BoardFacts, Fragment, InputWarning, InstallationFacts, LineError, Result, Skipped
+from .merge import Merged, build_circuit, build_merged
 
-__all__ = ["Collected", "collect", "iter_records"]
+__all__ = ["Collected", "SiteFacts", "collect", "iter_records"]
+
+
+class SiteFacts:
+    """Board and installation facts merged as they stream (memory: one entry per board)."""
+
+    __slots__ = ("_boards", "_installation")
+
+    def __init__(self) -> None:
+        self._installation: Merged | None = None
+        self._boards: dict[str, Merged] = {}
+
+    def add(self, facts: BoardFacts | InstallationFacts) -> None:
+        if isinstance(facts, BoardFacts):
+            merged = self._boards.setdefault(facts.board, Merged())
+        else:
+            merged = self._installation = self._installation or Merged()
+        merged.add(facts.fields, facts.rejected, facts.marks, facts.line)
+
+    def build(self, errors: list[LineError] | None = None
+              ) -> tuple[InstallationRecord | None, list[BoardRecord]]:
+        """The installation record (``None`` if no line stated it) and the board records, first-seen order."""
+        installation = None if self._installation is None else build_merged(
+            self._installation, {}, build_installation, errors)
+        boards = [b for name, merged in self._boards.items()
+                  if (b := build_merged(merged, {"board": name}, build_board, errors)) is not None]
+        return installation, boards
 
 
 @dataclass(slots=True)
@@ -30,72 +61,80 @@ class Collected:
     records: list[CircuitRecord] = field(default_factory=list)
     errors: list[LineError] = field(default_factory=list)
     warnings: list[InputWarning] = field(default_factory=list)
+    installation: InstallationRecord | None = None
+    boards: list[BoardRecord] = field(default_factory=list)
     fragments: int = 0
+    facts: int = 0  # lines that stated a board's or the installation's facts
     skipped: int = 0
 
     @property
     def lines(self) -> int:
-        """Lines accounted for (a line with good cells and a bad one counts once, as a fragment)."""
-        error_only = len({e.line for e in self.errors} - self._fragment_lines)
-        return self.fragments + self.skipped + error_only
+        """Lines accounted for (a line with good cells and a bad one counts once, as its result)."""
+        error_only = len({e.line for e in self.errors} - self._result_lines)
+        return self.fragments + self.facts + self.skipped + error_only
 
-    _fragment_lines: set[int] = field(default_factory=set, repr=False)
+    @property
+    def site(self) -> Site:
+        """The installation and boards, as :func:`engine.verify` takes them (``site=``)."""
+        return Site.of(self.installation, self.boards)
 
-
-def _merge(values: dict[str, Any], rejected: dict[str, str], fragment: Fragment) -> None:
-    """``fragment`` over what came before: its values and its refusals each win, field by field."""
-    for name, value in fragment.fields.items():
-        values[name] = value
-        rejected.pop(name, None)
-    for name, text in fragment.rejected.items():
-        rejected[name] = text
-        values.pop(name, None)
-
-
-def _record(key: tuple[str, str], values: dict[str, Any], rejected: dict[str, str]) -> CircuitRecord:
-    return CircuitRecord(board=key[0], circuit=key[1], **values, rejected=dict(rejected))
+    _result_lines: set[int] = field(default_factory=set, repr=False)
 
 
 def collect(results: Iterable[Result]) -> Collected:
-    """All fragments merged per circuit; errors and skips counted."""
-    merged: dict[tuple[str, str], tuple[dict[str, Any], dict[str, str]]] = {}
+    """Fragments merged per circuit, facts per board and for the installation; errors and skips counted."""
+    merged: dict[tuple[str, str], Merged] = {}
+    site = SiteFacts()
     out = Collected()
     for result in results:
         if isinstance(result, Fragment):
-            values, rejected = merged.setdefault(result.key, ({}, {}))
-            _merge(values, rejected, result)
+            merged.setdefault(result.key, Merged()).add(result.fields, result.rejected, result.marks,
+                                                        result.line)
             out.fragments += 1
-            out._fragment_lines.add(result.line)
+            out._result_lines.add(result.line)
+        elif isinstance(result, BoardFacts | InstallationFacts):
+            site.add(result)
+            out.facts += 1
+            out._result_lines.add(result.line)
         elif isinstance(result, LineError):
             out.errors.append(result)
         elif isinstance(result, Skipped):
             out.skipped += 1
         elif isinstance(result, InputWarning):
             out.warnings.append(result)
-    out.records = [_record(key, values, rejected) for key, (values, rejected) in merged.items()]
+    built: list[LineError] = []
+    out.records = [r for (board, circuit), m in merged.items()
+                   if (r := build_circuit(m, board, circuit, built)) is not None]
+    out.installation, out.boards = site.build(built)
+    out.errors.extend(built)
     return out
 
 
 def iter_records(results: Iterable[Result], errors: list[LineError] | None = None,
-                 warnings: list[InputWarning] | None = None) -> Iterator[CircuitRecord]:
+                 warnings: list[InputWarning] | None = None,
+                 site: SiteFacts | None = None) -> Iterator[CircuitRecord]:
     """Constant-memory merge: consecutive fragments of one circuit become one record.
 
     For inputs too large to hold (a year's export): a circuit split across
     non-adjacent rows comes out as two records, the later winning downstream.
+    Board and installation facts go to ``site`` when given (one entry per
+    board, so memory stays bounded); ``site.build(errors)`` makes their records.
     """
     key: tuple[str, str] | None = None
-    values: dict[str, Any] = {}
-    rejected: dict[str, str] = {}
+    merged = Merged()
     for result in results:
         if isinstance(result, Fragment):
             if result.key != key:
-                if key is not None:
-                    yield _record(key, values, rejected)
-                key, values, rejected = result.key, {}, {}
-            _merge(values, rejected, result)
+                if key is not None and (record := build_circuit(merged, *key, errors)) is not None:
+                    yield record
+                key, merged = result.key, Merged()
+            merged.add(result.fields, result.rejected, result.marks, result.line)
+        elif isinstance(result, BoardFacts | InstallationFacts):
+            if site is not None:
+                site.add(result)
         elif isinstance(result, LineError) and errors is not None:
             errors.append(result)
         elif isinstance(result, InputWarning) and warnings is not None:
             warnings.append(result)
-    if key is not None:
-        yield _record(key, values, rejected)
+    if key is not None and (record := build_circuit(merged, *key, errors)) is not None:
+        yield record

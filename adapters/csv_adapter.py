@@ -28,21 +28,35 @@ from dataclasses import replace
 from itertools import chain
 from typing import IO, Any, ClassVar
 
-from engine import EngineError, coerce_field
+from engine import EngineError
+from engine.coerce import coerce_spec
+from engine.record_notation import NOTATION_INPUTS
 
 from .aliases import fold, resolve_label
-from .base import AdapterError, AdapterOptions, Fragment, LineError, Result, Skipped
-from .cells import CellParser, CellProblem
+from .base import (
+    AdapterError,
+    AdapterOptions,
+    BoardFacts,
+    Fragment,
+    InstallationFacts,
+    LineError,
+    Result,
+    Skipped,
+)
+from .cells import CellParser, field_spec
 from .csv_layout import Layout, detect_decimal_comma, long_test, plan_layout, sniff_delimiter, split_cells
 from .encoding import DecodedLine, checked_encoding, detect_encoding_guess, iter_decoded_lines, read_sample
 from .identifiers import key_problem
 from .profiles import CsvProfile, get_profile
 from .rejections import REJECTED_LABEL, parse_rejected
+from .row_values import RowValues
+from .scopes import SCOPE_NAMES, other_scope_reason
 
 __all__ = ["CsvAdapter"]
 
 _HEADER_SEARCH = 5
 _SAMPLE_LINES = 25
+_RECORD = {"circuit": "circuit record", "board": "board record", "installation": "installation record"}
 
 
 class CsvAdapter:
@@ -78,8 +92,12 @@ class CsvAdapter:
 def _coerced_defaults(profile: CsvProfile | None) -> dict[str, Any]:
     out: dict[str, Any] = {}
     for name, text in (profile.defaults.items() if profile else ()):
+        spec = next((found for scope in ("circuit", "board", "installation")
+                     if (found := field_spec(scope, name)) is not None), None)
         try:
-            value = coerce_field(name, text)
+            if spec is None:
+                raise EngineError(f"{name!r} is not a field")
+            value = coerce_spec(spec, text)
         except EngineError as exc:
             raise AdapterError(f"profile {profile.name if profile else ''}: {exc.message}",
                                code="bad_profile", details={"pointer": f"/defaults/{name}"}) from exc
@@ -104,6 +122,17 @@ class _Reader:
         self.header_line = 0
         self.long_parsers: dict[tuple[str, float], CellParser] = {}
         self.guessed_encoding: str | None = None  # a single-byte encoding detection guessed
+
+    def _scope_defaults(self, scope: str) -> None:
+        """The profile's defaults must be fields of the sheet's rows (raised before the first result)."""
+        names = SCOPE_NAMES[scope] | {"board", "circuit"}
+        for name in [*self.defaults, *(["board"] if self.default_board else []),
+                     *(["circuit"] if self.default_circuit else [])]:
+            if name not in names or (scope != "circuit" and name == "circuit"):
+                where = self.profile.name if self.profile else ""
+                raise AdapterError(f"profile {where}: default {name!r} is not a field of the sheet's rows "
+                                   f"({_RECORD[scope]}s)", code="bad_profile",
+                                   details={"pointer": f"/defaults/{name}"})
 
     def _is_content(self, text: str) -> bool:
         stripped = text.strip()
@@ -138,6 +167,8 @@ class _Reader:
     def run(self, head: list[tuple[DecodedLine, bool]],
             lines: Iterator[tuple[DecodedLine, bool]]) -> Iterator[Result]:
         self.header_line, reason = self._decide(head)
+        if self.layout is not None:
+            self._scope_defaults(self.layout.scope)
         first_content = next((line.number for line, overlong in head if not line.problem
                               and not overlong and self._is_content(line.text)), 0)
         for line, overlong in lines:
@@ -182,57 +213,57 @@ class _Reader:
         count = len(cells)
         board = cells[layout.board].strip() if layout.board is not None and layout.board < count else ""
         board = board or self.default_board or ""
-        circuit = cells[layout.circuit].strip() if layout.circuit < count else ""
-        circuit = circuit or self.default_circuit or ""
-        if not board or not circuit:
-            missing = "board" if not board else "circuit"
+        at = layout.circuit
+        circuit = (cells[at].strip() if at is not None and at < count else "") or self.default_circuit or ""
+        needed = {"circuit": ("board", "circuit"), "board": ("board",), "installation": ()}[layout.scope]
+        missing = next((key for key in needed if not (board if key == "board" else circuit)), None)
+        if missing is not None:
+            index = layout.board if missing == "board" else layout.circuit
             yield LineError(line=number, code="missing_key", field=missing,
-                            column=self.header[layout.board if missing == "board" and layout.board
-                                               is not None else layout.circuit],
-                            reason=f"the row has no {missing}, which keys the circuit record")
+                            column=self.header[index] if index is not None else None,
+                            reason=f"the row has no {missing}, which keys the {_RECORD[layout.scope]}")
             return
         bad_key = self._key_error(number, board, circuit)
         if bad_key is not None:
             yield bad_key
             return
-        fields: dict[str, Any] = {}  # the row's own values; the profile's defaults fill in after
-        rejected: dict[str, str] = {}
-        errors: list[LineError] = []
+        row = RowValues(number)  # the row's own values; the profile's defaults fill in after
         if layout.kind == "wide":
             for index, name, parser in layout.columns:
                 if index >= count:
                     continue
                 raw = cells[index].strip()
-                if not raw:
-                    continue
-                value = parser.parse(raw)
-                if value is None:
-                    continue
-                if type(value) is CellProblem:
-                    errors.append(LineError(line=number, code="bad_value", field=name,
-                                            column=self.header[index], text=value.text, reason=value.reason))
-                    rejected[name] = value.text if value.text is not None else raw
-                else:
-                    fields[name] = value
+                if raw:
+                    row.add(name, raw, parser.parse(raw), column=self.header[index])
             if layout.rejected is not None and layout.rejected < count and cells[layout.rejected].strip():
-                errors.extend(self._carried(number, cells[layout.rejected], self.header[layout.rejected],
-                                            fields, rejected))
+                self._carried(cells[layout.rejected], self.header[layout.rejected], row)
             extra = [c for c in cells[layout.width:] if c.strip()]
             if extra:
-                errors.append(LineError(
+                row.errors.append(LineError(
                     line=number, code="extra_cells", text=self.delimiter.join(extra)[:200],
                     reason=f"{len(extra)} cell(s) beyond the header's {layout.width} columns"))
-        else:
-            outcome = self._long(number, cells, fields, rejected, errors)
-            if outcome == "no reading" and not errors:
-                yield Skipped(line=number, reason="no reading")
-                return
+        elif self._long(cells, row) == "no reading" and not row.errors:
+            yield Skipped(line=number, reason="no reading")
+            return
+        row.finish()
         for name, value in self.defaults.items():  # a default fills in where the row gave nothing
-            if name not in fields and name not in rejected:
-                fields[name] = value
-        if fields or rejected or not errors:
-            yield Fragment(board=board, circuit=circuit, fields=fields, line=number, rejected=rejected)
-        yield from errors
+            if name not in row.fields and name not in row.rejected and name not in row.marks:
+                row.fields[name] = value
+        if row.taken or not row.errors:
+            yield self._result(number, row, board, circuit)
+        yield from row.errors
+
+    def _result(self, number: int, row: RowValues, board: str, circuit: str) -> Result:
+        """What the row is, by the sheet's scope: a circuit's fragment, or a board's or the installation's
+        facts."""
+        scope = self.layout.scope if self.layout else "circuit"
+        if scope == "board":
+            return BoardFacts(board=board, fields=row.fields, line=number, rejected=row.rejected,
+                              marks=row.marks)
+        if scope == "installation":
+            return InstallationFacts(fields=row.fields, line=number, rejected=row.rejected, marks=row.marks)
+        return Fragment(board=board, circuit=circuit, fields=row.fields, line=number, rejected=row.rejected,
+                        marks=row.marks)
 
     def _key_error(self, number: int, board: str, circuit: str) -> LineError | None:
         """A board or circuit that could not be what the person typed (control bytes, undecodable
@@ -255,20 +286,17 @@ class _Reader:
                            "(charset, profile encoding) or correct the line")
         return None
 
-    def _carried(self, number: int, text: str, column: str, fields: dict[str, Any],
-                 rejected: dict[str, str]) -> list[LineError]:
-        """Refused values a neutral CSV carries: remembered unless this row's own cell gave or refused
-        the field (a profile's default gives way to them, as to a refused cell)."""
-        taken, problems = parse_rejected(text)
-        for name, refused in taken.items():
-            if name not in fields and name not in rejected:
-                rejected[name] = refused
-        return [LineError(line=number, code="bad_value", field=REJECTED_LABEL, column=column, text=bad,
-                          reason=why) for bad, why in problems]
+    def _carried(self, text: str, column: str, row: RowValues) -> None:
+        """Refused values a neutral CSV carries: remembered unless this row's own cell gave, refused or
+        marked the field (a profile's default gives way to them, as to a refused cell)."""
+        scope = self.layout.scope if self.layout else "circuit"
+        taken, problems = parse_rejected(text, SCOPE_NAMES[scope] - NOTATION_INPUTS)
+        row.carried.update(taken)
+        row.errors += [LineError(line=row.line, code="bad_value", field=REJECTED_LABEL, column=column,
+                                 text=bad, reason=why) for bad, why in problems]
 
-    def _long(self, number: int, cells: list[str], fields: dict[str, Any], rejected: dict[str, str],
-              errors: list[LineError]) -> str:
-        """One long-layout row into ``fields`` / ``rejected`` / ``errors``; "no reading" if it has none."""
+    def _long(self, cells: list[str], row: RowValues) -> str:
+        """One long-layout row into ``row``; "no reading" if it has none."""
         layout = self.layout
         assert layout is not None
         count = len(cells)
@@ -276,31 +304,30 @@ class _Reader:
         if label and fold(label) == REJECTED_LABEL:
             raw = cells[layout.value].strip() if layout.value < count else ""
             if raw:
-                errors.extend(self._carried(number, raw, self.header[layout.value], fields, rejected))
-            return "ok" if rejected else "no reading"
+                self._carried(raw, self.header[layout.value], row)
+            return "ok" if row.carried else "no reading"
         test = long_test(layout, label) if label else None
         if test is None:
             known = resolve_label(label) if label else None
             why = (f"{label!r} {known.why} (one of {', '.join(known.fields)}): name the field instead"
-                   if known is not None and known.ambiguous else f"{label!r} names no test we know")
-            errors.append(LineError(line=number, code="unknown_test", column=self.header[layout.test],
-                                    text=label, reason=why if label else "the row names no test"))
+                   if known is not None and known.ambiguous else
+                   other_scope_reason(label, known, layout.scope)
+                   if known is not None and known.field is not None else f"{label!r} names no test we know")
+            row.errors.append(LineError(line=row.line, code="unknown_test", column=self.header[layout.test],
+                                        text=label, reason=why if label else "the row names no test"))
             return "error"
         raw = cells[layout.value].strip() if layout.value < count else ""
         unit = cells[layout.unit].strip() if layout.unit is not None and layout.unit < count else ""
         key = (test.field, test.scale)
         parser = self.long_parsers.get(key)
         if parser is None:
-            parser = CellParser(test.field, decimal_comma=self.decimal_comma, scale=test.scale)
+            parser = CellParser(test.field, decimal_comma=self.decimal_comma, scale=test.scale,
+                                scope=layout.scope)
             self.long_parsers[key] = parser
         value = parser.parse(raw, unit=unit or test.unit) if raw else None
         if value is None:
             return "no reading"
-        if type(value) is CellProblem:
-            rejected[test.field] = f"{raw} {unit}" if unit else raw  # as the row wrote it, unit and all
-            errors.append(LineError(line=number, code="bad_value", field=test.field,
-                                    column=self.header[layout.value], text=value.text, reason=value.reason))
-            return "error"
-        fields[test.field] = value
+        row.add(test.field, raw, value, column=self.header[layout.value])
+        if test.field in row.rejected and unit:
+            row.rejected[test.field] = f"{raw} {unit}"  # as the row wrote it, unit and all
         return "ok"
-

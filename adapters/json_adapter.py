@@ -1,27 +1,37 @@
-"""The ``json`` adapter: circuit records as JSON → record fragments, streamed.
+"""The ``json`` adapter: circuit records and site documents as JSON → fragments and facts, streamed.
 
-Accepts a list of records, an object ``{"circuits": [...]}`` (other members,
-such as ``ruleset``, are left to the caller), or newline-delimited JSON (one
-record per line). Field names are the record's own (:data:`engine.FIELDS`,
-engine/README.md); aliases are accepted too, as in the other adapters.
+Accepts a list of records, a site document ``{"installation": {...}, "boards":
+[...], "circuits": [...]}`` (any of the three members; others, such as
+``ruleset``, are left to the caller), or newline-delimited JSON (one record per
+line). An element of a list or a line of NDJSON may itself be a site document
+(an object with ``installation``, ``boards`` or ``circuits``), so a logger can
+send the installation's or a board's facts between its readings:
+``{"boards": [{"board": "DB2", "zdb_ohm": 0.41}]}``. Field names are the
+record's own (:data:`engine.FIELDS`, :data:`engine.BOARD_FIELDS`,
+:data:`engine.INSTALLATION_FIELDS`, engine/README.md); aliases are accepted
+too, as in the other adapters. A circuit record without ``circuit`` is never
+read as a board's facts: boards are given in ``boards``.
 
 Invariants (beyond those of :mod:`adapters.base`):
-- A record that is not an object, or lacks ``board``/``circuit``, is one
-  :class:`LineError` with its line and pointer (``/circuits/3``); a bad field is
-  a :class:`LineError` with the field's pointer (``/circuits/3/zs_ohm``) beside
-  the fragment of the good fields.
+- A record that is not an object, or lacks its keys (``board``/``circuit`` for
+  a circuit, ``board`` for a board), is one :class:`LineError` with its line
+  and pointer (``/circuits/3``); a bad field is a :class:`LineError` with the
+  field's pointer (``/circuits/3/zs_ohm``) beside the result of the good
+  fields.
 - Line accounting is per record, not per physical line (a pretty-printed
   record spans many lines): the ``line`` is where the record starts.
-- A member that names no field (unknown or ambiguous) is a warning, once per
-  input, as a CSV column or a line key would be; the record's other members
-  are taken. Two members naming one field (``zs`` and ``Zs``) are a
+- A member that names no field of its record (unknown, ambiguous, or a field
+  of another record: a board's ``zdb_ohm`` in a circuit) is a warning, once
+  per input, as a CSV column or a line key would be; the record's other
+  members are taken. Two members naming one field (``zs`` and ``Zs``) are a
   ``duplicate_field`` error: neither value is taken.
-- A refused member is remembered in ``Fragment.rejected`` (field → text), and
-  a record's own ``rejected`` member (what :func:`engine.record_to_dict`
-  writes) is carried in the same way, each entry checked.
+- A refused member is remembered in ``rejected`` (field → text), ``N/A`` and
+  ``LIM`` in ``marks``, and a record's own ``rejected`` member (what
+  :func:`engine.record_to_dict` writes) is carried in the same way, each entry
+  checked.
 - Text is UTF-8 (RFC 8259 §8.1), or UTF-16 found by its byte-order mark or its
   zero bytes. A string holding bytes that did not decode (U+FFFD) or a lone
-  surrogate (``"\ud800"``) is an error for its member; as a board or circuit
+  surrogate (``"\\ud800"``) is an error for its member; as a board or circuit
   it rejects the record: such text never keys a circuit.
 """
 
@@ -31,18 +41,35 @@ import json
 from collections.abc import Iterator
 from typing import IO, Any, ClassVar
 
-from engine import FIELDS
-from engine.records import REJECTED_KEY
+from engine.intake import MARKS_KEY, REJECTED_KEY
+from engine.marks import MARKS
+from engine.record_notation import NOTATION_INPUTS
 
 from .aliases import resolve_label
-from .base import AdapterOptions, Fragment, InputWarning, LineError, Result
-from .cells import CellParser, CellProblem
+from .base import (
+    AdapterOptions,
+    BoardFacts,
+    Fragment,
+    InputWarning,
+    InstallationFacts,
+    LineError,
+    Result,
+)
+from .cells import CellParser
 from .encoding import checked_encoding, read_sample, sniff_unicode
 from .identifiers import key_problem
-from .json_stream import iter_json_records
+from .json_stream import JsonItem, iter_json_records
 from .name_notes import NameNotes, name_warning
+from .row_values import RowValues
+from .scopes import SCOPE_NAMES, Scope, in_scope
 
 __all__ = ["JsonAdapter"]
+
+_SCOPES: dict[str, Scope] = {"circuit": "circuit", "board": "board", "installation": "installation"}
+_KEYS: dict[Scope, tuple[str, ...]] = {"circuit": ("board", "circuit"), "board": ("board",),
+                                       "installation": ()}
+_WHAT = {"circuit": "a circuit record", "board": "a board", "installation": "the installation"}
+_SITE_MEMBERS = {"installation": "installation", "boards": "board", "circuits": "circuit"}
 
 
 def _escape(token: str) -> str:
@@ -51,8 +78,8 @@ def _escape(token: str) -> str:
 
 class JsonAdapter:
     name: ClassVar[str] = "json"
-    description: ClassVar[str] = ("Circuit records as JSON: a list, an object with 'circuits', "
-                                  "or one record per line (NDJSON), streamed")
+    description: ClassVar[str] = ("Circuit records and site documents (installation, boards, circuits) as "
+                                  "JSON: a list, an object, or one record per line (NDJSON), streamed")
     media_types: ClassVar[tuple[str, ...]] = ("application/json", "application/x-ndjson",
                                               "application/ndjson", "application/jsonl")
     extensions: ClassVar[tuple[str, ...]] = (".json", ".ndjson", ".jsonl")
@@ -66,15 +93,143 @@ class JsonAdapter:
             found = sniff_unicode(sample)
             encoding = found if found and found.startswith("utf-16") else "utf-8"  # a UTF-8 BOM: skipped
         del sample
-        parsers: dict[str, CellParser] = {}
-        decimal_comma = bool(options.decimal_comma)
-        names = NameNotes()
+        reader = _Reader(bool(options.decimal_comma), options.max_columns)
         for item in iter_json_records(replay, encoding, options.max_line_length):
-            if item.problem is not None:
-                yield LineError(line=item.line, code=item.code, pointer=item.pointer, reason=item.problem)
+            yield from reader.item(item)
+
+
+class _Reader:
+    def __init__(self, decimal_comma: bool, max_columns: int) -> None:
+        self.decimal_comma = decimal_comma
+        self.max_columns = max_columns
+        self.parsers: dict[str, CellParser] = {}
+        self.names = NameNotes()
+
+    def item(self, item: JsonItem) -> Iterator[Result]:
+        if item.problem is not None:
+            yield LineError(line=item.line, code=item.code, pointer=item.pointer, reason=item.problem)
+        elif item.kind == "circuit" and _is_site_document(item.value):
+            yield from self._document(item.line, item.pointer, item.value)
+        else:
+            yield from self._record(item.line, item.pointer, item.value, _SCOPES[item.kind])
+
+    def _document(self, line: int, pointer: str, value: dict[str, Any]) -> Iterator[Result]:
+        """A site document that is one element of a list or one NDJSON line: each of its parts."""
+        for member, raw in value.items():
+            where = f"{pointer}/{_escape(member)}"
+            scope = _SITE_MEMBERS.get(member)
+            if scope is None:
+                note = self.names.first(InputWarning(
+                    line=line, code="unknown_field", column=member, pointer=where,
+                    reason=f"{member!r} is not a member of a site document (installation, boards, "
+                           "circuits) read here: its value is not read"))
+                if note is not None:
+                    yield note
+            elif scope == "installation":
+                yield from self._record(line, where, raw, "installation")
+            elif not isinstance(raw, list):
+                yield LineError(line=line, pointer=where, code="bad_document",
+                                reason=f"{member} must be a list of objects")
+            else:
+                for index, part in enumerate(raw):
+                    yield from self._record(line, f"{where}/{index}", part, _SCOPES[scope])
+
+    def _parser(self, name: str, unit: str | None, scope: Scope) -> CellParser:
+        cache_key = f"{scope}\x00{name}\x00{unit or ''}"
+        parser = self.parsers.get(cache_key)
+        if parser is None:
+            parser = CellParser(name, unit=unit, decimal_comma=self.decimal_comma, scope=scope)
+            if len(self.parsers) < 1024:
+                self.parsers[cache_key] = parser
+        return parser
+
+    def _record(self, line: int, pointer: str, value: Any, scope: Scope) -> Iterator[Result]:
+        if not isinstance(value, dict):
+            yield LineError(line=line, pointer=pointer, code="bad_record",
+                            reason=f"{_WHAT[scope]} must be an object, not {type(value).__name__}")
+            return
+        if len(value) > self.max_columns:
+            yield LineError(line=line, pointer=pointer, code="too_many_columns",
+                            reason=f"the record has {len(value)} members, more than {self.max_columns}")
+            return
+        row = RowValues(line)
+        notes: list[InputWarning] = []
+        keys: dict[str, str | None] = dict.fromkeys(_KEYS[scope])
+        seen: dict[str, str] = {}  # field -> the member that gave it
+        for key, raw in value.items():
+            where = f"{pointer}/{_escape(key)}"
+            if _bad_text(key):
+                row.errors.append(LineError(line=line, pointer=pointer, code="bad_encoding",
+                                            reason=f"a member name {_bad_text(key)}"))
                 continue
-            yield from _record(item.line, item.pointer, item.value, parsers, decimal_comma,
-                               options.max_columns, names)
+            if key in (REJECTED_KEY, MARKS_KEY):  # what a stored record carries (engine.record_to_dict)
+                row.errors.extend(_carried(key, raw, row, line, where, SCOPE_NAMES[scope] - NOTATION_INPUTS))
+                continue
+            label = resolve_label(key)
+            name = label.field
+            keyed = name in keys
+            if name is None or not (keyed or in_scope(label, scope)):
+                note = self.names.first(name_warning(key, label, line=line, pointer=where, scope=scope))
+                if note is not None:
+                    notes.append(note)
+                continue
+            if name in seen:
+                error = LineError(line=line, pointer=where, field=name, code="duplicate_field", column=key,
+                                  reason=f"{name} is given twice in the record ({seen[name]!r} and "
+                                         f"{key!r}); neither value is taken")
+                if keyed:
+                    row.errors.append(error)
+                    keys[name] = None
+                else:
+                    row.refuse_twice(name, _shown(value[seen[name]]), _shown(raw), error)
+                continue
+            seen[name] = key
+            bad_text = _bad_text(raw)
+            if bad_text is not None:
+                row.errors.append(LineError(line=line, pointer=where, field=name, code="bad_encoding",
+                                            reason=f"{name} {bad_text}"))
+                if not keyed:
+                    row.refuse(name, _shown(raw))
+                continue
+            if keyed:
+                text = _key(raw)
+                problem = key_problem(name, text) if text is not None else None
+                if text is None or problem is not None:
+                    row.errors.append(LineError(line=line, pointer=where, field=name,
+                                                code="bad_value" if text is None else "bad_key",
+                                                reason=problem or f"{name} must be a non-empty string"))
+                else:
+                    keys[name] = text
+                continue
+            row.add(name, raw, self._parser(name, label.unit, scope).parse(raw), pointer=where)
+        yield from self._result(line, pointer, row.finish(), keys, scope)
+        yield from notes
+
+    @staticmethod
+    def _result(line: int, pointer: str, row: RowValues, keys: dict[str, str | None], scope: Scope
+                ) -> Iterator[Result]:
+        missing = next((key for key, text in keys.items() if text is None), None)
+        if missing is not None:
+            if not any(e.field == missing for e in row.errors):
+                yield LineError(line=line, pointer=f"{pointer}/{missing}", field=missing, code="missing_key",
+                                reason=f"{missing} is required to key {_WHAT[scope]}")
+            yield from row.errors
+            return
+        if row.taken or not row.errors:
+            if scope == "circuit":
+                yield Fragment(board=keys["board"] or "", circuit=keys["circuit"] or "", fields=row.fields,
+                               line=line, rejected=row.rejected, marks=row.marks)
+            elif scope == "board":
+                yield BoardFacts(board=keys["board"] or "", fields=row.fields, line=line,
+                                 rejected=row.rejected, marks=row.marks)
+            else:
+                yield InstallationFacts(fields=row.fields, line=line, rejected=row.rejected, marks=row.marks)
+        yield from row.errors
+
+
+def _is_site_document(value: Any) -> bool:
+    """An object holding a site document's parts (never a circuit record: these are no field names)."""
+    return isinstance(value, dict) and any(member in value for member in _SITE_MEMBERS)
 
 
 def _key(value: Any) -> str | None:
@@ -96,100 +251,6 @@ def _bad_text(value: Any) -> str | None:
     return None
 
 
-def _record(line: int, pointer: str, value: Any, parsers: dict[str, CellParser], decimal_comma: bool,
-            max_columns: int, names: NameNotes) -> Iterator[Result]:
-    if not isinstance(value, dict):
-        yield LineError(line=line, pointer=pointer, code="bad_record",
-                        reason=f"a circuit record must be an object, not {type(value).__name__}")
-        return
-    if len(value) > max_columns:
-        yield LineError(line=line, pointer=pointer, code="too_many_columns",
-                        reason=f"the record has {len(value)} members, more than {max_columns}")
-        return
-    fields: dict[str, Any] = {}
-    rejected: dict[str, str] = {}
-    errors: list[LineError] = []
-    notes: list[InputWarning] = []
-    board = circuit = None
-    seen: dict[str, str] = {}  # field -> the member that gave it
-    for key, raw in value.items():
-        where = f"{pointer}/{_escape(key)}"
-        if _bad_text(key):
-            errors.append(LineError(line=line, pointer=pointer, code="bad_encoding",
-                                    reason=f"a member name {_bad_text(key)}"))
-            continue
-        if key == REJECTED_KEY:  # what a stored record carries (engine.record_to_dict)
-            errors.extend(_carried_rejections(raw, rejected, line, where))
-            continue
-        label = resolve_label(key)
-        name, unit = label.field, label.unit
-        if name is None:
-            note = names.first(name_warning(key, label, line=line, pointer=where))
-            if note is not None:
-                notes.append(note)
-            continue
-        if name in seen:
-            errors.append(LineError(line=line, pointer=where, field=name, code="duplicate_field", column=key,
-                                    reason=f"{name} is given twice in the record ({seen[name]!r} and "
-                                           f"{key!r}); neither value is taken"))
-            fields.pop(name, None)
-            if name not in ("board", "circuit"):
-                rejected[name] = f"{rejected.get(name, _shown(value[seen[name]]))} | {_shown(raw)}"
-            else:
-                board = None if name == "board" else board
-                circuit = None if name == "circuit" else circuit
-            continue
-        seen[name] = key
-        bad_text = _bad_text(raw)
-        if bad_text is not None:
-            errors.append(LineError(line=line, pointer=where, field=name, code="bad_encoding",
-                                    reason=f"{name} {bad_text}"))
-            if name not in ("board", "circuit"):
-                rejected[name] = _shown(raw)
-            continue
-        if name in ("board", "circuit"):
-            text = _key(raw)
-            problem = key_problem(name, text) if text is not None else None
-            if text is None or problem is not None:
-                errors.append(LineError(line=line, pointer=where, field=name,
-                                        code="bad_value" if text is None else "bad_key",
-                                        reason=problem or f"{name} must be a non-empty string"))
-            elif name == "board":
-                board = text
-            else:
-                circuit = text
-            continue
-        cache_key = f"{name}\x00{unit or ''}"
-        parser = parsers.get(cache_key)
-        if parser is None:
-            parser = CellParser(name, unit=unit, decimal_comma=decimal_comma)
-            if len(parsers) < 1024:
-                parsers[cache_key] = parser
-        typed = parser.parse(raw)
-        if typed is None:
-            continue
-        if type(typed) is CellProblem:
-            errors.append(LineError(line=line, pointer=where, field=name, code="bad_value",
-                                    text=typed.text, reason=typed.reason))
-            rejected[name] = typed.text if typed.text is not None else _shown(raw)
-        else:
-            fields[name] = typed
-    for name in [n for n in rejected if n in fields]:
-        del rejected[name]  # a carried rejection the record's own valid value clears (as build_record)
-    if board is None or circuit is None:
-        missing = "board" if board is None else "circuit"
-        if not any(e.field == missing for e in errors):
-            yield LineError(line=line, pointer=f"{pointer}/{missing}", field=missing, code="missing_key",
-                            reason=f"{missing} is required to key the circuit record")
-        yield from errors
-        yield from notes
-        return
-    if fields or rejected or not errors:
-        yield Fragment(board=board, circuit=circuit, fields=fields, line=line, rejected=rejected)
-    yield from errors
-    yield from notes
-
-
 def _shown(raw: Any) -> str:
     """A refused member's value as text that any JSON or database can hold (no lone surrogate)."""
     text = raw if isinstance(raw, str) else json.dumps(raw, ensure_ascii=False)
@@ -197,19 +258,24 @@ def _shown(raw: Any) -> str:
     return text if len(text) <= 200 else text[:200] + "…"
 
 
-def _carried_rejections(raw: Any, rejected: dict[str, str], line: int, where: str) -> list[LineError]:
-    """A record's ``rejected`` member (field → text refused): taken as it is, each entry checked."""
+def _carried(member: str, raw: Any, row: RowValues, line: int, where: str, allowed: frozenset[str]
+             ) -> list[LineError]:
+    """A record's ``rejected`` (field → text refused) or ``marks`` (field → N/A or LIM) member: taken
+    as it is, each entry checked; the record's own value for a field clears it (as
+    :func:`engine.build_record` does)."""
+    what = "the text refused" if member == REJECTED_KEY else "N/A or LIM"
     if not isinstance(raw, dict):
-        return [LineError(line=line, pointer=where, field=REJECTED_KEY, code="bad_value",
-                          reason="rejected must be an object of field → the text refused")]
+        return [LineError(line=line, pointer=where, field=member, code="bad_value",
+                          reason=f"{member} must be an object of field → {what}")]
     errors: list[LineError] = []
+    target = row.carried if member == REJECTED_KEY else row.carried_marks
     for name, text in raw.items():
-        if name not in FIELDS or name in ("board", "circuit") or not isinstance(text, str) \
-                or _bad_text(text) or _bad_text(name):
-            errors.append(LineError(line=line, pointer=f"{where}/{_escape(name)}", field=REJECTED_KEY,
+        if name not in allowed or name in ("board", "circuit") or not isinstance(text, str) \
+                or _bad_text(text) or _bad_text(name) or (member == MARKS_KEY and text not in MARKS):
+            errors.append(LineError(line=line, pointer=f"{where}/{_escape(name)}", field=member,
                                     code="bad_value", text=_shown(name),
-                                    reason=f"rejected: {_shown(name)!r} is not a field name with the text "
-                                           "refused for it"))
+                                    reason=f"{member}: {_shown(name)!r} is not a field name with {what} "
+                                           "for it"))
             continue
-        rejected[name] = text
+        target[name] = text
     return errors

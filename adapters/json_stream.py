@@ -1,4 +1,9 @@
-"""Streaming JSON: the records of a list, of ``{"circuits": [...]}``, or of NDJSON.
+"""Streaming JSON: the records of a list, of a site document, or of NDJSON.
+
+A site document is ``{"installation": {...}, "boards": [...], "circuits": [...]}``
+(any of them, in any order; other members such as ``ruleset`` are the caller's):
+its ``circuits`` and ``boards`` are streamed item by item, each item tagged
+with its ``kind``; its ``installation`` is one item.
 
 Invariants:
 - Text is decoded in chunks and records are cut out one at a time with
@@ -9,6 +14,8 @@ Invariants:
   reading resumes at the next record (in a list: after the next ``}`` that is
   followed by ``,``; in NDJSON: at the next line), so good records after a bad
   one still come through. Records are flat objects, so ``},`` ends one.
+- Objects after a top-level document are read as NDJSON (an NDJSON input
+  whose first line is a site document), never dropped.
 - Line numbers count from 1 at the start of the input and name the line where
   a record (or a problem) starts; CR, LF and CRLF each end one line (as in
   the other adapters). Pointers follow RFC 6901 (``/circuits/3``).
@@ -32,6 +39,7 @@ _WS = re.compile(r"[ \t\r\n]*")
 _RESYNC_LIST = re.compile(r"\}[ \t\r\n]*,")  # the end of a (flat) record and its comma
 _DECODER = json.JSONDecoder()
 _RECORD_KEYS = frozenset(FIELDS)  # a top-level object starting with one of these is a record
+_STREAMED = {"circuits": "circuit", "boards": "board"}  # a site document's lists, read item by item
 
 
 def _line_ends(text: str, start: int, end: int) -> int:
@@ -46,6 +54,7 @@ class JsonItem:
     value: Any = None
     problem: str | None = None
     code: str = "bad_json"
+    kind: str = "circuit"  # what the value is: "circuit", "board" or "installation" (a site document's)
 
 
 class _Text:
@@ -135,7 +144,7 @@ def iter_json_records(stream: IO[bytes], encoding: str, max_record: int) -> Iter
                        "'circuits', or one JSON object per line", code="bad_document")
 
 
-def _list(text: _Text, prefix: str, max_record: int) -> Iterator[JsonItem]:
+def _list(text: _Text, prefix: str, max_record: int, kind: str = "circuit") -> Iterator[JsonItem]:
     index = 0
     while True:
         char = text.skip_ws()
@@ -151,11 +160,11 @@ def _list(text: _Text, prefix: str, max_record: int) -> Iterator[JsonItem]:
         line, pointer = text.line(), f"{prefix}/{index}"
         value, problem = text.decode(max_record)
         if problem is not None:
-            yield JsonItem(line, pointer, problem=problem)
+            yield JsonItem(line, pointer, problem=problem, kind=kind)
             if not text.resync(_RESYNC_LIST):
                 return
         else:
-            yield JsonItem(line, pointer, value)
+            yield JsonItem(line, pointer, value, kind=kind)
         index += 1
 
 
@@ -167,6 +176,8 @@ def _object_or_ndjson(text: _Text, max_record: int) -> Iterator[JsonItem]:
     key, problem = text.decode(max_record) if text.buf[text.pos:text.pos + 1] == '"' else (None, "")
     if isinstance(key, str) and problem is None and key not in _RECORD_KEYS:
         yield from _document(text, key, max_record)
+        if text.skip_ws():  # objects after the document: NDJSON whose first line was a site document
+            yield from _ndjson(text, max_record)
         return
     text.pos = start
     yield from _ndjson(text, max_record)
@@ -178,17 +189,32 @@ def _document(text: _Text, key: str, max_record: int) -> Iterator[JsonItem]:
             yield JsonItem(text.line(), "", problem="expected ':' after a key", code="bad_document")
             return
         text.pos += 1
-        if key == "circuits" and text.skip_ws() == "[":
+        if key in _STREAMED and text.skip_ws() == "[":
             text.pos += 1
-            yield from _list(text, "/circuits", max_record)
+            yield from _list(text, f"/{key}", max_record, _STREAMED[key])
+        elif key == "installation":
+            text.skip_ws()
+            line = text.line()
+            value, problem = text.decode(max_record)
+            if problem is not None:
+                yield JsonItem(line, "/installation", problem=problem, code="bad_document")
+                return
+            yield JsonItem(line, "/installation", value, kind="installation")
         else:
             text.skip_ws()
+            line = text.line()
             _value, problem = text.decode(max_record)  # other members (ruleset …) are the caller's
             if problem is not None:
                 yield JsonItem(text.line(), f"/{key}", problem=problem, code="bad_document")
                 return
+            if key in _STREAMED:
+                yield JsonItem(line, f"/{key}", problem=f"{key} must be a list of objects",
+                               code="bad_document")
         char = text.skip_ws()
-        if char == "}" or char == "":
+        if char == "}":
+            text.pos += 1
+            return
+        if char == "":
             return
         if char != ",":
             yield JsonItem(text.line(), "", problem="expected ',' or '}'", code="bad_document")

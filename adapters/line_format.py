@@ -11,7 +11,10 @@ Format (one reading line)::
 - a value may carry its unit (``zs=350mΩ``), else it is in the field's unit;
 - a line starting with ``#`` is a comment, except one starting with ``#%``:
   a directive, ``#% decimal=comma``, ``#% board=DB2 circuit=4`` (the lines
-  adapter's reader says what each key does).
+  adapter's reader says what each key does);
+- a line starting with the word ``installation`` states the installation's
+  facts (``installation earthing=TT ra=62``); a line naming a ``board`` and
+  no ``circuit`` states that board's facts (``board=DB2 zdb=0.41``).
 
 Checksum (optional): the line ends with ``*`` and four hex digits, the
 CRC-16/CCITT-FALSE (polynomial 0x1021, initial value 0xFFFF, no reflection, no

@@ -1,5 +1,9 @@
 """One text line at a time → results, with the context (board, circuit, decimals) it leaves behind.
 
+A line gives a circuit's fragment, a board's or the installation's facts
+(:class:`adapters.base.BoardFacts`, :class:`adapters.base.InstallationFacts`),
+an error or a skip.
+
 Used by the ``lines`` adapter for every line it reads, and by ``ohmtally
 capture`` to know which context is in force before and after each line it
 spools, so a batch sent on its own can carry it (:meth:`LineContext.directive`).
@@ -9,9 +13,14 @@ Invariants:
   control bytes, then a directive, a comment, or the format (ours or a regex
   profile). Every fault costs that one line.
 - ``board`` and ``circuit`` are sticky: once given (on a context line of their
-  own, on a reading line, or in a directive) they hold for the lines after it
-  until given again. Giving a new board forgets the circuit unless the same
-  line gives one.
+  own, on a reading line, on a board line, or in a directive) they hold for
+  the lines after it until given again. Giving a new board forgets the circuit
+  unless the same line gives one.
+- A line's record is decided by the line alone: ``installation …`` is the
+  installation's facts (the context untouched); a line naming a board and no
+  circuit is that board's facts (and sets the board, as a context line does;
+  with no fact on it, it is just a context line); any other line is a
+  circuit's. A name of another record on it is an ``other_scope`` warning.
 - A directive line ``#% key=value …`` changes how the lines after it read:
   ``decimal=comma|point`` (empty: back to what the options said),
   ``board=``/``circuit=`` (empty: none). Any other key, or a bad value, is a
@@ -27,22 +36,25 @@ from __future__ import annotations
 import re
 from collections.abc import Iterator
 from dataclasses import dataclass, replace
-from typing import Any
 
 from .aliases import Label, fold, resolve_label
-from .base import Fragment, InputWarning, LineError, Result, Skipped
-from .cells import CellParser, CellProblem
+from .base import BoardFacts, Fragment, InputWarning, InstallationFacts, LineError, Result, Skipped
+from .cells import CellParser
 from .identifiers import key_problem
 from .line_format import DIRECTIVE, check_suffix, check_text_suffix, format_pairs, parse_pairs
 from .line_profiles import CompiledLineProfile
 from .name_notes import NameNotes, name_warning
 from .profiles import ColumnSpec
+from .row_values import RowValues
+from .scopes import Scope, in_scope
 
 __all__ = ["LineContext", "LineReader"]
 
 # C0 controls other than TAB, and DEL: noise on a serial line, never part of a reading
 _CONTROL = re.compile(r"[\x00-\x08\x0a-\x1f\x7f]")
 _DECIMALS = {"comma": True, "point": False, "": None}
+# "installation earthing=TN-C-S ze=0.21": the installation's facts (a key=value line never starts so)
+_INSTALLATION = re.compile(r"installation(?=[ \t;]|$)", re.IGNORECASE)
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,7 +83,7 @@ class LineReader:
         self.comment = comment
         self.context = LineContext(board=defaults.get("board"), circuit=defaults.get("circuit"))
         self.keys = {fold(k.source): k for k in keys}
-        self.parsers: dict[tuple[str, str, float, bool], CellParser] = {}
+        self.parsers: dict[tuple[str, str, float, bool, str], CellParser] = {}
         self.names = NameNotes()
 
     @property
@@ -124,6 +136,8 @@ class LineReader:
             yield self._directive(number, stripped[len(DIRECTIVE):])
         elif self.comment and stripped.startswith(self.comment):
             yield Skipped(line=number, reason="comment")
+        elif (found := _INSTALLATION.match(stripped)) is not None:
+            yield from self._installation(number, stripped, found.end())
         elif self.compiled is not None:
             yield from self._regex(number, stripped)
         else:
@@ -167,31 +181,20 @@ class LineReader:
         self.context = context
 
     # -- fields ---------------------------------------------------------------
-    def _parser(self, name: str, unit: str | None, scale: float = 1.0) -> CellParser:
-        key = (name, unit or "", scale, self.decimal_comma)
+    def _parser(self, name: str, unit: str | None, scale: float = 1.0,
+                scope: Scope = "circuit") -> CellParser:
+        key = (name, unit or "", scale, self.decimal_comma, scope)
         parser = self.parsers.get(key)
         if parser is None:
-            parser = CellParser(name, unit=unit, decimal_comma=self.decimal_comma, scale=scale)
+            parser = CellParser(name, unit=unit, decimal_comma=self.decimal_comma, scale=scale, scope=scope)
             if len(self.parsers) < 1024:
                 self.parsers[key] = parser
         return parser
 
-    def _emit(self, number: int, values: list[tuple[str, str, CellParser]], errors: list[LineError],
-              notes: list[InputWarning], had_keys: bool,
-              rejected: dict[str, str] | None = None) -> Iterator[Result]:
-        fields: dict[str, Any] = {}
-        rejected = rejected if rejected is not None else {}
-        for name, raw, parser in values:
-            value = parser.parse(raw)
-            if value is None:
-                continue
-            if type(value) is CellProblem:
-                errors.append(LineError(line=number, code="bad_value", field=name, text=value.text,
-                                        reason=value.reason))
-                rejected[name] = value.text if value.text is not None else raw
-            else:
-                fields[name] = value
-        if not values and not errors and (had_keys or notes):
+    def _emit(self, number: int, row: RowValues, notes: list[InputWarning], had_keys: bool,
+              cells: int) -> Iterator[Result]:
+        row.finish()
+        if not cells and not row.errors and (had_keys or notes):
             yield Skipped(line=number, reason="context" if had_keys else "no field named on the line")
             yield from notes
             return
@@ -202,10 +205,24 @@ class LineReader:
                             reason=f"no {missing} given on or before line {number}")
             yield from notes
             return
-        if fields or rejected or not errors:
-            yield Fragment(board=context.board, circuit=context.circuit, fields=fields, line=number,
-                           rejected=rejected)
-        yield from errors
+        if row.taken or not row.errors:
+            yield Fragment(board=context.board, circuit=context.circuit, fields=row.fields, line=number,
+                           rejected=row.rejected, marks=row.marks)
+        yield from row.errors
+        yield from notes
+
+    def _facts(self, number: int, row: RowValues, notes: list[InputWarning], board: str | None
+               ) -> Iterator[Result]:
+        """A board line (``board`` given, no ``circuit``) or an installation line: its facts."""
+        row.finish()
+        if not row.taken and not row.errors:
+            yield Skipped(line=number, reason="context" if board else "installation line with no facts")
+        elif row.taken and board:
+            yield BoardFacts(board=board, fields=row.fields, line=number, rejected=row.rejected,
+                             marks=row.marks)
+        elif row.taken:
+            yield InstallationFacts(fields=row.fields, line=number, rejected=row.rejected, marks=row.marks)
+        yield from row.errors
         yield from notes
 
     def _label(self, key: str) -> Label:
@@ -214,49 +231,80 @@ class LineReader:
             return Label(spec.field, spec.unit)
         return resolve_label(key)
 
+    def _installation(self, number: int, text: str, start: int) -> Iterator[Result]:
+        """``installation earthing=TN-C-S ze=0.21``: the installation's facts; the context is untouched."""
+        parsed = parse_pairs(" " * start + text[start:])  # blanks for the word: columns count from the line
+        if parsed.problem:
+            yield LineError(line=number, code="bad_syntax", text=text[:200], reason=parsed.problem)
+            return
+        row, notes, _keys, _cells = self._read_pairs(number, parsed.pairs, "installation")
+        yield from self._facts(number, row, notes, None)
+
     def _pairs(self, number: int, text: str) -> Iterator[Result]:
         parsed = parse_pairs(text)
         if parsed.problem:
             yield LineError(line=number, code="bad_syntax", text=text[:200], reason=parsed.problem)
             return
-        values: list[tuple[str, str, CellParser]] = []
-        errors: list[LineError] = []
+        names = {self._label(key).field for key, _ in parsed.pairs}
+        # a line naming a board and no circuit states that board's facts (adapters/README.md)
+        scope: Scope = "board" if "board" in names and "circuit" not in names else "circuit"
+        row, notes, keys, cells = self._read_pairs(number, parsed.pairs, scope)
+        for problem in [e for e in row.errors if e.code == "bad_key"]:
+            yield replace(problem, text=text[:200])
+            return
+        if scope == "board" and not keys.get("board"):
+            yield from row.errors
+            yield LineError(line=number, code="missing_key", field="board",
+                            reason="the line names no board (empty or given twice) and no circuit")
+            yield from notes
+            return
+        self._set_context(keys.get("board"), keys.get("circuit"))
+        if scope == "board":
+            yield from self._facts(number, row, notes, keys.get("board"))
+            return
+        had_keys = keys.get("board") is not None or keys.get("circuit") is not None
+        yield from self._emit(number, row, notes, had_keys, cells)
+
+    def _read_pairs(self, number: int, pairs: list[tuple[str, str]], scope: Scope
+                    ) -> tuple[RowValues, list[InputWarning], dict[str, str | None], int]:
+        """The pairs of one line read as a ``scope`` record: values, the keys, and the warnings."""
+        row = RowValues(number)
         notes: list[InputWarning] = []
         keys: dict[str, str | None] = {}
-        seen: dict[str, str] = {}
-        given: dict[str, str] = {}  # field -> the value text first given for it
-        rejected: dict[str, str] = {}
-        for key, raw in parsed.pairs:
+        seen: dict[str, tuple[str, str]] = {}  # field -> (key, value text) first given for it
+        cells = 0
+        for key, raw in pairs:
             label = self._label(key)
             name = label.field
-            if name is None:
-                note = self.names.first(name_warning(key, label, line=number))
+            keyed = name in ("board", "circuit") and scope != "installation"
+            if name is None or not (keyed or in_scope(label, scope)):
+                note = self.names.first(name_warning(key, label, line=number, scope=scope))
                 if note is not None:
                     notes.append(note)
                 continue
             if name in seen:
-                errors.append(LineError(line=number, code="duplicate_field", field=name, column=key,
-                                        reason=f"{name} is given twice on the line ({seen[name]!r} and "
-                                               f"{key!r}); neither value is taken"))
-                values = [v for v in values if v[0] != name]
-                keys.pop(name, None)
-                if name not in ("board", "circuit"):  # which was meant is unknown: neither, remembered
-                    rejected[name] = f"{rejected.get(name, given.get(name, ''))} | {raw}"
+                error = LineError(line=number, code="duplicate_field", field=name, column=key,
+                                  reason=f"{name} is given twice on the line ({seen[name][0]!r} and "
+                                         f"{key!r}); neither value is taken")
+                if keyed:
+                    row.errors.append(error)
+                    keys.pop(name, None)
+                else:  # which was meant is unknown: neither is taken, and the record remembers it
+                    row.refuse_twice(name, seen[name][1], raw, error)
                 continue
-            seen[name] = key
-            given[name] = raw
-            if name in ("board", "circuit"):
+            seen[name] = (key, raw)
+            if keyed:
                 problem = key_problem(name, raw)
                 if problem:
-                    yield LineError(line=number, code="bad_key", field=name, text=text[:200], reason=problem)
-                    return
+                    return (RowValues(number, errors=[LineError(line=number, code="bad_key", field=name,
+                                                                reason=problem)]), [], {}, 0)
                 keys[name] = raw.strip() or None
-            else:
-                spec = self.keys.get(fold(key))
-                values.append((name, raw, self._parser(name, label.unit, spec.scale if spec else 1.0)))
-        self._set_context(keys.get("board"), keys.get("circuit"))
-        had_keys = keys.get("board") is not None or keys.get("circuit") is not None
-        yield from self._emit(number, values, errors, notes, had_keys, rejected)
+                continue
+            spec = self.keys.get(fold(key))
+            cells += 1
+            parser = self._parser(name, label.unit, spec.scale if spec else 1.0, scope)
+            row.add(name, raw, parser.parse(raw), column=key)
+        return row, notes, keys, cells
 
     def _regex(self, number: int, text: str) -> Iterator[Result]:
         compiled = self.compiled
@@ -276,12 +324,15 @@ class LineReader:
                     return
                 keys[name] = found
         self._set_context(keys.get("board"), keys.get("circuit"))
-        values = []
+        row = RowValues(number)
+        cells = 0
         for plan in compiled.plan:
             found = match.group(plan.group)
             if found is not None:
-                values.append((plan.field, found, self._parser(plan.field, plan.unit, plan.scale)))
-        yield from self._emit(number, values, [], [], had_keys=bool(keys))
+                cells += 1
+                row.add(plan.field, found, self._parser(plan.field, plan.unit, plan.scale).parse(found),
+                        column=plan.group)
+        yield from self._emit(number, row, [], bool(keys), cells)
 
 
 def _show(raw: bytes) -> str:

@@ -5,7 +5,8 @@ Invariants:
   :class:`adapters.base.InputWarning`, never an error and never silence: the
   rest of its line is read. Unknown → ``unknown_field`` (with the nearest
   known label, if one is close); ambiguous → ``ambiguous_label`` listing the
-  fields it could mean.
+  fields it could mean; a field of another record (a board's Zdb on a
+  circuit's line) → ``other_scope``, saying where it is read.
 - :class:`NameNotes` reports each name once per input (the first line that
   carries it), so the account is the same whether the name heads a CSV column
   or recurs on every line of a log. It remembers at most ``limit`` names
@@ -17,12 +18,18 @@ from __future__ import annotations
 
 from .aliases import Label, suggestion
 from .base import InputWarning
+from .scopes import Scope, other_scope_reason
 
 __all__ = ["NameNotes", "name_warning"]
 
 
-def name_warning(name: str, label: Label, *, line: int, pointer: str | None = None) -> InputWarning:
-    """The warning for a name that maps to no field (unknown or ambiguous)."""
+def name_warning(name: str, label: Label, *, line: int, pointer: str | None = None,
+                 scope: Scope = "circuit") -> InputWarning:
+    """The warning for a name that maps to no field of a ``scope`` record (unknown, ambiguous, or a
+    field of another scope: ``other_scope``)."""
+    if label.field is not None:
+        return InputWarning(line=line, code="other_scope", column=name, field=label.field, pointer=pointer,
+                            reason=other_scope_reason(name, label, scope) + ": its values are not read")
     if label.ambiguous:
         return InputWarning(
             line=line, code="ambiguous_label", column=name, fields=label.fields, pointer=pointer,

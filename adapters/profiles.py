@@ -67,6 +67,7 @@ class CsvProfile:
     tests: tuple[ColumnSpec, ...] = ()
     defaults: dict[str, str] = field(default_factory=dict)
     only_mapped: bool = False  # ignore columns the profile does not name
+    scope: Literal["circuits", "boards", "installation"] | None = None  # what each row is (None: found)
     kind: Literal["csv"] = "csv"
 
 
@@ -199,5 +200,6 @@ def list_profiles(profile_dir: str | None = None) -> list[dict[str, Any]]:
                                 "description": profile.description, "origin": profile.origin}
         if isinstance(profile, CsvProfile):
             item["layout"] = profile.layout or "auto"
+            item["scope"] = profile.scope or "auto"
         out.append(item)
     return out

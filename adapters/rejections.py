@@ -15,6 +15,8 @@ Invariants:
 
 from __future__ import annotations
 
+from collections.abc import Collection
+
 from engine import FIELDS
 
 from .line_format import parse_pairs
@@ -24,16 +26,18 @@ __all__ = ["REJECTED_LABEL", "parse_rejected"]
 REJECTED_LABEL = "rejected"  # the column (wide) or test (long) name, matched folded
 
 
-def parse_rejected(text: str) -> tuple[dict[str, str], list[tuple[str, str]]]:
-    """``"test_temp_c=-300 zs_ohm=abc"`` → ``({field: text}, [(the bad part, why)])``."""
+def parse_rejected(text: str, allowed: Collection[str] = FIELDS
+                   ) -> tuple[dict[str, str], list[tuple[str, str]]]:
+    """``"test_temp_c=-300 zs_ohm=abc"`` → ``({field: text}, [(the bad part, why)])``; ``allowed``
+    are the fields of the record at hand (a circuit's by default)."""
     parsed = parse_pairs(text.strip())
     problems: list[tuple[str, str]] = []
     if parsed.problem:
         problems.append((text[:200], f"rejected: {parsed.problem}; write field=text pairs"))
     taken: dict[str, str] = {}
     for name, refused in parsed.pairs:
-        if name not in FIELDS or name in ("board", "circuit"):
-            problems.append((name[:200], f"rejected: {name!r} is not a field of the circuit record"))
+        if name not in allowed or name in ("board", "circuit"):
+            problems.append((name[:200], f"rejected: {name!r} is not a field of the record"))
             continue
         taken[name] = refused
     return taken, problems
