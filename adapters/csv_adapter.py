@@ -62,7 +62,8 @@ _RECORD = {"circuit": "circuit record", "board": "board record", "installation":
 class CsvAdapter:
     name: ClassVar[str] = "csv"
     description: ClassVar[str] = ("CSV exports, wide (a column per field) or long (board, circuit, "
-                                  "test, value, unit), with mapping profiles and trade-label aliases")
+                                  "test, value, unit), of circuits, boards or the installation, with "
+                                  "mapping profiles and trade-label aliases")
     media_types: ClassVar[tuple[str, ...]] = ("text/csv", "application/csv",
                                               "text/tab-separated-values")
     extensions: ClassVar[tuple[str, ...]] = (".csv", ".tsv")

@@ -49,7 +49,8 @@ def reader_for(profile: Profile | None, decimal_comma: bool | None) -> LineReade
 class LinesAdapter:
     name: ClassVar[str] = "lines"
     description: ClassVar[str] = ("Text lines from a serial port or logger: ohmtally's key=value line "
-                                  "format with optional CRC-16 checksum, or regex line profiles")
+                                  "format (circuit readings, board and installation facts) with optional "
+                                  "CRC-16 checksum, or regex line profiles")
     media_types: ClassVar[tuple[str, ...]] = ("text/plain",)
     extensions: ClassVar[tuple[str, ...]] = (".txt", ".log")
 

@@ -29,7 +29,7 @@ def name_warning(name: str, label: Label, *, line: int, pointer: str | None = No
     field of another scope: ``other_scope``)."""
     if label.field is not None:
         return InputWarning(line=line, code="other_scope", column=name, field=label.field, pointer=pointer,
-                            reason=other_scope_reason(name, label, scope) + ": its values are not read")
+                            reason=other_scope_reason(name, label, scope))
     if label.ambiguous:
         return InputWarning(
             line=line, code="ambiguous_label", column=name, fields=label.fields, pointer=pointer,

@@ -38,7 +38,7 @@ _WHAT = {"circuit": "a circuit's field", "board": "a board fact", "installation"
 _HERE = {"circuit": "a circuit's line, row or record", "board": "a board's line, row or object",
          "installation": "the installation's line, row or object"}
 _WHERE = {
-    "circuit": "give the circuit (circuit=…) to record it for a circuit",
+    "circuit": "give the circuit, circuit=…, to record it for a circuit",
     "board": "state it on a line naming the board and no circuit, in a board sheet or in 'boards'",
     "installation": "state it on an 'installation' line, in an installation sheet or in 'installation'",
 }
@@ -67,5 +67,5 @@ def other_scope_reason(name: str, label: Label, scope: Scope) -> str:
     """Why ``name`` is not read in a ``scope`` record, and where it would be."""
     owner = _owner(label, scope)
     hint = _HINTS.get((label.field or "", scope), "")
-    return (f"{name!r} names {label.field}, {_WHAT[owner]}: on {_HERE[scope]} it is not read "
-            f"({_WHERE[owner]}){hint}")
+    return (f"{name!r} names {label.field}, {_WHAT[owner]}, which is not read on {_HERE[scope]}: "
+            f"{_WHERE[owner]}{hint}")

@@ -151,6 +151,17 @@ def test_new_line_forms_and_their_errors() -> None:
     assert collect(results).lines == 6
 
 
+def test_installation_line_under_a_regex_profile() -> None:
+    """A regex profile reads its logger's circuit lines; an installation line (recognised before the
+    profile, as a directive is) still states the installation's facts in our own format."""
+    data = b"installation earthing=TT ra=62\nDB1.3 LP:820 CT:410\n"
+    got = collect(_read(data, profile="example-logger-regex"))
+    assert got.errors == []
+    assert got.installation is not None and installation_to_dict(got.installation) == {
+        "earthing": "TT", "ra_ohm": 62.0}
+    assert [(r.key, r.zs_ohm.value if r.zs_ohm else None) for r in got.records] == [(("DB1", "3"), 0.82)]
+
+
 def test_installation_line_under_a_lines_profile_and_a_checksum() -> None:
     """Installation and board lines work under a 'lines' profile (its key names and decimal commas)
     and carry a checksum like any line."""
