@@ -183,3 +183,18 @@ def test_facts_count_for_their_lines() -> None:
     results = _read(data)
     assert sum(isinstance(r, InstallationFacts | BoardFacts | Fragment | Skipped) for r in results) == 4
     assert collect(results).lines == 4
+
+
+def test_the_context_capture_carries_after_fact_lines() -> None:
+    """ohmtally capture prepends the context directive its LineReader holds after the spooled lines: a
+    board line sets the board (as a context line does) and an installation line leaves it, so the next
+    batch starts in the right place."""
+    from adapters.line_reader import LineReader
+
+    reader = LineReader()
+    for number, text in enumerate([b"board=DB1 circuit=4 zs=0.5", b"board=DB2 zdb=0.41"], start=1):
+        list(reader.line(number, text, "utf-8"))
+    assert reader.context.directive() == '#% board=DB2 circuit="" decimal=""'
+    list(reader.line(3, b"circuit=2 zs=0.6", "utf-8"))
+    list(reader.line(4, b"installation earthing=TT", "utf-8"))
+    assert reader.context.directive() == '#% board=DB2 circuit=2 decimal=""'
