@@ -37,6 +37,7 @@ from .site import (
 )
 from .summary import NOTICE, summarise
 from .verify import verify
+from .words import FIELD_WORDS, word_for
 
 __version__ = "0.1.0"
 
@@ -45,6 +46,7 @@ __all__ = [
     "CHECK_IDS",
     "DEFAULT_RULESET",
     "FIELDS",
+    "FIELD_WORDS",
     "INSTALLATION_FIELDS",
     "MEASURED_FIELDS",
     "NOTICE",
@@ -86,5 +88,6 @@ __all__ = [
     "ruleset_from_data",
     "summarise",
     "verify",
+    "word_for",
     "worst",
 ]

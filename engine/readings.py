@@ -7,7 +7,9 @@ Invariants:
 - An over-range marker without a number (``OL``, ``>``, ``---`` …) is a
   reading with relation ``>`` and no value: above the instrument's range.
 - Text that is plainly "no reading" (empty, ``-``, ``n/a``, ``NT``) parses to
-  ``None``; the field is then absent, not zero.
+  ``None``; the field is then absent, not zero. Record builders see the cell
+  words first (:mod:`engine.marks`): ``N/A`` is remembered as a mark, and ``NT``
+  / "not tested" as a limitation (``LIM``), never as a silent absence.
 - A unit that does not fit the field raises :class:`ReadingError` naming the
   field and the text; there is no silent conversion across dimensions.
 - The sign is kept as the meter gave it, from a JSON number or from text alike

@@ -80,8 +80,6 @@ def test_a_malformed_rejected_member_is_an_error_not_a_crash(bad: Any) -> None:
     assert [e.field for e in errors] == ["rejected"]
 
 
-@pytest.mark.xfail(strict=True, reason="adapters follow-up: adapters/collect.py builds records without the "
-                                       "fields its cells refused, so a refused cell is not yet remembered")
 def test_csv_remembers_refused_cells_like_build_record() -> None:
     """A refused CSV cell is remembered on the record, as a refused JSON value is."""
     [record] = _via_adapter("csv", b"board,circuit,test_temp_c\nDB1,1,-300\n")
