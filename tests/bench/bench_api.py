@@ -43,6 +43,7 @@ import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -103,18 +104,31 @@ def board_body() -> bytes:
     return json.dumps({"circuits": circuits}).encode()
 
 
+def _every(client: httpx.Client, path: str, key: str, **params: str) -> Iterator[dict[str, Any]]:
+    """Every item of a listing, page after page (``next_cursor``) where the listing is paged."""
+    cursor: str | None = None
+    while True:
+        answer = client.get(path, params={**params, **({"cursor": cursor} if cursor else {})})
+        answer.raise_for_status()
+        body = answer.json()
+        yield from body[key]
+        cursor = body.get("next_cursor")
+        if not cursor:
+            return
+
+
 def _count_readings(url: str, jobs: list[int]) -> tuple[int, int, list[str]]:
     """(readings in the jobs' history, readings their uploads say were accepted, uploads that disagree)."""
     stored = accepted = 0
     disagree: list[str] = []
     with httpx.Client(base_url=url, timeout=120) as client:
         for job in jobs:
-            body = client.get(f"/v1/jobs/{job}/circuits", params={"history": "true"}).json()
             by_upload: collections.Counter[int] = collections.Counter(
-                value["upload_id"] for circuit in body["circuits"] for values in circuit["history"].values()
-                for value in values)
+                value["upload_id"]
+                for circuit in _every(client, f"/v1/jobs/{job}/circuits", "circuits", history="true")
+                for values in circuit["history"].values() for value in values)
             stored += sum(by_upload.values())
-            for upload in client.get(f"/v1/jobs/{job}/uploads").json()["uploads"]:
+            for upload in _every(client, f"/v1/jobs/{job}/uploads", "uploads"):
                 accepted += upload["accepted"]
                 if upload["accepted"] != by_upload[upload["id"]]:
                     disagree.append(f"job {job} upload {upload['id']} ({upload.get('status')}): accepted "
