@@ -12,15 +12,16 @@ Invariants:
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
 from api.db.models import Circuit, Upload
 from api.schemas.verdicts import VerifyResponseSchema
-from engine import CircuitRecord, Ruleset, Verdict
+from engine import CircuitRecord, Ruleset, Site, Verdict
 
-__all__ = ["CircuitState", "ReadingsAnswer", "VerifyAnswer", "circuit_state", "verify_body"]
+__all__ = ["CircuitState", "FactsAnswer", "FactsState", "ReadingsAnswer", "VerifyAnswer", "circuit_state",
+           "verify_body"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -31,6 +32,7 @@ class VerifyAnswer:
     verdicts: Sequence[Verdict]
     rejected: Sequence[Mapping[str, Any]] = ()
     warnings: Sequence[Mapping[str, Any]] = ()
+    site: Site | None = None  # the installation and boards the circuits inherit from, if any
     job_id: int | None = None
     next_cursor: str | None = None
     limit: int | None = None
@@ -46,7 +48,7 @@ class ReadingsAnswer:
     verdicts: Sequence[Verdict]
     warnings: Sequence[Mapping[str, Any]] = ()
     duplicate_of: int | None = None
-    extra: Mapping[str, Any] = field(default_factory=dict)
+    facts: Sequence[str] = ()  # the installation and boards whose facts this post changed
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -68,12 +70,35 @@ def circuit_state(row: Circuit, record: CircuitRecord,
                         updated_at=row.updated_at, upload_id=row.upload_id, history=history)
 
 
+@dataclass(frozen=True, slots=True, kw_only=True)
+class FactsState:
+    """The installation's or one board's facts as stored (``fields`` None: never recorded)."""
+
+    job_id: int
+    scope: str  # installation | board
+    board: str | None
+    fields: Mapping[str, Any] | None
+    updated_at: datetime | None
+    upload_id: int | None
+    history: Mapping[str, Any] | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class FactsAnswer:
+    """A PUT of facts: the new state, the upload that keeps the body, the circuits whose outcome changed."""
+
+    state: FactsState
+    upload: Upload
+    changed: Sequence[Mapping[str, Any]]
+    warnings: Sequence[Mapping[str, Any]] = ()
+
+
 _VERIFY_SCHEMA = VerifyResponseSchema()
 
 
 def verify_body(ruleset: Ruleset, verdicts: Sequence[Verdict], rejected: Sequence[Mapping[str, Any]],
-                warnings: Sequence[Mapping[str, Any]] = ()) -> dict[str, Any]:
+                warnings: Sequence[Mapping[str, Any]] = (), *, site: Site | None = None) -> dict[str, Any]:
     """The verify answer's JSON document (as ``POST /v1/verify`` answers it)."""
     body: dict[str, Any] = _VERIFY_SCHEMA.dump(VerifyAnswer(ruleset=ruleset, verdicts=verdicts,
-                                                            rejected=rejected, warnings=warnings))
+                                                            rejected=rejected, warnings=warnings, site=site))
     return body

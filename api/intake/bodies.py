@@ -31,22 +31,38 @@ from __future__ import annotations
 import codecs
 import io
 import re
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 from marshmallow import ValidationError
 
-from adapters import AdapterError, AdapterOptions, Fragment, InputWarning, LineError
+from adapters import (
+    AdapterError,
+    AdapterOptions,
+    BoardFacts,
+    Fragment,
+    InputWarning,
+    InstallationFacts,
+    LineError,
+)
 from adapters.registry import adapter_for_media_type, get_adapter, list_adapters
 from api.db.merging import merge_fields
 from api.errors import ApiError, messages_to_errors
 from api.intake.json_document import JsonSyntaxError, parse_strict
 from api.intake.json_records import screen_json_records
 from api.intake.line_scan import BodyLimits, as_utf8, scan_lines
-from api.intake.objects import records_from_objects
-from api.schemas.records import load_verify_request
-from engine import CircuitRecord, Reading, build_record, record_to_dict
+from api.intake.site_document import FactPart, read_site_document
+from engine import (
+    BoardRecord,
+    CircuitRecord,
+    Reading,
+    Site,
+    build_board,
+    build_installation,
+    build_record,
+    record_to_dict,
+)
 from engine.intake import MARKS_KEY, REJECTED_KEY
 
 __all__ = [
@@ -57,6 +73,7 @@ __all__ = [
     "Item",
     "read_body",
     "read_json_document",
+    "site_of_facts",
 ]
 
 JSON_MEDIA_TYPE = "application/json"
@@ -82,10 +99,15 @@ class Intake:
     items: list[Item] = field(default_factory=list)
     rejected: list[dict[str, Any]] = field(default_factory=list)
     warnings: list[dict[str, Any]] = field(default_factory=list)  # names read as nothing
+    facts: list[FactPart] = field(default_factory=list)  # the installation's and boards' facts stated
     ruleset: str | None = None
     adapter: str | None = None
     profile: str | None = None
     built: list[CircuitRecord] | None = None  # one record per item, already built from the body
+
+    def site(self) -> Site:
+        """The installation and boards the body stated, merged by the stored records' rule."""
+        return site_of_facts(self.facts)
 
     def records(self) -> list[CircuitRecord]:
         """Items merged per circuit and per field (later wins), in first-seen order."""
@@ -107,8 +129,39 @@ class Intake:
         return out
 
 
+def site_of_facts(facts: Iterable[FactPart]) -> Site:
+    """Facts (stored JSON form) merged per scope and board, later winning, built into a site."""
+    merged: dict[tuple[str, str], dict[str, Any]] = {}
+    for part in facts:
+        key = (part.scope, part.board)
+        merged[key] = merge_fields(merged.get(key, {}), part.fields)
+    installation = None
+    boards: list[BoardRecord] = []
+    for (scope, board), fields in merged.items():
+        if scope == "installation":
+            installation, _errors = build_installation(fields)
+        else:
+            record, _errors = build_board({**fields, "board": board})
+            if record is not None:
+                boards.append(record)
+    return Site.of(installation, boards)
+
+
 def _json_value(value: Any) -> Any:
     return value.to_json() if isinstance(value, Reading) else value
+
+
+def _fact_part(result: BoardFacts | InstallationFacts) -> FactPart:
+    """An adapter's facts line as the installation's or a board's facts, in the stored JSON form."""
+    fields: dict[str, Any] = {k: _json_value(v) for k, v in result.fields.items()
+                              if k != "board" and v is not None}
+    if result.rejected:
+        fields[REJECTED_KEY] = dict(result.rejected)
+    if result.marks:
+        fields[MARKS_KEY] = dict(result.marks)
+    if isinstance(result, BoardFacts):
+        return FactPart("board", result.board, fields, f"line {result.line}")
+    return FactPart("installation", "", fields, f"line {result.line}")
 
 
 def _decode_utf8(body: bytes, what: str) -> str:
@@ -169,18 +222,20 @@ def _read_json(body: bytes, limits: BodyLimits) -> Intake:
     circuits = document.get("circuits") if isinstance(document, dict) else None
     if isinstance(circuits, list) and len(circuits) > limits.max_rows:
         raise _too_many_rows(len(circuits), limits.max_rows, {"pointer": f"/circuits/{limits.max_rows}"})
-    try:
-        loaded = load_verify_request(document)
-    except ValidationError as exc:
-        raise validation_problem(exc) from None
-    records, rejected = records_from_objects(loaded["circuits"], pointer="/circuits")
-    if rejected:
+    found = read_site_document(document)
+    if found.rejected:
+        noted = {"warnings": found.warnings} if found.warnings else None
+        if found.refused_for == "shape":  # JSON types and structure: the schema's refusal
+            raise ApiError(422, "invalid_body", f"the body has {len(found.rejected)} invalid field(s); "
+                           "nothing was verified or merged", errors=found.rejected, extra=noted)
         raise ApiError(422, "invalid_circuits",
-                       f"{len(rejected)} field(s) of the circuits could not be taken; nothing was "
-                       "verified or merged (JSON bodies are all or nothing)", errors=rejected)
-    intake = Intake(ruleset=loaded.get("ruleset"), built=records)
-    count = 0
-    for index, record in enumerate(records):
+                       f"{len(found.rejected)} field(s) of the document could not be taken; nothing was "
+                       "verified or merged (JSON bodies are all or nothing)", errors=found.rejected,
+                       extra=noted)
+    intake = Intake(ruleset=found.ruleset, built=found.records, warnings=found.warnings,
+                    facts=list(found.facts))
+    count = sum(len(part.fields) for part in found.facts)
+    for index, record in enumerate(found.records):
         values = record_to_dict(record)
         values.pop("board")
         values.pop("circuit")
@@ -323,6 +378,8 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
                 if count > limits.max_values:
                     raise _too_many_values(limits.max_values, {"line": result.line})
                 intake.items.append(Item(result.board, result.circuit, values, f"line {result.line}"))
+            elif isinstance(result, BoardFacts | InstallationFacts):
+                intake.facts.append(_fact_part(result))
             elif isinstance(result, InputWarning):
                 intake.warnings.append(result.as_dict())
             elif isinstance(result, LineError):

@@ -19,6 +19,7 @@ __all__ = [
     "chosen_ruleset_id",
     "json_body",
     "json_body_doc",
+    "json_body_document",
     "raw_body",
     "resolve_ruleset",
     "settings",
@@ -66,6 +67,19 @@ def resolve_ruleset(ruleset_id: str | None, *, pointer: str | None = None,
         return load_ruleset(wanted)
     except EngineError as exc:  # a packaged ruleset that does not load is our bug, said plainly
         raise ApiError(500, "bad_ruleset", exc.message) from exc
+
+
+def json_body_document(media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> Any:
+    """The request's JSON document: 415 for another media type, 400 for one that does not parse,
+    422 for one the server will not take (api.intake.json_document)."""
+    body, media_type, _charset = raw_body()
+    if media_type not in media_types:
+        sent = media_type or "a body without a Content-Type"
+        raise ApiError(415, "unsupported_media_type", f"send {' or '.join(media_types)}, not {sent}",
+                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
+                                "reason": f"expected {media_types[0]}"}],
+                       extra={"choices": list(media_types)})
+    return read_json_document(body)
 
 
 def json_body(schema: Schema, *, media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> dict[str, Any]:

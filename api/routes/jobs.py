@@ -25,6 +25,7 @@ from api.db.repository import (
     records_of,
 )
 from api.db.session import get_session
+from api.db.site_facts import site_of_rows, site_rows
 from api.http.auth import tenant
 from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC
@@ -146,12 +147,14 @@ class JobVerdicts(MethodView):
         rows, cursor, limit = _page(session, job, query)
         wanted = {(row.board, row.circuit) for row in rows}
         # Every circuit of the page is judged with the whole job in view (board-level checks).
-        verdicts = verify(job_records(session, job), ruleset, only=wanted)
+        site = site_of_rows(site_rows(session, job))
+        verdicts = verify(job_records(session, job), ruleset, only=wanted, site=site)
         headers = {"ETag": etag, **_page_links(job.id, "verdicts", cursor, query)}
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,
-                              limit=limit)
+                              limit=limit, site=site)
         if query.get("format") in (None, "json"):
             return answer, headers
-        text, media_type = render(verify_body(ruleset, verdicts, []), query["format"], DEFAULT_POLICY)
+        text, media_type = render(verify_body(ruleset, verdicts, [], site=site), query["format"],
+                                  DEFAULT_POLICY)
         return Response(text, status=200, content_type=media_type,
                         headers={**headers, NOTICE_HEADER: NOTICE})

@@ -20,6 +20,7 @@ Invariants:
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Sequence
 from typing import Any
 
 from flask import Response, g
@@ -42,6 +43,7 @@ from api.db.repository import (
     upload_circuit_keys,
 )
 from api.db.session import get_session
+from api.db.site_facts import merge_facts, site_of_rows, site_rows
 from api.errors import ApiError, insufficient_storage, storage_full
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key
@@ -51,17 +53,17 @@ from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, re
 from api.routes.verify import ReadingsQuerySchema
 from api.schemas.jobs import ReadingsResponseSchema, UploadListSchema
 from api.webhooks.outbox import emit_readings, outcomes_before
-from engine import verify
+from engine import CircuitRecord, Site, verify
 
 __all__ = ["blp"]
 
 blp = Blueprint("readings", __name__, url_prefix="/v1", description="Readings into a job; raw uploads")
 
 
-def _duplicate(job: Job, earlier: Upload, stored_records: list[Any]) -> ReadingsAnswer:
+def _duplicate(job: Job, earlier: Upload, stored_records: list[Any], site: Site) -> ReadingsAnswer:
     """The answer to a blind resend: the earlier upload's, recomputed on the job as it stands."""
     touched = upload_circuit_keys(get_session(), earlier)
-    verdicts = verify(stored_records, resolve_ruleset(job.ruleset), only=touched)
+    verdicts = verify(stored_records, resolve_ruleset(job.ruleset), only=touched, site=site)
     return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected,
                           warnings=earlier.warnings or [], upload=earlier, verdicts=verdicts,
                           duplicate_of=earlier.id)
@@ -99,12 +101,13 @@ class JobReadings(MethodView):
         session = get_session()
         job = lock_job(session, tenant(), job_id)
         stored = job_rows(session, job.id)
+        site_before = site_of_rows(site_rows(session, job))
         content_type = _full_content_type(media_type, charset)
         if key is None:
             same = recent_duplicate(session, job, sha256=hashlib.sha256(body).hexdigest(),
                                     content_type=content_type, window_s=settings().duplicate_window_s)
             if same is not None:
-                return _duplicate(job, same, records_of_rows(stored))
+                return _duplicate(job, same, records_of_rows(stored), site_before)
         # the adapter and profile as the client named them, cut to their columns' width (a refused
         # name is kept for the record; 300 characters of it must not fail the insert)
         named_adapter = (intake.adapter if intake is not None else query.get("adapter")) or ""
@@ -128,14 +131,18 @@ class JobReadings(MethodView):
         merging = session.begin_nested()  # a full disk while merging still keeps the stored body
         try:
             # verdict.changed compares with the outcomes before the merge (None: nobody listens)
-            before = outcomes_before(session, job, ruleset, records_of_rows(stored))
+            before = outcomes_before(session, job, ruleset, records_of_rows(stored), site=site_before)
             merged = merge_items(session, job, upload, intake.items, stored)
-            upload.status, upload.accepted, upload.rejected = "merged", merged.accepted, intake.rejected
-            upload.warnings = intake.warnings
-            wanted = set(merged.touched)
-            # Every circuit sees the whole job (board-level checks), but only the touched ones are
-            # verified unless verdict.changed needs all outcomes (a logger's post touches a few).
-            all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted)
+            facts_taken, facts_touched = merge_facts(session, job, upload, intake.facts)
+            site = site_of_rows(site_rows(session, job)) if facts_touched else site_before
+            upload.status, upload.rejected = "merged", intake.rejected
+            upload.accepted, upload.warnings = merged.accepted + facts_taken, intake.warnings
+            wanted = set(merged.touched) | _on_boards(merged.records, facts_touched)
+            # Every circuit sees the whole job (board-level checks), but only the touched ones (and
+            # those on boards whose facts changed) are verified unless verdict.changed needs all
+            # outcomes (a logger's post touches a few).
+            all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted,
+                                  site=site)
             # the webhook events commit with the merge, or neither does
             emit_readings(session, job, upload, touched=merged.touched, before=before, after=all_verdicts)
             merging.commit()  # RELEASE: the merge's rows are flushed inside the savepoint
@@ -144,9 +151,21 @@ class JobReadings(MethodView):
                 raise
             merging.rollback()  # the upload row, written before the savepoint, stays
             raise _refuse(upload, insufficient_storage(kept=True)) from None
-        return ReadingsAnswer(accepted=merged.accepted, rejected=intake.rejected, warnings=intake.warnings,
-                              upload=upload,
-                              verdicts=[v for v in all_verdicts if v.key in wanted])
+        return ReadingsAnswer(accepted=upload.accepted, rejected=intake.rejected, warnings=intake.warnings,
+                              upload=upload, verdicts=[v for v in all_verdicts if v.key in wanted],
+                              facts=sorted(_named(t) for t in facts_touched))
+
+
+def _on_boards(records: Sequence[CircuitRecord], touched: set[tuple[str, str]]) -> set[tuple[str, str]]:
+    """The circuits whose board's facts this post changed (the installation's change reaches every
+    circuit: their verdicts are for GET …/verdicts, not this answer; ``facts`` names the change)."""
+    boards = {board for scope, board in touched if scope == "board"}
+    return {r.key for r in records if r.board in boards} if boards else set()
+
+
+def _named(touched: tuple[str, str]) -> str:
+    scope, board = touched
+    return "installation" if scope == "installation" else f"board {board}"
 
 
 def _full_content_type(media_type: str, charset: str | None) -> str:

@@ -89,13 +89,14 @@ class Verify(MethodView):
                            limits=body_limits())
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
-        answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset),
-                              rejected=intake.rejected, warnings=intake.warnings)
+        site = intake.site()
+        answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset, site=site),
+                              rejected=intake.rejected, warnings=intake.warnings, site=site)
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
         failing = sum(1 for v in answer.verdicts if policy.treat(v.outcome.value) is Treatment.FAIL)
         headers = {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE}
         if query.get("format") is None:
             return answer, headers
-        text, media_type = render(verify_body(ruleset, answer.verdicts, answer.rejected, answer.warnings),
-                                  query["format"], policy)
+        text, media_type = render(verify_body(ruleset, answer.verdicts, answer.rejected, answer.warnings,
+                                              site=site), query["format"], policy)
         return Response(text, status=200, content_type=media_type, headers=headers)

@@ -79,7 +79,10 @@ class JobListSchema(_Strict):
 
 
 class HistoryEntrySchema(_Strict):
-    value = fields.Raw(required=True, metadata={"type": ["number", "string", "boolean"]})
+    value = fields.Raw(required=True, allow_none=True, metadata={
+        "type": ["number", "string", "boolean", "object"],
+        "description": "the value as recorded; a refusal as {rejected: text}, an N/A or LIM as {mark: …}, "
+                       "a fact cleared by a PUT as null"})
     upload_id = fields.Integer(required=True)
     location = fields.String(required=True, allow_none=True)
     recorded_at = fields.DateTime(required=True)
@@ -177,6 +180,10 @@ class ReadingsResponseSchema(_Strict):
     upload = fields.Nested(UploadRefSchema, required=True)
     verdicts = verdict_list(metadata={"description": "verdicts of the circuits this upload touched"})
     notice = notice_field()
+    facts = fields.List(fields.String(), required=True, metadata={
+        "description": "the records whose facts this post changed ('installation', 'board DB2'); the "
+                       "verdicts include the circuits of those boards, an installation change reaches "
+                       "every circuit (GET …/verdicts)"})
     duplicate_of = fields.Integer(metadata={
         "description": "present when this exact body was the job's latest upload moments ago: "
                        "nothing merged; the answer is that upload's"})

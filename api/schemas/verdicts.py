@@ -15,7 +15,7 @@ from typing import Any
 from marshmallow import RAISE, Schema, fields, validate
 
 from api.schemas.fields import Prepared
-from engine import CHECK_IDS, NOTICE, summarise
+from engine import CHECK_IDS, NOTICE, board_to_dict, installation_to_dict, summarise
 
 __all__ = [
     "CheckSchema",
@@ -143,10 +143,26 @@ def notice_field() -> fields.Constant[str]:
                        "who signs decides; local codes and licensed practice prevail"})
 
 
+def _installation(answer: Any) -> dict[str, Any] | None:
+    site = getattr(answer, "site", None)
+    return None if site is None or site.installation is None else installation_to_dict(site.installation)
+
+
+def _boards(answer: Any) -> list[dict[str, Any]]:
+    site = getattr(answer, "site", None)
+    return [] if site is None else [board_to_dict(board) for board in site.boards.values()]
+
+
 class VerifyResponseSchema(_Strict):
     ruleset = fields.Nested(RulesetRefSchema, required=True)
     summary = fields.Method("_summary", required=True,
                             metadata={"description": "circuits counted by outcome, and rejected inputs"})
+    installation = fields.Function(_installation, metadata={
+        "type": ["object", "null"],
+        "description": "the installation's facts the circuits inherit (null: none recorded)"})
+    boards = fields.Function(_boards, metadata={
+        "type": "array", "items": {"type": "object"},
+        "description": "each board's facts (Zdb, PFC, what feeds it) its circuits inherit"})
     verdicts = verdict_list()
     rejected = rejected_list()
     warnings = warning_list()

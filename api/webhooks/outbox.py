@@ -28,7 +28,7 @@ from sqlalchemy.orm import Session, SessionTransaction
 
 from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription
 from api.webhooks.clock import database_now
-from engine import NOTICE, CircuitRecord, Ruleset, Verdict, verify
+from engine import NOTICE, CircuitRecord, Ruleset, Site, Verdict, verify
 
 __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", "outcomes_before",
            "subscribed"]
@@ -77,12 +77,13 @@ def subscribed(session: Session, organisation_id: int, event_type: str) -> bool:
     return bool(_subscriptions(session, organisation_id, event_type))
 
 
-def outcomes_before(session: Session, job: Job, ruleset: Ruleset,
-                    records: Sequence[CircuitRecord]) -> Outcomes | None:
-    """The job's outcomes from its stored ``records``, before a merge; ``None`` if nobody listens."""
+def outcomes_before(session: Session, job: Job, ruleset: Ruleset, records: Sequence[CircuitRecord],
+                    site: Site | None = None) -> Outcomes | None:
+    """The job's outcomes from its stored ``records`` and facts, before a change; ``None`` if nobody
+    listens."""
     if not subscribed(session, job.organisation_id, "verdict.changed"):
         return None
-    return outcomes(verify(records, ruleset))
+    return outcomes(verify(records, ruleset, site=site))
 
 
 def emit(session: Session, *, organisation_id: int, job_id: int | None, event_type: str,

@@ -12,6 +12,7 @@ from flask.testing import FlaskClient
 from openapi_spec_validator import validate
 
 from engine import FIELDS, __version__
+from engine.record_notation import NOTATION_INPUTS
 
 
 def _route_template(rule: str) -> str:
@@ -43,10 +44,11 @@ def test_every_route_is_documented_and_every_documented_route_exists(app: Flask,
 
 
 def test_record_schema_has_every_engine_field(client: FlaskClient) -> None:
-    """The request record schema lists exactly engine.fields.FIELDS and rejects other names."""
+    """The request record schema lists exactly engine.fields.FIELDS and the trade-notation inputs
+    (device, cable, rcd), and no other names (other names are read as nothing, with a warning)."""
     spec = client.get("/v1/openapi.json").get_json()
     circuit = spec["components"]["schemas"]["CircuitIn"]
-    assert set(circuit["properties"]) == set(FIELDS)
+    assert set(circuit["properties"]) == set(FIELDS) | NOTATION_INPUTS
     assert circuit["additionalProperties"] is False
     assert set(circuit["required"]) == {"board", "circuit"}
     assert circuit["properties"]["zs_ohm"]["type"][:2] == ["number", "string"]

@@ -9,7 +9,7 @@ External references:
   computed here with hashlib on the text between ``<style>`` and ``</style>``.
 - WCAG 2.1 SC 1.4.3 (contrast minimum 4.5:1) with the definitions of relative luminance
   and contrast ratio, computed here from the sRGB values.
-- The demo site's own schedule (``examples/demo/schedule.json``) for which board feeds which.
+- The demo site document's boards (``examples/demo-site.json``) for which board feeds which.
 Readings and circuits are invented; outcomes come from the engine (BS 7671 Reg. 643.6 for polarity).
 """
 
@@ -31,6 +31,7 @@ from flask.testing import FlaskClient
 
 from api.answers import verify_body
 from api.intake.objects import records_from_objects
+from api.intake.site_document import read_site_document
 from api.render import FORMATS, HTML_STYLE_SOURCE, MEDIA_TYPES, policy_from_names, render
 from api.render.html import OUTCOMES, STYLE
 from api.render.html_checks import NOTCH, SCALE_END, bar_for, check_view
@@ -164,7 +165,11 @@ def body_of(circuits: list[dict[str, Any]], **extra: Any) -> dict[str, Any]:
 
 
 def demo_body() -> dict[str, Any]:
-    return body_of(json.loads(DEMO.read_text(encoding="utf-8"))["circuits"])
+    """The demo site document's answer: its circuits verified with its installation and boards."""
+    found = read_site_document(json.loads(DEMO.read_text(encoding="utf-8")))
+    assert found.rejected == []
+    ruleset = load_ruleset(None)
+    return verify_body(ruleset, verify(found.records, ruleset, site=found.site), [], site=found.site)
 
 
 def html_of(body: dict[str, Any], **kwargs: Any) -> str:
@@ -310,11 +315,10 @@ def test_control_characters_and_lone_surrogates_still_make_valid_utf8() -> None:
 
 
 def test_boards_are_a_tree_as_the_schedule_feeds_them() -> None:
-    """DB2 sits under DB1 and DB3 under DB2, as board_fed_from says in the demo's schedule; each board's
-    counts are its own circuits by outcome."""
-    schedule = json.loads((ROOT / "examples" / "demo" / "schedule.json").read_text(encoding="utf-8"))
-    fed = {c["board"]: c["board_fed_from"].split("/")[0]
-           for c in schedule["circuits"] if c.get("board_fed_from")}
+    """DB2 sits under DB1 and DB3 under DB2, as the boards' board_fed_from says in the demo's site
+    document; each board's counts are its own circuits by outcome."""
+    site = json.loads(DEMO.read_text(encoding="utf-8"))
+    fed = {b["board"]: b["board_fed_from"].split("/")[0] for b in site["boards"] if b.get("board_fed_from")}
     body = demo_body()
     tree = Tree(html_of(body)).nodes
     boards = {v["board"] for v in body["verdicts"]}

@@ -72,14 +72,15 @@ def test_duplicate_circuits_merge_per_field_later_wins(client: FlaskClient) -> N
 
 
 def test_json_bad_fields_are_422_with_a_pointer_each(client: FlaskClient) -> None:
-    """JSON is all or nothing: wrong types, unknown fields and unreadable readings each get a pointer."""
+    """JSON is all or nothing: wrong types and unreadable readings each get a pointer; an unknown name
+    is read as nothing and said as a warning with its pointer, as a CSV column or a lines key is."""
     circuits = [dict(CIRCUITS[0]), {"board": "DB1", "circuit": "2", "zs_ohm": True, "colour": "red"},
                 {"board": "DB1", "circuit": "3", "zs_ohm": "0.4 kA"}, {"board": "DB1", "circuit": "4",
                                                                         "earthing": "TN-Z"}]
     body = _problem(client.post("/v1/verify", json={"circuits": circuits}), 422, "invalid_body")
-    pointers = {e["pointer"]: e for e in body["errors"]}
-    assert set(pointers) == {"/circuits/1/zs_ohm", "/circuits/1/colour"}
-    assert pointers["/circuits/1/colour"]["code"] == "unknown_field" and "colour" in body["detail"]
+    assert {e["pointer"] for e in body["errors"]} == {"/circuits/1/zs_ohm"}
+    (noted,) = body["warnings"]
+    assert noted["pointer"] == "/circuits/1/colour" and noted["code"] == "unknown_field"
     # the types are right; now the engine's own reading rules reject two values
     circuits[1] = {"board": "DB1", "circuit": "2"}
     body = _problem(client.post("/v1/verify", json={"circuits": circuits}), 422, "invalid_circuits")
@@ -87,13 +88,16 @@ def test_json_bad_fields_are_422_with_a_pointer_each(client: FlaskClient) -> Non
 
 
 def test_missing_key_and_top_level_shape(client: FlaskClient) -> None:
-    """A circuit without board/circuit, a body without circuits, or unknown members are 422s with pointers."""
+    """A circuit without board/circuit, or a body stating nothing (an unknown member is a warning, not
+    circuits) are 422s with pointers; a bare list of circuits is read as the document's circuits, as
+    `ohmtally verify` reads such a file."""
     body = _problem(client.post("/v1/verify", json={"circuits": [{"board": "X"}]}), 422, "invalid_body")
     assert body["errors"][0]["pointer"] == "/circuits/0/circuit"
     body = _problem(client.post("/v1/verify", json={"circuit": []}), 422, "invalid_body")
-    assert {e["pointer"] for e in body["errors"]} == {"/circuits", "/circuit"}
-    body = _problem(client.post("/v1/verify", json=[CIRCUITS[0]]), 422, "invalid_body")
-    assert body["errors"][0]["pointer"] == ""
+    assert [(e["pointer"], e["code"]) for e in body["errors"]] == [("", "nothing_stated")]
+    assert [w["pointer"] for w in body["warnings"]] == ["/circuit"]
+    listed = client.post("/v1/verify", json=[CIRCUITS[0]])
+    assert listed.status_code == 200 and len(listed.get_json()["verdicts"]) == 1
 
 
 @pytest.mark.parametrize(("data", "content_type", "status", "code"), [
