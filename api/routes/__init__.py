@@ -9,10 +9,12 @@ from api.routes.docs import blp as docs
 from api.routes.jobs import blp as jobs
 from api.routes.operations import blp as operations
 from api.routes.readings import blp as readings
+from api.routes.site import blp as site
 from api.routes.sync import blp as sync
 from api.routes.verify import blp as verify
 from api.routes.webhooks import blp as webhooks
 
 __all__ = ["BLUEPRINTS"]
 
-BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, operations, verify, jobs, sync, readings, webhooks, docs)
+BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, operations, verify, jobs, site, sync, readings, webhooks,
+                                      docs)
