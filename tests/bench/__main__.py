@@ -2,7 +2,7 @@
 
 Every benchmark, then one table of every figure.
 
-``make bench`` runs this at full size (about ten minutes on two cores). Each
+``make bench`` runs this at full size (11 to 14 minutes on two cores). Each
 figure is measured in interleaved rounds against a baseline of the same run
 (``tests/bench/README.md``: why and how). ``--smoke`` runs every benchmark on
 tiny inputs with two rounds, in seconds, to show they still run (CI); its
