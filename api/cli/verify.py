@@ -26,6 +26,7 @@ import gc
 import json
 import os
 import sys
+from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
@@ -36,7 +37,9 @@ from adapters import AdapterOptions, collect
 from adapters.registry import adapter_for_extension, get_adapter
 from api.answers import verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
-from api.intake.objects import records_from_objects
+from api.intake.bodies import site_of_facts
+from api.intake.json_document import JsonSyntaxError, parse_strict
+from api.intake.site_document import FactPart, read_site_document
 from api.render import (
     FAIL_ON_CHOICES,
     FORMATS,
@@ -50,6 +53,8 @@ from engine import (
     CircuitRecord,
     EngineError,
     Ruleset,
+    board_to_dict,
+    installation_to_dict,
     load_ruleset,
     ruleset_from_data,
     verify,
@@ -69,6 +74,12 @@ def register(sub: Any) -> None:
                    help="least severe outcome that fails (exit 1, JUnit <failure>)")
     p.add_argument("--warn-on", choices=WARN_ON_CHOICES, default="incomplete",
                    help="least severe outcome that warns (JUnit <skipped>); none: never")
+    p.add_argument("--fail-on-warning", action="store_true",
+                   help="exit 2 when the input carried a name read as nothing (an unknown or ambiguous "
+                        "column or key), as for rejected input")
+    p.add_argument("--decimal", choices=("comma", "point"), default=None,
+                   help="the files' decimal separator (default: as the profile or a '#% decimal=' line says; "
+                        "CSV detects it)")
     p.set_defaults(func=run)
 
 
@@ -78,30 +89,62 @@ def _ruleset(spec: str | None) -> Ruleset:
     return load_ruleset(spec)
 
 
-def _read_json(path: Path) -> tuple[list[CircuitRecord], list[dict[str, Any]], str | None]:
-    data = json.loads(path.read_text(encoding="utf-8"))
-    ruleset_id = None
-    if isinstance(data, dict):
-        ruleset_id = data.get("ruleset")
-        circuits = data.get("circuits")
-        if not isinstance(circuits, list):
-            return [], [{"pointer": "/circuits", "code": "missing",
-                         "reason": "expected a list under 'circuits'"}], None
-        records, rejected = records_from_objects(circuits, pointer="/circuits")
-    elif isinstance(data, list):
-        records, rejected = records_from_objects(data, pointer="")
-    else:
-        return [], [{"pointer": "", "code": "bad_document",
-                     "reason": "expected a list of circuits or an object with 'circuits'"}], None
-    return records, rejected, ruleset_id if isinstance(ruleset_id, str) else None
+@dataclass(slots=True)
+class _Read:
+    """What the files given held, together: records, the facts they state, refusals and warnings."""
+
+    records: list[CircuitRecord] = field(default_factory=list)
+    facts: list[FactPart] = field(default_factory=list)
+    rejected: list[dict[str, Any]] = field(default_factory=list)
+    warnings: list[dict[str, Any]] = field(default_factory=list)
+    ruleset_id: str | None = None
 
 
-def _read_adapter(path: Path, adapter: str | None, profile: str | None
-                  ) -> tuple[list[CircuitRecord], list[dict[str, Any]], list[dict[str, Any]]]:
+_CLI_ROWS = 10_000_000  # the strict parser's structure bound for a file on the user's own disk
+
+
+def _read_json(path: Path, found: _Read) -> None:
+    """A JSON site document, read as the API reads a JSON body: strictly (depth, repeated names,
+    number range), unknown names as warnings, and refused whole if any value cannot be taken."""
+    raw = path.read_bytes()
+    text = raw.decode("utf-8-sig")
+    try:
+        parsed = parse_strict(raw, text, max_rows=_CLI_ROWS)
+    except JsonSyntaxError as exc:
+        reason = f"not valid JSON: {exc.msg} at line {exc.line} column {exc.column}"
+        print(f"ohmtally verify: cannot read {path}: {reason}", file=sys.stderr)
+        found.rejected.append({"file": str(path), "pointer": "", "line": exc.line, "code": "unreadable",
+                               "reason": reason})
+        return
+    if parsed.problems:
+        found.rejected.extend({"file": str(path), **p} for p in parsed.problems)
+        return
+    document = read_site_document(parsed.value)
+    found.warnings.extend({"file": str(path), **w} for w in document.warnings)
+    if document.rejected:  # all or nothing, as POST /v1/verify answers the same document
+        found.rejected.extend({"file": str(path), **r} for r in document.rejected)
+        print(f"ohmtally verify: {path}: {len(document.rejected)} field(s) could not be taken; the file "
+              "was not verified (JSON documents are all or nothing)", file=sys.stderr)
+        return
+    found.records.extend(document.records)
+    found.facts.extend(document.facts)
+    found.ruleset_id = found.ruleset_id or document.ruleset
+
+
+def _read_adapter(path: Path, adapter: str | None, profile: str | None, decimal: bool | None,
+                  found: _Read) -> None:
     chosen = get_adapter(adapter) if adapter else adapter_for_extension(path.suffix)
     with path.open("rb") as stream:
-        got = collect(chosen.read(stream, AdapterOptions(profile=profile)))
-    return got.records, [e.as_dict() for e in got.errors], [w.as_dict() for w in got.warnings]
+        got = collect(chosen.read(stream, AdapterOptions(profile=profile, decimal_comma=decimal)))
+    found.records.extend(got.records)
+    found.rejected.extend({"file": str(path), **e.as_dict()} for e in got.errors)
+    found.warnings.extend({"file": str(path), **w.as_dict()} for w in got.warnings)
+    if got.installation is not None:
+        found.facts.append(FactPart("installation", "", installation_to_dict(got.installation), str(path)))
+    for board in got.boards:
+        fields = board_to_dict(board)
+        fields.pop("board", None)
+        found.facts.append(FactPart("board", board.board, fields, str(path)))
 
 
 def _generated_at() -> datetime | None:
@@ -110,28 +153,28 @@ def _generated_at() -> datetime | None:
     return datetime.fromtimestamp(int(epoch), UTC) if epoch.isdigit() else None
 
 
-def _read_files(args: argparse.Namespace, rejected: list[dict[str, Any]], warnings: list[dict[str, Any]]
-                ) -> tuple[list[CircuitRecord], str | None]:
-    records: list[CircuitRecord] = []
-    ruleset_id: str | None = None
+def _read_files(args: argparse.Namespace) -> _Read:
+    found = _Read()
+    decimal = {"comma": True, "point": False}.get(args.decimal or "")
     for name in args.files:
         path = Path(name)
         try:
-            use_json = (args.adapter in (None, "json") and path.suffix.lower() == ".json")
-            if use_json:
-                got, bad, file_ruleset = _read_json(path)
-                ruleset_id = ruleset_id or file_ruleset
+            if args.adapter in (None, "json") and path.suffix.lower() == ".json":
+                _read_json(path, found)
             else:
-                got, bad, noted = _read_adapter(path, args.adapter, args.profile)
-                warnings.extend({"file": name, **w} for w in noted)
-        except (OSError, UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
+                _read_adapter(path, args.adapter, args.profile, decimal, found)
+        except (OSError, UnicodeDecodeError) as exc:
             reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
             print(f"ohmtally verify: cannot read {name}: {reason}", file=sys.stderr)
-            rejected.append({"file": name, "pointer": "", "code": "unreadable", "reason": reason})
-            continue
-        records.extend(got)
-        rejected.extend({"file": name, **b} for b in bad)
-    return records, ruleset_id
+            found.rejected.append({"file": name, "pointer": "", "code": "unreadable", "reason": reason})
+    return found
+
+
+def _say_warnings(warnings: list[dict[str, Any]]) -> None:
+    for warning in warnings:
+        where = f"line {warning['line']}" if "line" in warning else warning.get("pointer") or "?"
+        print(f"ohmtally verify: warning: {warning.get('file', '')}:{where}: {warning['reason']}",
+              file=sys.stderr)
 
 
 def _write(body: dict[str, Any], fmt: str, policy: Policy) -> None:
@@ -151,11 +194,9 @@ def run(args: argparse.Namespace) -> int:
     # so it switches the collector off (the engine itself touches no process-wide state).
     gc.disable()
     policy = policy_from_names(args.fail_on, args.warn_on)
-    rejected: list[dict[str, Any]] = []
-    warnings: list[dict[str, Any]] = []
     try:
-        records, ruleset_id = _read_files(args, rejected, warnings)
-        ruleset = _ruleset(args.ruleset or ruleset_id)
+        found = _read_files(args)
+        ruleset = _ruleset(args.ruleset or found.ruleset_id)
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         print(f"ohmtally verify: cannot read the ruleset: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -168,11 +209,13 @@ def run(args: argparse.Namespace) -> int:
             raise
         print(f"ohmtally verify: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    verdicts = verify(records, ruleset)
-    body = verify_body(ruleset, verdicts, rejected, warnings)
+    site = site_of_facts(found.facts)
+    verdicts = verify(found.records, ruleset, site=site)
+    body = verify_body(ruleset, verdicts, found.rejected, found.warnings, site=site)
+    _say_warnings(found.warnings)
     _write(body, args.format, policy)
     if policy.failing_circuits(body["verdicts"]):
         return EXIT_FAIL
-    if rejected:
+    if found.rejected or (args.fail_on_warning and found.warnings):
         return EXIT_BAD_INPUT
     return EXIT_OK

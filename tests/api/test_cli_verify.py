@@ -69,7 +69,7 @@ def test_investigate_fails_under_fail_on_investigate_and_incomplete(
     """An investigate verdict (stood in for the engine: no check yields one yet) follows --fail-on."""
     check = CheckResult(check="loop_impedance", outcome=Outcome.INVESTIGATE, detail="marginal")
     stand_in = [Verdict(board="DB1", circuit="1", outcome=Outcome.INVESTIGATE, checks=(check,))]
-    monkeypatch.setattr(api.cli.verify, "verify", lambda records, ruleset: stand_in)
+    monkeypatch.setattr(api.cli.verify, "verify", lambda records, ruleset, **_site: stand_in)
     status, _ = run([write(tmp_path, "i.json", PASS_AND_INCOMPLETE[:1]), "--fail-on", fail_on],
                     capsys)
     assert status == expected
@@ -77,24 +77,46 @@ def test_investigate_fails_under_fail_on_investigate_and_incomplete(
 
 def test_json_output_equals_verify_body_of_the_same_records(
         tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
-    """--format json is exactly verify_body for the same records (the API's body)."""
-    circuits = [*FAILING, {"board": "DB2", "circuit": "1", "zs_ohm": "3 kA"}]
-    path = write(tmp_path, "j.json", circuits)
+    """--format json is exactly verify_body for the same records (the API's body); a JSON file with a
+    value that cannot be taken is refused whole, as POST /v1/verify refuses it (422, same pointers)."""
+    path = write(tmp_path, "j.json", FAILING)
     status, out = run([path, "--format", "json"], capsys)
-    records, rejected = records_from_objects(circuits)
+    records, _ = records_from_objects(FAILING)
     ruleset = load_ruleset(None)
-    expected = verify_body(ruleset, verify(records, ruleset), [{"file": path, **r} for r in rejected])
-    assert json.loads(out) == expected
+    assert json.loads(out) == verify_body(ruleset, verify(records, ruleset), [])
     assert status == EXIT_FAIL
+    bad = write(tmp_path, "k.json", [*FAILING, {"board": "DB2", "circuit": "1", "zs_ohm": "3 kA"}])
+    status, out = run([bad, "--format", "json"], capsys)
+    body = json.loads(out)
+    assert body["verdicts"] == [] and status == EXIT_BAD_INPUT
+    assert [(r["file"], r["pointer"], r["code"]) for r in body["rejected"]] == [
+        (bad, "/circuits/2/zs_ohm", "bad_value")]
 
 
 def test_rejected_input_exits_2_and_a_failure_wins_over_it(
         tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
-    """Rejected lines alone exit 2; with a failing circuit beside them the exit is 1."""
+    """Rejected input alone exits 2; with a failing circuit beside it (another file, or another line of
+    a lines file, which is read row by row) the exit is 1."""
     bad = {"board": "DB2", "circuit": "1", "polarity_ok": True, "zs_ohm": "3 kA"}
-    alone, _ = run([write(tmp_path, "r.json", [bad]), "--format", "csv"], capsys)
-    beside, _ = run([write(tmp_path, "rf.json", [bad, FAILING[1]]), "--format", "csv"], capsys)
-    assert (alone, beside) == (EXIT_BAD_INPUT, EXIT_FAIL)
+    refused = write(tmp_path, "r.json", [bad])
+    alone, _ = run([refused, "--format", "csv"], capsys)
+    beside, _ = run([refused, write(tmp_path, "rf.json", [FAILING[1]]), "--format", "csv"], capsys)
+    lines = tmp_path / "l.log"
+    lines.write_text("board=DB2 circuit=1 zs=3kA\nboard=DB1 circuit=3 polarity_ok=no\n", encoding="utf-8")
+    in_lines, _ = run([str(lines), "--format", "csv"], capsys)
+    assert (alone, beside, in_lines) == (EXIT_BAD_INPUT, EXIT_FAIL, EXIT_FAIL)
+
+
+def test_warnings_are_said_and_can_fail_a_pipeline(tmp_path: Path,
+                                                   capsys: pytest.CaptureFixture[str]) -> None:
+    """An unknown column is read as nothing and said on stderr; --fail-on-warning makes it exit 2."""
+    sheet = tmp_path / "w.csv"
+    sheet.write_text("board,circuit,polarity_ok,Zss\nDB1,1,yes,0.4\n", encoding="utf-8")
+    status = main(["verify", str(sheet), "--format", "json"])
+    captured = capsys.readouterr()
+    assert status == EXIT_OK and "Zss" in captured.err
+    assert json.loads(captured.out)["summary"]["warnings"] == 1
+    assert main(["verify", str(sheet), "--format", "json", "--fail-on-warning"]) == EXIT_BAD_INPUT
 
 
 @pytest.mark.parametrize("content", [None, "{not json", b"\xff\xfe\x00bad"])
@@ -154,3 +176,27 @@ def test_installed_entry_exits_with_the_status(tmp_path: Path) -> None:
     assert (failing.returncode, passing.returncode) == (EXIT_FAIL, EXIT_OK), failing.stderr
     # SOURCE_DATE_EPOCH 1714555800 is 2024-05-01T09:30:00Z (reproducible-builds.org spec)
     assert b'timestamp="2024-05-01T09:30:00"' in failing.stdout
+
+
+def test_a_site_document_and_fact_lines_are_verified_with_inheritance(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """`ohmtally verify site.json` judges circuits with the installation's and boards' facts (what the
+    API does for the same body), and facts in one file reach circuits in another (a lines file's board
+    line, a CSV circuit sheet)."""
+    site = {"installation": {"earthing": "TN-C-S", "ze_ohm": 0.21},
+            "boards": [{"board": "DB2", "board_fed_from": "DB1/5", "zdb_ohm": 0.41}],
+            "circuits": [{"board": "DB2", "circuit": "1", "device": "B16", "zs_ohm": 0.95, "r1_r2_ohm": 0.5}]}
+    doc = tmp_path / "site.json"
+    doc.write_text(json.dumps(site), encoding="utf-8")
+    _status, out = run([str(doc), "--format", "json"], capsys)
+    (verdict,) = json.loads(out)["verdicts"]
+    assert verdict["inherited"]["ze_ohm"] == "board DB2"  # Zs vs Zdb + R1+R2 read the board's Zdb
+    assert verdict["inherited"]["earthing"] == "installation"
+    facts = tmp_path / "facts.log"
+    facts.write_text("installation earthing=TN-C-S ze=0.21\nboard=DB2 zdb=0.41 fed_from=DB1/5\n",
+                     encoding="utf-8")
+    sheet = tmp_path / "c.csv"
+    sheet.write_text("board,circuit,device,zs_ohm,r1_r2_ohm\nDB2,1,B16,0.95,0.5\n", encoding="utf-8")
+    _status, out = run([str(facts), str(sheet), "--format", "json"], capsys)
+    (from_files,) = json.loads(out)["verdicts"]
+    assert from_files["checks"] == verdict["checks"] and from_files["inherited"] == verdict["inherited"]
