@@ -12,8 +12,9 @@ from pathlib import Path
 
 import pytest
 
+import engine
 from engine import CHECK_IDS, verify
-from tests.bench import synthetic
+from tests.bench import bench_engine, synthetic
 from tests.bench.common import UNAVAILABLE, compare, interleave, unavailable
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -79,3 +80,15 @@ def test_unavailable_feature_is_a_row_not_a_pass() -> None:
     figure = unavailable("engine", "compact results", ">= 50,000/s")
     assert figure.met is None and figure.value is None
     assert UNAVAILABLE in figure.cells()
+
+
+def test_engine_compact_results_are_found_once_they_exist(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Once the engine offers compact results (a stand-in ``verify_compact`` here), the bench runs them."""
+    seen: list[int] = []
+    monkeypatch.setattr(engine, "verify_compact", lambda records: seen.append(len(records)), raising=False)
+    found = bench_engine.compact_engine()
+    assert found is not None
+    assert found[0] in ("engine.verify_compact", "verify(view='compact')")  # a view keyword comes first
+    if found[0] == "engine.verify_compact":
+        found[1](synthetic.records(3))
+        assert seen == [3]
