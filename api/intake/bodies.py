@@ -337,7 +337,8 @@ def _bad_key(result: Fragment) -> dict[str, Any] | None:
 
 
 def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_name: str | None,
-                  profile: str | None, profile_dir: str | None, limits: BodyLimits) -> Intake:
+                  profile: str | None, profile_dir: str | None, limits: BodyLimits,
+                  decimal_comma: bool | None = None) -> Intake:
     if not body.strip():
         raise ApiError(400, "empty_body", "the request body is empty",
                        errors=[{"line": 1, "code": "empty_body", "reason": "no content"}])
@@ -356,7 +357,8 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
     else:
         scan_lines(body, limits, charset=charset)
         readable = body
-    options = AdapterOptions(profile=profile, profile_dir=profile_dir, encoding=encoding)
+    options = AdapterOptions(profile=profile, profile_dir=profile_dir, encoding=encoding,
+                             decimal_comma=decimal_comma)
     header_errors: list[Any] = []
     count = 0
     try:
@@ -398,10 +400,12 @@ def _read_adapter(body: bytes, media_type: str, charset: str | None, adapter_nam
 
 def read_body(body: bytes, media_type: str, *, charset: str | None = None,
               adapter: str | None = None, profile: str | None = None,
-              profile_dir: str | None = None, limits: BodyLimits = DEFAULT_LIMITS) -> Intake:
+              profile_dir: str | None = None, limits: BodyLimits = DEFAULT_LIMITS,
+              decimal_comma: bool | None = None) -> Intake:
     """The readings in a request body, or the :class:`ApiError` saying why there are none.
 
-    ``limits`` bound the rows and lines (the body's size was bounded as it was read)."""
+    ``limits`` bound the rows and lines (the body's size was bounded as it was read);
+    ``decimal_comma`` is the client's declaration (``?decimal=``) for the text formats."""
     if media_type == JSON_MEDIA_TYPE and adapter in (None, ""):
         return _read_json(body, limits)
-    return _read_adapter(body, media_type, charset, adapter, profile, profile_dir, limits)
+    return _read_adapter(body, media_type, charset, adapter, profile, profile_dir, limits, decimal_comma)

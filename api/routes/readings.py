@@ -50,7 +50,7 @@ from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, re
 from api.http.limits import body_limits
 from api.intake.bodies import Intake, read_body
 from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
-from api.routes.verify import ReadingsQuerySchema
+from api.routes.verify import DECIMALS, ReadingsQuerySchema
 from api.schemas.jobs import ReadingsResponseSchema, UploadListSchema
 from api.webhooks.outbox import emit_readings, outcomes_before
 from engine import CircuitRecord, Site, verify
@@ -94,6 +94,7 @@ class JobReadings(MethodView):
         unreadable: ApiError | None = None
         try:
             intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
+                               decimal_comma=DECIMALS.get(query.get("decimal") or ""),
                                profile=query.get("profile"), profile_dir=settings().profile_dir,
                                limits=body_limits())
         except ApiError as problem:

@@ -32,7 +32,9 @@ from api.routes.common import (
 from api.schemas.verdicts import VerifyResponseSchema
 from engine import NOTICE, verify
 
-__all__ = ["ReadingsQuerySchema", "VerifyQuerySchema", "blp"]
+__all__ = ["DECIMALS", "ReadingsQuerySchema", "VerifyQuerySchema", "blp"]
+
+DECIMALS = {"comma": True, "point": False}  # ?decimal= → the adapters' decimal_comma
 
 blp = Blueprint("verify", __name__, url_prefix="/v1", description="Stateless verification")
 
@@ -44,6 +46,9 @@ class ReadingsQuerySchema(Schema):
     adapter = fields.String(metadata={"description": "adapter name (default: from the Content-Type)"})
     profile = fields.String(metadata={"description": "mapping or line profile for the adapter"})
     ruleset = fields.String(metadata={"description": "ruleset id (JSON bodies may name it instead)"})
+    decimal = fields.String(validate=validate.OneOf(tuple(DECIMALS)), metadata={
+        "description": "the text body's decimal separator: comma (0,82) or point; default: as the "
+                       "profile or a '#% decimal=' line says (CSV detects it)"})
 
 
 class VerifyQuerySchema(ReadingsQuerySchema):
@@ -85,6 +90,7 @@ class Verify(MethodView):
             resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
         intake = read_body(body, media_type, charset=charset, adapter=query.get("adapter"),
+                               decimal_comma=DECIMALS.get(query.get("decimal") or ""),
                            profile=query.get("profile"), profile_dir=settings().profile_dir,
                            limits=body_limits())
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)

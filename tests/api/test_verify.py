@@ -204,3 +204,18 @@ def test_no_body_yields_a_500(client: FlaskClient, data: bytes, content_type: st
     """Arbitrary bytes under every accepted content type never produce a 5xx."""
     response = client.post("/v1/verify", data=data, content_type=content_type)
     assert response.status_code < 500, response.get_data()[:300]
+
+
+def test_decimal_commas_declared_by_the_query(client: FlaskClient) -> None:
+    """?decimal=comma reads 0,41 as 0.41 in a lines body; without it the comma is refused (never read as
+    41 or dropped silently), and the refusal says how to declare it."""
+    lines = b"board=DB1 circuit=1 zs=0,41\n"
+    refused = client.post("/v1/verify?adapter=lines", data=lines, content_type="text/plain").get_json()
+    assert refused["rejected"] and "decimal" in refused["rejected"][0]["reason"]
+    taken = client.post("/v1/verify?adapter=lines&decimal=comma", data=lines, content_type="text/plain")
+    assert taken.status_code == 200 and taken.get_json()["rejected"] == []
+    job = client.post("/v1/jobs", json={"reference": "D-1", "site": "Invented site"}).get_json()["id"]
+    client.post(f"/v1/jobs/{job}/readings?adapter=lines&decimal=comma", data=lines, content_type="text/plain")
+    (stored,) = client.get(f"/v1/jobs/{job}/circuits").get_json()["circuits"]
+    assert stored["record"]["zs_ohm"] == 0.41
+    assert client.post("/v1/verify?decimal=dot", data=lines, content_type="text/plain").status_code == 422
