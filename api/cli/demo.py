@@ -28,6 +28,7 @@ from api.cli.db import resolve_database_url
 from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
 from api.db.schema import upgrade
 from api.db.session import default_sqlite_url
+from api.render._text import meter_pair
 from api.settings import load_settings
 
 __all__ = ["format_report", "free_port", "register", "run", "wait_healthy"]
@@ -76,11 +77,12 @@ def start_server(port: int, database_url: str) -> subprocess.Popen[bytes]:
 def _check_line(check: dict[str, Any]) -> str:
     value, limit = check.get("value"), check.get("limit")
     figures = ""
-    if value is not None:
+    if value is not None:  # figures as a meter shows them (api.render), value and limit never equal-looking
+        shown, bound = meter_pair(value, limit)
         rel = "" if check.get("relation", "=") == "=" else check["relation"]
         unit = f" {check['unit']}" if check.get("unit") else ""
-        figures = f" ({rel}{value:g}{unit}"
-        figures += f", limit {limit:g}{unit})" if limit is not None else ")"
+        figures = f" ({rel}{shown}{unit}"
+        figures += f", limit {bound}{unit})" if limit is not None else ")"
     return f"      {check['outcome'].upper():<11} {check['check']}{figures}: {check['detail']}"
 
 

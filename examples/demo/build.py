@@ -53,7 +53,7 @@ for d in design:
     if d["board"] == "DB3": d["board_fed_from"] = "DB2/4"
 # readings, by circuit
 R = {
- ("DB1","1"): dict(r1_r2_ohm=0.74, zs_ohm=0.96, ze_ohm=0.22, pfc_ka=1.04, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","1"): dict(r1_r2_ohm=0.74, zs_ohm=0.96, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
  ("DB1","2"): dict(ring_r1_ohm=0.48, ring_rn_ohm=0.49, ring_r2_ohm=0.79, r1_r2_ohm=0.33, zs_ohm=0.56, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=21.4, rcd_trip_5x_ms=12.1),
  ("DB1","3"): dict(ring_r1_ohm=0.34, ring_rn_ohm=0.52, ring_r2_ohm=0.56, r1_r2_ohm=0.23, zs_ohm=0.45, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=24.0),
  ("DB1","4"): dict(r1_r2_ohm=0.55, zs_ohm=0.78, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm="350", polarity_ok=True),
@@ -67,11 +67,13 @@ R = {
  ("DB2","2"): dict(r1_r2_ohm=0.37, zs_ohm=0.76, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=338, rcd_half_no_trip=True),
  ("DB2","3"): dict(r1_r2_ohm=0.34, zs_ohm=0.73, ir_test_v=500, ir_ll_mohm="0.62", ir_le_mohm="0.62", polarity_ok=True),
  ("DB2","4"): dict(r1_r2_ohm=0.16, zs_ohm=0.57, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
- ("DB3","1"): dict(r1_r2_ohm=0.24, zs_ohm=71.3, ra_ohm=68, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=26.0),
- ("DB3","2"): dict(r1_r2_ohm=0.17, ra_ohm=68, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB3","1"): dict(r1_r2_ohm=0.24, zs_ohm=71.3, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=26.0),
+ ("DB3","2"): dict(r1_r2_ohm=0.17, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
 }
-for k in R:
-    if k[0] == "DB1": R[k]["test_temp_c"] = 20
+# Measured once for the site, not per circuit: Ze and PFC at the origin and the test temperature
+# (the logger's installation line), DB2's Zdb and PFC and DB3's electrode RA (its board lines).
+ORIGIN = {"ze_ohm": 0.22, "pfc_ka": 1.04, "test_temp_c": 20}
+BOARD_READINGS = {"DB2": {"zdb_ohm": 0.39, "pfc_ka": 0.61}, "DB3": {"ra_ohm": 68}}
 recs=[]
 for d in design:
     r = dict(d); r.update(R[(d["board"], d["circuit"])]); recs.append(r)
@@ -82,8 +84,19 @@ import os
 out = str(HERE)
 os.makedirs(out, exist_ok=True)
 READING_KEYS = {"r1_r2_ohm","zs_ohm","ze_ohm","pfc_ka","ir_test_v","ir_ll_mohm","ir_le_mohm","polarity_ok","ring_r1_ohm","ring_rn_ohm","ring_r2_ohm","rcd_trip_ms","rcd_trip_5x_ms","rcd_half_no_trip","ra_ohm"}
-schedule = [dict(d) for d in design]
-json.dump({"ruleset": "bs7671-2018-a2", "circuits": schedule}, open(f"{out}/schedule.json","w"), indent=1, ensure_ascii=False)
+# The schedule: the job-management system's site document (the installation and boards as designed,
+# the circuits' design data); what the tester measures comes in the other two uploads.
+SCHEDULE_INSTALLATION = {"description": "Quarry Hill Joinery, unit 4 (invented demo site)", "earthing": "TN-C-S",
+                         "nominal_voltage_v": 230, "supply": "public"}
+SCHEDULE_BOARDS = [
+ {"board": "DB1", "description": "Main board", "location": "office block, entrance"},
+ {"board": "DB2", "description": "Workshop board", "location": "workshop, north wall", "board_fed_from": "DB1/5"},
+ {"board": "DB3", "description": "Yard cabin board", "location": "yard cabin", "board_fed_from": "DB2/4",
+  "earthing": "TT"},
+]
+schedule = [{k: v for k, v in d.items() if k not in ("earthing", "board_fed_from")} for d in design]
+json.dump({"ruleset": "bs7671-2018-a2", "installation": SCHEDULE_INSTALLATION, "boards": SCHEDULE_BOARDS,
+           "circuits": schedule}, open(f"{out}/schedule.json","w"), indent=1, ensure_ascii=False)
 # DB1 via a meter CSV export (profile example-semicolon-decimal-comma: ; separated, decimal comma, cp1252, units in cells)
 def dc(x, unit):
     if isinstance(x, str): return x.replace(".", ",") + (" " + unit if unit else "")
@@ -108,14 +121,19 @@ def ck(line):
     b = line.encode()
     return line + " *" + f"{binascii.crc_hqx(b, 0xFFFF):04X}"
 lines = ["# Field logger capture, Quarry Hill Joinery unit 4 (invented demo site), 2026-11-24",
-         "# one line per test as the tester saves it; a checksum ends the lines the logger signs"]
+         "# one line per test as the tester saves it; a checksum ends the lines the logger signs",
+         "# at the origin: Ze, PFC and the conductor temperature, for the whole installation",
+         ck(f"installation ze={ORIGIN['ze_ohm']:g}Ω pfc={ORIGIN['pfc_ka']:g}kA test_temp_c={ORIGIN['test_temp_c']:g}")]
 unit = {"r1_r2_ohm":"Ω","zs_ohm":"Ω","ra_ohm":"Ω","ir_ll_mohm":"MΩ","ir_le_mohm":"MΩ","rcd_trip_ms":"ms","ir_test_v":"V"}
 alias = {"r1_r2_ohm":"R1+R2","zs_ohm":"Zs","ra_ohm":"RA","ir_ll_mohm":"IR_L-N","ir_le_mohm":"IR_L-E","rcd_trip_ms":"rcd_trip_ms","ir_test_v":"ir_test_v","polarity_ok":"polarity_ok","rcd_half_no_trip":"rcd_half_no_trip"}
 board = None
 for d in design:
     if d["board"] == "DB1": continue
-    if d["board"] != board:
-        board = d["board"]; lines.append(f"board={board}")
+    if d["board"] != board:  # a board line: the board's own readings, and the board for what follows
+        board = d["board"]
+        facts = " ".join(f"{ {'zdb_ohm': 'zdb', 'pfc_ka': 'pfc', 'ra_ohm': 'ra'}[k]}={v:g}{ {'pfc_ka': 'kA'}.get(k, 'Ω')}"
+                         for k, v in BOARD_READINGS[board].items())
+        lines.append(ck(f"board={board} {facts}"))
     r = R[(d["board"], d["circuit"])]
     lines.append(f"circuit={d['circuit']}")
     for k, v in r.items():
@@ -128,15 +146,8 @@ for d in design:
         lines.append(ck(f"{key}={val}"))
 open(f"{out}/db2-db3-logger.log","w",encoding="utf-8").write("\n".join(lines)+"\n")
 # ---- the site document: facts recorded once, inherited by the circuits ----
-installation = {"description": "Quarry Hill Joinery, unit 4 (invented demo site)", "earthing": "TN-C-S",
-                "nominal_voltage_v": 230, "supply": "public", "ze_ohm": 0.22, "pfc_ka": 1.04, "test_temp_c": 20}
-boards = [
- {"board": "DB1", "description": "Main board", "location": "office block, entrance"},
- {"board": "DB2", "description": "Workshop board", "location": "workshop, north wall", "board_fed_from": "DB1/5",
-  "zdb_ohm": 0.39, "pfc_ka": 0.61},
- {"board": "DB3", "description": "Yard cabin board", "location": "yard cabin", "board_fed_from": "DB2/4",
-  "earthing": "TT", "ra_ohm": 68},
-]
+installation = {**SCHEDULE_INSTALLATION, **ORIGIN}
+boards = [{**b, **BOARD_READINGS.get(b["board"], {})} for b in SCHEDULE_BOARDS]
 SAID_ONCE = {"earthing", "board_fed_from", "ze_ohm", "pfc_ka", "ra_ohm", "test_temp_c"}  # the site says them
 circuits = [{k: v for k, v in r.items() if k not in SAID_ONCE} for r in recs]
 json.dump({"ruleset": "bs7671-2018-a2", "installation": installation, "boards": boards, "circuits": circuits},

@@ -13,19 +13,20 @@ import os
 import subprocess
 import sys
 from collections.abc import Callable, Iterator
+from itertools import chain
 from pathlib import Path
 from typing import Any
 
 import httpx
 import pytest
 
-from adapters import AdapterOptions, Fragment
+from adapters import AdapterOptions, Collected, collect
 from adapters.registry import get_adapter
 from api.cli.demo import free_port, wait_healthy
 from api.cli.demo_manifest import DEFAULT_MANIFEST, ManifestError, load_manifest
 from api.cli.serve import is_loopback_bind
 from api.db.schema import upgrade
-from engine import CircuitRecord, verify
+from engine import verify
 from tests.api.openapi_check import check_response
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -104,16 +105,15 @@ def server(tmp_path: Path) -> Iterator[str]:
         child.wait(timeout=20)
 
 
-def _offline_records() -> list[CircuitRecord]:
-    """The demo files read offline, merged per circuit and field in upload order (later wins)."""
-    merged: dict[tuple[str, str], dict[str, Any]] = {}
+def _offline() -> Collected:
+    """The demo files read offline by the adapters alone, in upload order: records merged per circuit
+    and field, facts per board and installation (later wins), as one input."""
+    streams = []
     for spec in load_manifest().uploads:
         options = AdapterOptions(profile=spec.profile)
         name = spec.adapter or ("json" if "json" in spec.content_type else "csv")
-        for result in get_adapter(name).read(io.BytesIO(spec.path.read_bytes()), options):
-            if isinstance(result, Fragment):
-                merged.setdefault(result.key, {}).update(result.fields)
-    return [CircuitRecord(board=b, circuit=c, **values) for (b, c), values in merged.items()]
+        streams.append(get_adapter(name).read(io.BytesIO(spec.path.read_bytes()), options))
+    return collect(chain(*streams))
 
 
 def test_demo_files_through_a_real_server(server: str) -> None:
@@ -138,7 +138,10 @@ def test_demo_files_through_a_real_server(server: str) -> None:
             checked(stored)
             assert stored.content == raw
         verdicts = checked(client.get(f"/v1/jobs/{job['id']}/verdicts"))
-        assert verdicts["verdicts"] == [v.as_dict() for v in verify(_offline_records(), job["ruleset"])]
+        offline = _offline()
+        assert offline.errors == []
+        assert verdicts["verdicts"] == [v.as_dict() for v in verify(offline.records, job["ruleset"],
+                                                                     site=offline.site)]
         for path in ("/v1/health", "/v1/rulesets", f"/v1/rulesets/{job['ruleset']}", "/v1/adapters",
                      "/v1/jobs", f"/v1/jobs/{job['id']}", f"/v1/jobs/{job['id']}/circuits?history=true",
                      f"/v1/jobs/{job['id']}/uploads"):

@@ -30,11 +30,6 @@ def _offline() -> list[dict[str, object]]:
     return [v.as_dict() for v in verify(records, data["ruleset"], site=site)]
 
 
-@pytest.mark.xfail(strict=True, reason="api and adapters follow-up (issue 15): demo-site.json is now a site "
-                   "document whose circuits inherit the installation's and boards' facts; the demo's uploads "
-                   "state none of them until the manifest PUTs /v1/jobs/<id>/installation and "
-                   "/v1/jobs/<id>/boards/<board> (or the logger file carries board-fact lines) and the job "
-                   "verifies with its site")
 def test_demo_uploads_merge_into_the_offline_site(client: FlaskClient) -> None:
     """Posting the manifest's files into a job gives the verdicts of examples/demo-site.json."""
     manifest = load_manifest(DEFAULT_MANIFEST)
