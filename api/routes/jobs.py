@@ -12,6 +12,7 @@ from marshmallow import RAISE
 from sqlalchemy.orm import Session
 
 from api.answers import VerifyAnswer, circuit_state, verify_body
+from api.db.context import context_rows
 from api.db.models import Circuit, Job
 from api.db.repository import (
     circuits_page,
@@ -20,9 +21,9 @@ from api.db.repository import (
     encode_cursor,
     get_job,
     job_history,
-    job_records,
     list_jobs,
     records_of,
+    records_of_rows,
 )
 from api.db.session import get_session
 from api.db.site_facts import site_of_rows, site_rows
@@ -146,9 +147,11 @@ class JobVerdicts(MethodView):
             return Response(status=304, headers={"ETag": etag})
         rows, cursor, limit = _page(session, job, query)
         wanted = {(row.board, row.circuit) for row in rows}
-        # Every circuit of the page is judged with the whole job in view (board-level checks).
+        # Every circuit of the page is judged with what its verdict depends on in view (its board,
+        # the boards feeding it: api.db.context): a page costs its boards, not the whole job.
         site = site_of_rows(site_rows(session, job))
-        verdicts = verify(job_records(session, job), ruleset, only=wanted, site=site)
+        context = context_rows(session, job.id, {board for board, _circuit in wanted}, site)
+        verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site)
         headers = {"ETag": etag, **_page_links(job.id, "verdicts", cursor, query)}
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,
                               limit=limit, site=site)

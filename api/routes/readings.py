@@ -28,8 +28,10 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
 from sqlalchemy.exc import DBAPIError
+from sqlalchemy.orm import Session
 
 from api.answers import ReadingsAnswer
+from api.db.context import context_rows
 from api.db.models import Job, Upload
 from api.db.repository import (
     get_job,
@@ -48,11 +50,11 @@ from api.errors import ApiError, insufficient_storage, storage_full
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key
 from api.http.limits import body_limits
-from api.intake.bodies import Intake, read_body
+from api.intake.bodies import Intake, read_body, site_of_facts
 from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
 from api.routes.verify import DECIMALS, ReadingsQuerySchema
 from api.schemas.jobs import ReadingsResponseSchema, UploadListSchema
-from api.webhooks.outbox import emit_readings, outcomes_before
+from api.webhooks.outbox import emit_readings, outcomes_before, subscribed
 from engine import CircuitRecord, Site, verify
 
 __all__ = ["blp"]
@@ -60,10 +62,11 @@ __all__ = ["blp"]
 blp = Blueprint("readings", __name__, url_prefix="/v1", description="Readings into a job; raw uploads")
 
 
-def _duplicate(job: Job, earlier: Upload, stored_records: list[Any], site: Site) -> ReadingsAnswer:
+def _duplicate(session: Session, job: Job, earlier: Upload, site: Site) -> ReadingsAnswer:
     """The answer to a blind resend: the earlier upload's, recomputed on the job as it stands."""
-    touched = upload_circuit_keys(get_session(), earlier)
-    verdicts = verify(stored_records, resolve_ruleset(job.ruleset), only=touched, site=site)
+    touched = upload_circuit_keys(session, earlier)
+    stored = context_rows(session, job.id, {board for board, _circuit in touched}, site)
+    verdicts = verify(records_of_rows(stored), resolve_ruleset(job.ruleset), only=touched, site=site)
     return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected,
                           warnings=earlier.warnings or [], upload=earlier, verdicts=verdicts,
                           duplicate_of=earlier.id)
@@ -101,14 +104,13 @@ class JobReadings(MethodView):
             unreadable = problem
         session = get_session()
         job = lock_job(session, tenant(), job_id)
-        stored = job_rows(session, job.id)
         site_before = site_of_rows(site_rows(session, job))
         content_type = _full_content_type(media_type, charset)
         if key is None:
             same = recent_duplicate(session, job, sha256=hashlib.sha256(body).hexdigest(),
                                     content_type=content_type, window_s=settings().duplicate_window_s)
             if same is not None:
-                return _duplicate(job, same, records_of_rows(stored), site_before)
+                return _duplicate(session, job, same, site_before)
         # the adapter and profile as the client named them, cut to their columns' width (a refused
         # name is kept for the record; 300 characters of it must not fail the insert)
         named_adapter = (intake.adapter if intake is not None else query.get("adapter")) or ""
@@ -129,10 +131,18 @@ class JobReadings(MethodView):
         except ApiError as problem:
             raise _refuse(upload, problem) from None
         ruleset = resolve_ruleset(job.ruleset)
+        # What this post's verdicts depend on: the boards it touches and their feeder chains, so a
+        # post costs what it touches, not the job's size; every circuit only when verdict.changed
+        # must compare every outcome (a circuit the post did not touch can change).
+        listening = subscribed(session, job.organisation_id, "verdict.changed")
+        boards = {item.board for item in intake.items} | {f.board for f in intake.facts if f.scope == "board"}
+        stored = (job_rows(session, job.id) if listening
+                  else context_rows(session, job.id, boards, site_before, site_of_facts(intake.facts)))
         merging = session.begin_nested()  # a full disk while merging still keeps the stored body
         try:
             # verdict.changed compares with the outcomes before the merge (None: nobody listens)
-            before = outcomes_before(session, job, ruleset, records_of_rows(stored), site=site_before)
+            before = (outcomes_before(session, job, ruleset, records_of_rows(stored), site=site_before)
+                      if listening else None)
             merged = merge_items(session, job, upload, intake.items, stored)
             facts_taken, facts_touched = merge_facts(session, job, upload, intake.facts)
             site = site_of_rows(site_rows(session, job)) if facts_touched else site_before

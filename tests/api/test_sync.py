@@ -83,7 +83,7 @@ def test_a_304_reads_no_record(client: FlaskClient, monkeypatch: pytest.MonkeyPa
 
     routes = sys.modules["api.routes.jobs"]
     monkeypatch.setattr(routes, "circuits_page", no_records)
-    monkeypatch.setattr(routes, "job_records", no_records)
+    monkeypatch.setattr(routes, "context_rows", no_records)
     assert client.get(f"/v1/jobs/{job['id']}/verdicts", headers={"If-None-Match": etag}).status_code == 304
 
 
