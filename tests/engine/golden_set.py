@@ -29,7 +29,16 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from engine import CircuitRecord, Ruleset, Site, build_record, build_site, load_builtin, ruleset_from_data, verify
+from engine import (
+    CircuitRecord,
+    Ruleset,
+    Site,
+    build_record,
+    build_site,
+    load_builtin,
+    ruleset_from_data,
+    verify,
+)
 
 __all__ = ["GOLDEN", "Job", "canonical", "digest", "jobs", "verdict_digests"]
 
@@ -76,8 +85,9 @@ _FUSES = (("BS 88-2", (16, 32, 63, 100, 160)), ("BS 88-3", (5, 20, 32, 45)), ("B
 def _insulation(rng: random.Random, row: Row) -> None:
     for name in ("ir_ll_mohm", "ir_le_mohm"):
         roll = rng.random()
-        row[name] = (">999" if roll < 0.45 else "OL" if roll < 0.5 else f"{rng.choice((0.3, 0.8, 1.5, 3, 50))}"
-                     if roll < 0.75 else f"{rng.randint(1, 500)}" if roll < 0.95 else rng.choice(("N/A", "LIM", "-1")))
+        row[name] = (">999" if roll < 0.45 else "OL" if roll < 0.5
+                     else f"{rng.choice((0.3, 0.8, 1.5, 3, 50))}" if roll < 0.75
+                     else f"{rng.randint(1, 500)}" if roll < 0.95 else rng.choice(("N/A", "LIM", "-1")))
     _maybe(rng, row, "ir_test_v", rng.choice(("500", "500", "500", "250", "1000", "100")), 0.9)
 
 
@@ -124,7 +134,8 @@ def _circuit(rng: random.Random, board: str, number: int, earthing: str | None, 
         rating, line, cpc = (32, 2.5, 1.5) if ring else rng.choice(_BREAKERS)
         curve = rng.choice("BBBCD")
         if notation and rng.random() < 0.4:
-            row["device"] = f"RCBO {curve}{rating} 30mA A" if rcbo and rng.random() < 0.5 else f"{curve}{rating}"
+            rcbo_text = rcbo and rng.random() < 0.5
+            row["device"] = f"RCBO {curve}{rating} 30mA A" if rcbo_text else f"{curve}{rating}"
         else:
             row.update(device_curve=curve, device_rating_a=str(rating))
             _maybe(rng, row, "device_standard", "BS EN 61009" if rcbo else "BS EN 60898", 0.8)
@@ -246,8 +257,8 @@ def _board_rows(rng: random.Random, group: int, count: int, *, notation: bool, s
 
 
 def _site_document(rng: random.Random, groups: int) -> dict[str, Any]:
-    installation: Row = {"earthing": rng.choice(("TN-C-S", "TN-S", "TT")), "ze_ohm": _reading(rng, 0.3, 0.5, 0.05),
-                         "pfc_ka": _reading(rng, 1.5, 0.5, 0.05)}
+    installation: Row = {"earthing": rng.choice(("TN-C-S", "TN-S", "TT")),
+                         "ze_ohm": _reading(rng, 0.3, 0.5, 0.05), "pfc_ka": _reading(rng, 1.5, 0.5, 0.05)}
     _maybe(rng, installation, "nominal_voltage_v", rng.choice(("230", "230", "240")), 0.5)
     _maybe(rng, installation, "test_temp_c", rng.choice(("15", "20", "12")), 0.4)
     _maybe(rng, installation, "premises", rng.choice(("domestic", "other")), 0.5)
