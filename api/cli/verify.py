@@ -37,6 +37,7 @@ from adapters import AdapterOptions, collect
 from adapters.registry import adapter_for_extension, get_adapter
 from api.answers import verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
+from api.cli.progress import SILENT, Reporter, counted, progress_for, verify_in_steps
 from api.intake.bodies import site_of_facts
 from api.intake.json_document import JsonSyntaxError, parse_strict
 from api.intake.site_document import FactPart, read_site_document
@@ -103,10 +104,11 @@ class _Read:
 _CLI_ROWS = 10_000_000  # the strict parser's structure bound for a file on the user's own disk
 
 
-def _read_json(path: Path, found: _Read) -> None:
+def _read_json(path: Path, found: _Read, reporter: Reporter) -> None:
     """A JSON site document, read as the API reads a JSON body: strictly (depth, repeated names,
     number range), unknown names as warnings, and refused whole if any value cannot be taken."""
     raw = path.read_bytes()
+    reporter.reading(str(path), len(raw))(len(raw))
     text = raw.decode("utf-8-sig")
     try:
         parsed = parse_strict(raw, text, max_rows=_CLI_ROWS)
@@ -132,9 +134,10 @@ def _read_json(path: Path, found: _Read) -> None:
 
 
 def _read_adapter(path: Path, adapter: str | None, profile: str | None, decimal: bool | None,
-                  found: _Read) -> None:
+                  found: _Read, reporter: Reporter) -> None:
     chosen = get_adapter(adapter) if adapter else adapter_for_extension(path.suffix)
-    with path.open("rb") as stream:
+    with path.open("rb") as raw:
+        stream = counted(raw, reporter.reading(str(path), path.stat().st_size))
         got = collect(chosen.read(stream, AdapterOptions(profile=profile, decimal_comma=decimal)))
     found.records.extend(got.records)
     found.rejected.extend({"file": str(path), **e.as_dict()} for e in got.errors)
@@ -153,16 +156,16 @@ def _generated_at() -> datetime | None:
     return datetime.fromtimestamp(int(epoch), UTC) if epoch.isdigit() else None
 
 
-def _read_files(args: argparse.Namespace) -> _Read:
+def _read_files(args: argparse.Namespace, reporter: Reporter) -> _Read:
     found = _Read()
     decimal = {"comma": True, "point": False}.get(args.decimal or "")
     for name in args.files:
         path = Path(name)
         try:
             if args.adapter in (None, "json") and path.suffix.lower() == ".json":
-                _read_json(path, found)
+                _read_json(path, found, reporter)
             else:
-                _read_adapter(path, args.adapter, args.profile, decimal, found)
+                _read_adapter(path, args.adapter, args.profile, decimal, found, reporter)
         except (OSError, UnicodeDecodeError) as exc:
             reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
             print(f"ohmtally verify: cannot read {name}: {reason}", file=sys.stderr)
@@ -195,8 +198,12 @@ def run(args: argparse.Namespace) -> int:
     gc.disable()
     policy = policy_from_names(args.fail_on, args.warn_on)
     try:
-        found = _read_files(args)
-        ruleset = _ruleset(args.ruleset or found.ruleset_id)
+        with progress_for(args.format) as reporter:
+            found = _read_files(args, reporter)
+            ruleset = _ruleset(args.ruleset or found.ruleset_id)
+            site = site_of_facts(found.facts)
+            verdicts = (verify(found.records, ruleset, site=site) if reporter is SILENT
+                        else verify_in_steps(found.records, ruleset, site, reporter))
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         print(f"ohmtally verify: cannot read the ruleset: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -209,8 +216,6 @@ def run(args: argparse.Namespace) -> int:
             raise
         print(f"ohmtally verify: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    site = site_of_facts(found.facts)
-    verdicts = verify(found.records, ruleset, site=site)
     body = verify_body(ruleset, verdicts, found.rejected, found.warnings, site=site)
     _say_warnings(found.warnings)
     _write(body, args.format, policy)
