@@ -323,8 +323,9 @@ def jobs() -> list[Job]:
 # --- the digests --------------------------------------------------------------------------------------
 
 def canonical(data: Any) -> str:
-    """One text for one answer: sorted keys, the standard library's float repr, no ASCII escapes."""
-    return json.dumps(data, sort_keys=True, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    """One text for one answer, keys in the answer's own order (the order is part of what is recorded):
+    the standard library's float repr, no ASCII escapes."""
+    return json.dumps(data, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
 
 
 def digest(data: Any) -> str:
