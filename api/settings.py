@@ -2,7 +2,7 @@
 
 Invariants:
 - :data:`SETTINGS` is the one table of settings: name, default and meaning;
-  README.md ("Settings", "Security") lists the same table.
+  api/README.md ("Settings") holds the same table, made by :func:`settings_markdown`.
 - ``create_app(config)`` takes settings from the environment first and the
   ``config`` mapping over them (tests pass a mapping, never touch os.environ).
 - A bad value (``OHMTALLY_AUTH=maybe``) raises :class:`SettingsError` at start-up,
@@ -18,7 +18,7 @@ from typing import Any
 
 from api.webhooks.server_key import ServerKeys, parse_server_keys
 
-__all__ = ["SETTINGS", "Setting", "Settings", "SettingsError", "load_settings"]
+__all__ = ["SETTINGS", "Setting", "Settings", "SettingsError", "load_settings", "settings_markdown"]
 
 
 class SettingsError(ValueError):
@@ -202,3 +202,25 @@ def load_settings(overrides: Mapping[str, Any] | None = None,
         rate_limit_prefix=_env(env, over, "RATE_LIMIT_PREFIX").strip() or "ohmtally",
         max_values=_positive_int("MAX_VALUES", _env(env, over, "MAX_VALUES")),
     )
+
+
+def _cell(text: str) -> str:
+    """A table cell's text: a '|' inside it would end the cell, so it is escaped."""
+    return text.replace("|", "\\|")
+
+
+def settings_markdown() -> str:
+    """:data:`SETTINGS` as a Markdown table (variable, default, meaning), in the table's order.
+
+    api/README.md ("Settings") holds exactly this between its generated markers;
+    tests/api/test_docs.py fails when the two differ. ``python -m api.settings`` prints it.
+    """
+    rows = ["| variable | default | meaning |", "|---|---|---|"]
+    for setting in SETTINGS:
+        default = f"`{setting.default}`" if setting.default else "*(empty)*"
+        rows.append(f"| `OHMTALLY_{setting.name}` | {default} | {_cell(setting.meaning)} |")
+    return "\n".join(rows) + "\n"
+
+
+if __name__ == "__main__":
+    print(settings_markdown(), end="")
