@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# GET /v1/adapters — input adapters, the media types they read, and mapping profiles.
+# GET /v1/adapters: the input adapters, the media types they read, and the mapping profiles.
 set -euo pipefail
 source "$(dirname "$0")/_common.sh"
-curl -sS "$OHMTALLY_URL/v1/adapters"
+call GET /v1/adapters

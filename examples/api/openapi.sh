@@ -1,5 +1,6 @@
 #!/usr/bin/env bash
-# GET /v1/openapi.json — the OpenAPI 3.1 document.
+# GET /v1/openapi.json (the OpenAPI 3.1 document) and GET /v1/docs (the same as a page); no key.
 set -euo pipefail
 source "$(dirname "$0")/_common.sh"
-curl -sS "$OHMTALLY_URL/v1/openapi.json"
+call GET /v1/openapi.json | sed -n '1s/^\(.\{300\}\).*/\1 …/p; /^-> HTTP/p'
+call GET /v1/docs -o /dev/null

@@ -1,18 +1,19 @@
 #!/usr/bin/env bash
-# Sync for a job-management system: jobs changed since a time, verdicts with ETag / If-None-Match,
-# and external references (the ids in the caller's own system), settable and filterable.
+# Sync for a job-management system: jobs changed since a time, verdicts with ETag / If-None-Match
+# (304 while nothing changed), and external references (the ids in the caller's own system).
 set -euo pipefail
 source "$(dirname "$0")/_common.sh"
-curl -sS "$OHMTALLY_URL/v1/jobs?updated_since=2026-01-01T00:00:00Z&limit=50"
-echo
-etag=$(curl -sS -D - -o /dev/null "$OHMTALLY_URL/v1/jobs/$JOB_ID/verdicts" | tr -d '\r' |
+since=$(date -u +%Y-%m-%dT%H:%M:%SZ)
+make_job EX-SYNC
+printf 'board=DB1 circuit=1 zs=0.44 r1r2=0.21\n' |
+  call POST "/v1/jobs/$JOB_ID/readings" -H "Content-Type: text/plain" --data-binary @- -o /dev/null
+call GET "/v1/jobs?updated_since=$since&limit=50"
+etag=$(curl -sS -H "$AUTH" -D - -o /dev/null "$OHMTALLY_URL/v1/jobs/$JOB_ID/verdicts" | tr -d '\r' |
   awk -F': ' 'tolower($1)=="etag"{print $2}')
 echo "ETag: $etag"
-# Unchanged since: 304 Not Modified, no body, no records read
-curl -sS -o /dev/null -w 'If-None-Match -> HTTP %{http_code}\n' -H "If-None-Match: $etag" \
-  "$OHMTALLY_URL/v1/jobs/$JOB_ID/verdicts"
-curl -sS -X PATCH "$OHMTALLY_URL/v1/jobs/$JOB_ID" -H 'Content-Type: application/merge-patch+json' \
-  -d '{"external_ref": "crm-2291"}'
-echo
-curl -sS "$OHMTALLY_URL/v1/jobs?external_ref=crm-2291"
-echo
+call GET "/v1/jobs/$JOB_ID/verdicts" -H "If-None-Match: $etag"   # unchanged: 304, no body
+call PATCH "/v1/jobs/$JOB_ID" -H 'Content-Type: application/merge-patch+json' -d '{"external_ref": "crm-2291"}'
+call PATCH "/v1/jobs/$JOB_ID/circuits/DB1/1" -H 'Content-Type: application/merge-patch+json' \
+  -d '{"external_ref": "asset-9913"}'
+call GET "/v1/jobs?external_ref=crm-2291"
+call GET "/v1/jobs/$JOB_ID/verdicts" -H "If-None-Match: $etag" -o /dev/null   # changed: 200 again

@@ -1,23 +1,20 @@
 #!/usr/bin/env bash
-# Webhook subscriptions: create (admin scope; the whsec_ secret is shown once), list, rotate the secret
-# with an overlap (both secrets sign until the old one's valid_until), deliveries, delete.
-# The URL must resolve to public addresses only unless OHMTALLY_WEBHOOK_ALLOW_PRIVATE=on: with the
-# placeholder URL below the create answers a 422 problem with code target_not_allowed (it never says
-# what the name resolved to). Set WEBHOOK_URL to your receiver and WEBHOOK_ID to the id it returns.
-# Verifying a delivery on your side: api/webhooks/README.md (the `standardwebhooks` package).
+# Webhook subscriptions (an admin key): create (the whsec_ secret is shown once), list, a delivery,
+# rotate the secret with an overlap (both sign until the old one's valid_until), deliveries, delete.
+# Deliveries are signed by the Standard Webhooks specification; verify them with one of its libraries
+# (api/webhooks/README.md). WEBHOOK_URL must resolve to public addresses only, unless the server runs
+# with OHMTALLY_WEBHOOK_ALLOW_PRIVATE=on (tests, a closed network); the placeholder below does not
+# resolve at all, so with it the create answers 422 target_not_allowed and the script stops there.
 set -euo pipefail
 source "$(dirname "$0")/_common.sh"
 WEBHOOK_URL="${WEBHOOK_URL:-https://jobs.example.invalid/ohmtally}"
-curl -sS -X POST "$OHMTALLY_URL/v1/webhooks" -H 'Content-Type: application/json' \
-  -d "{\"url\": \"$WEBHOOK_URL\", \"events\": [\"job.created\", \"readings.accepted\", \"verdict.changed\"]}"
-echo
-curl -sS "$OHMTALLY_URL/v1/webhooks"
-echo
-WEBHOOK_ID="${WEBHOOK_ID:-1}"
-# A new secret now; the earlier one keeps signing beside it for an hour (0 ends it at once).
-curl -sS -X POST "$OHMTALLY_URL/v1/webhooks/$WEBHOOK_ID/secret" -H 'Content-Type: application/json' \
-  -d '{"overlap_s": 3600}'
-echo
-curl -sS "$OHMTALLY_URL/v1/webhooks/$WEBHOOK_ID/deliveries"
-echo
-curl -sS -o /dev/null -w 'DELETE -> HTTP %{http_code}\n' -X DELETE "$OHMTALLY_URL/v1/webhooks/$WEBHOOK_ID"
+created=$(call POST /v1/webhooks -H 'Content-Type: application/json' \
+  -d "{\"url\": \"$WEBHOOK_URL\", \"events\": [\"job.created\", \"readings.accepted\", \"verdict.changed\"]}")
+echo "$created"
+case "$created" in *"-> HTTP 201") ;; *) exit 0 ;; esac
+webhook_id=$(member id <<<"$created")
+call GET /v1/webhooks
+make_job EX-WEBHOOKS > /dev/null    # something to deliver: a job.created event
+call POST "/v1/webhooks/$webhook_id/secret" -H 'Content-Type: application/json' -d '{"overlap_s": 3600}'
+call GET "/v1/webhooks/$webhook_id/deliveries"
+call DELETE "/v1/webhooks/$webhook_id"

@@ -165,20 +165,82 @@ def test_demo_no_wait_prints_the_report_and_stops(tmp_path: Path) -> None:
         httpx.get(f"http://127.0.0.1:{port}/v1/health", timeout=2)
 
 
-def test_examples_run_against_a_real_server(server: str) -> None:
-    """examples/api/client.py and every curl script run to completion against a real server."""
+def test_examples_run_against_a_real_server(tmp_path: Path) -> None:
+    """examples/api/client.py, every curl script and README.md's commands against a real server: each
+    request is answered with the status the example expects (a script that reached a missing job, a
+    refusal or a 500 fails here, not only a 500), and the client's pages of the demo job's verdicts
+    count exactly the outcomes of the same files verified offline."""
+    import ast
+    import re
     import shutil
+    from collections import Counter
 
-    done = subprocess.run([sys.executable, str(ROOT / "examples/api/client.py"), "--url", server],
-                          capture_output=True, text=True, errors="replace", timeout=60)
-    assert done.returncode == 0, done.stderr[-2000:]
-    assert "--- verdicts: HTTP 200" in done.stdout and "HTTP 422 application/problem+json" in done.stdout
-    if shutil.which("curl") is None:
-        pytest.skip("curl is not installed")
-    env = {**os.environ, "OHMTALLY_URL": server, "JOB_ID": "1", "UPLOAD_ID": "1"}
-    for name in ("health", "rulesets", "adapters", "verify", "jobs", "readings", "circuits", "uploads",
-                 "openapi", "errors", "sync", "webhooks"):
-        script = subprocess.run(["bash", str(ROOT / f"examples/api/{name}.sh")], env=env, capture_output=True,
-                                text=True, errors="replace", timeout=30)
-        assert script.returncode == 0, f"{name}.sh: {script.stderr[-1000:]}"
-        assert '"status":500' not in script.stdout.replace(" ", ""), name
+    from tests.api.test_docs import shell_blocks
+    from tests.api.webhook_receiver import Receiver
+
+    url = f"sqlite:///{tmp_path / 'examples.sqlite3'}"
+    upgrade(url)
+    port = free_port()
+    # webhooks.sh subscribes a receiver on loopback: only a server allowing private targets takes it
+    child = subprocess.Popen([sys.executable, "-m", "api.cli", "serve", "--bind", f"127.0.0.1:{port}",
+                              "--workers", "2"], cwd=ROOT,
+                             env=_env(OHMTALLY_DATABASE_URL=url, OHMTALLY_INSTANCE_PATH=str(tmp_path),
+                                      OHMTALLY_WEBHOOK_ALLOW_PRIVATE="on"))
+    receiver = Receiver().start()
+    server = f"http://127.0.0.1:{port}"
+    try:
+        assert wait_healthy(server, child), "ohmtally serve did not come up"
+        done = subprocess.run([sys.executable, str(ROOT / "examples/api/client.py"), "--url", server],
+                              capture_output=True, text=True, errors="replace", timeout=120)
+        assert done.returncode == 0, done.stderr[-2000:]
+        assert "--- verdicts page 1: HTTP 200" in done.stdout
+        assert "HTTP 422 application/problem+json" in done.stdout
+        assert re.search(r"the same batch again: HTTP 200, Ohmtally-Replay: \d{4}-", done.stdout)
+        offline = _offline()
+        counted = Counter(v.outcome.value for v in verify(offline.records, "bs7671-2018-a2",
+                                                          site=offline.site))
+        read = re.search(r"^--- verdicts: every page read: (\{.*\})$", done.stdout, re.M)
+        assert read and Counter(ast.literal_eval(read.group(1))) == counted, done.stdout[-2000:]
+
+        if shutil.which("curl") is None:
+            pytest.skip("curl is not installed")
+        # Each script prints "-> HTTP <status>" after each answer; these are the statuses it must get.
+        expected = {
+            "health": [200, 200, 200], "rulesets": [200, 200], "adapters": [200], "openapi": [200, 200],
+            "verify": [200, 200, 200], "jobs": [201, 201, 200, 200, 200], "readings": [201, 200, 200, 200],
+            "site": [201, 200, 200, 200, 200, 200], "circuits": [201, 200, 200, 200, 200, 200],
+            "uploads": [201, 200, 200, 200], "sync": [201, 200, 200, 304, 200, 200, 200, 200],
+            "errors": [422, 404, 415, 200], "webhooks": [201, 200, 200, 200, 204],
+        }
+        assert sorted(expected) == sorted(p.stem for p in (ROOT / "examples/api").glob("*.sh")
+                                          if not p.name.startswith("_"))
+        path = f"{Path(sys.executable).parent}{os.pathsep}{os.environ.get('PATH', '')}"  # python3 for them
+        env = {**os.environ, "PATH": path, "OHMTALLY_URL": server, "WEBHOOK_URL": receiver.url}
+        env.pop("OHMTALLY_API_KEY", None)
+        printed: dict[str, str] = {}
+        for name, statuses in expected.items():
+            script = subprocess.run(["bash", str(ROOT / f"examples/api/{name}.sh")], env=env,
+                                    capture_output=True, text=True, errors="replace", timeout=60)
+            assert script.returncode == 0, f"{name}.sh: {script.stderr[-1000:]}"
+            got = [int(s) for s in re.findall(r"^-> HTTP (\d{3})$", script.stdout, re.M)]
+            assert got == statuses, f"{name}.sh answered {got}\n{script.stdout[-2000:]}"
+            printed[name] = script.stdout
+        assert re.search(r"^ohmtally-replay: \d{4}-", printed["readings"], re.M | re.I)  # resend replayed
+        assert re.search(r"^ohmtally-failing-circuits: [1-9]", printed["verify"], re.M | re.I)
+        assert '"secret":"whsec_' in printed["webhooks"]  # a Standard Webhooks secret, shown once
+
+        # README.md's commands against a server: every sh block that talks to $OHMTALLY_URL
+        blocks = [b for b in shell_blocks(ROOT / "README.md") if "$OHMTALLY_URL" in b]
+        assert blocks
+        for block in blocks:
+            ran = subprocess.run(["bash", "-e", "-o", "pipefail", "-c", block],
+                                 env={**env, "OHMTALLY_URL": server}, capture_output=True, text=True,
+                                 errors="replace", timeout=60)
+            assert ran.returncode == 0, ran.stderr[-1000:]
+            assert '"accepted":' in ran.stdout and '"rejected":[]' in ran.stdout, ran.stdout[-2000:]
+            assert re.search(r"^DB1 +1 +\(circuit\) +PASS", ran.stdout, re.M), ran.stdout[-2000:]
+            assert "CAUTION: Decision aid only" in ran.stdout
+    finally:
+        receiver.stop()
+        child.terminate()
+        child.wait(timeout=20)
