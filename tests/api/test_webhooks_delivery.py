@@ -5,7 +5,7 @@ External references:
   outcome a record has follows BS 7671 Reg. 643.6 for polarity (recorded as
   incorrect fails, recorded as correct passes; the other checks of a record
   with no other readings are incomplete).
-- The backoff is checked against the schedule README.md ("Delivery guarantees") documents:
+- The backoff is checked against the schedule api/webhooks/README.md ("Delivery guarantees") documents:
   wait = base × 2^(n−1) after the n-th failure, capped (derived from that formula).
 - The receiver is the standard library's http.server on a loopback port.
 Everything runs on loopback with OHMTALLY_WEBHOOK_ALLOW_PRIVATE on, bounded in time.
