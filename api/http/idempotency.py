@@ -3,19 +3,23 @@
 
 Invariants:
 - A state-changing request (POST, PUT, PATCH, DELETE) under ``/v1/jobs`` with an
-  ``Idempotency-Key`` reserves the key for the request's organisation (one row in
-  ``idempotency_records``) in the request's own transaction. After the view has
-  answered, :func:`_record_answer` stores that answer in the row, and the request's
-  unit of work (``api.db.session``) commits change and answer together, or neither:
-  a retry after a crash finds both or neither.
+  ``Idempotency-Key`` is looked up before its view (with a reader's session: no writer
+  lock is taken, so its body is parsed before any lock). After the view has answered,
+  :func:`_record_answer` stores the key with that answer (one row in
+  ``idempotency_records``, unique per organisation and key) in the request's own
+  transaction, and the request's unit of work (``api.db.session``) commits change and
+  answer together, or neither: a retry after a crash finds both or neither.
 - Same key, same method, path, content type and body → the first response's status
   and bytes, with ``Ohmtally-Replay: <when the first answer was given>``; nothing
   changes. Same key, anything different → 409 ``idempotency_key_reused``. A key
   whose answer was never recorded → 409 ``idempotency_key_in_doubt``.
-- Two requests racing with one key: the second's reservation waits on the unique
-  index (PostgreSQL) or the writer lock (SQLite) and then sees the first's answer.
-- A request that fails without committing (404, 415, 422 on a bad JSON body) leaves
-  no reservation: sending it again re-checks it. A refusal that is committed anyway
+- Two requests racing with one key: a view that locks its job asks again once it holds the
+  lock (:func:`answered_meanwhile`), so the second replays the first's answer without
+  doing the work; elsewhere the second's insert meets the unique index, its work is
+  rolled back and the first answer is replayed in its place.
+- A request that fails without committing (404, 415, 422 on a bad JSON body) records
+  nothing: sending it again re-checks it. (Rows from before this design may hold no
+  answer: such a key is refused as in doubt.) A refusal that is committed anyway
   (a readings body kept as a rejected upload, ``g.commit_on_error``) is the key's answer.
 - ``POST /v1/verify`` stores nothing and is the same function of its body every
   time, so a key there is accepted and has no effect.
@@ -36,8 +40,8 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from api.db.models import IdempotencyRecord, Job, Upload, utcnow
-from api.db.session import get_session
-from api.errors import ApiError
+from api.db.session import get_session, read_session
+from api.errors import ApiError, problem_response
 from api.http.auth import tenant
 
 __all__ = [
@@ -45,6 +49,7 @@ __all__ = [
     "IDEMPOTENCY_PARAMETER_DOC",
     "KEY_PATTERN",
     "REPLAY_HEADER",
+    "answered_meanwhile",
     "init_app",
     "recent_duplicate",
     "request_key",
@@ -114,7 +119,12 @@ def _replay(found: IdempotencyRecord, wanted: str) -> Response:
     return response
 
 
-def _reserve() -> Response | None:
+def _look_up() -> Response | None:
+    """Before the view: a key already answered is replayed (or a 409); a new key is noted.
+
+    The look-up reads with a reader's session: the request takes no writer lock for it, so a
+    body is parsed before any lock is held (on SQLite the writer lock is the whole database's).
+    """
     if not _applies():
         return None
     key = request_key()
@@ -122,36 +132,58 @@ def _reserve() -> Response | None:
         return None
     organisation_id = tenant()
     wanted = _fingerprint()
-    session = get_session()
+    with read_session() as reader:
+        found = _find(reader, organisation_id, key)
+        if found is not None:
+            return _replay(found, wanted)
+    g.idempotency_key = (organisation_id, key, wanted)
+    return None
+
+
+def answered_meanwhile(session: Session) -> Response | None:
+    """For a view that has just locked its job: the answer a request with the same key committed
+    while this one waited for the lock (replayed, or a 409), else ``None``."""
+    pending = g.get("idempotency_key")
+    if pending is None:
+        return None
+    organisation_id, key, wanted = pending
     found = _find(session, organisation_id, key)
-    if found is not None:
-        return _replay(found, wanted)
-    record = IdempotencyRecord(organisation_id=organisation_id, idempotency_key=key, method=request.method,
-                               path=request.path[:2000], request_sha256=wanted, created_at=utcnow())
-    session.add(record)
+    if found is None:
+        return None
+    g.pop("idempotency_key", None)
+    return _replay(found, wanted)
+
+
+def _record_answer(response: Response) -> Response:
+    """Store the key with the answer in the request's transaction; the unit of work commits both.
+
+    A request with the same key that committed first wins: this one's insert meets the unique
+    key, its work is rolled back, and the first answer is replayed in its place.
+    """
+    pending = g.pop("idempotency_key", None)
+    if pending is None:
+        return response
+    if response.status_code >= 400 and not g.get("commit_on_error"):
+        return response  # rolled back with everything else: nothing records the key
+    organisation_id, key, wanted = pending
+    session = get_session()
+    session.add(IdempotencyRecord(
+        organisation_id=organisation_id, idempotency_key=key, method=request.method,
+        path=request.path[:2000], request_sha256=wanted, created_at=utcnow(),
+        status_code=response.status_code, content_type=response.content_type,
+        location=response.headers.get("Location"), response_body=response.get_data()))
     try:
         session.flush()
-    except IntegrityError:  # another request with this key committed first
+    except IntegrityError:  # the same key committed first by another request: its answer stands
         session.rollback()
         found = _find(session, organisation_id, key)
         if found is None:  # pragma: no cover - the winner's row is committed before we can fail
             raise
-        return _replay(found, wanted)
-    g.idempotency_record = record
-    return None
-
-
-def _record_answer(response: Response) -> Response:
-    """Store the answer in the key's row; the unit of work then commits it with the change."""
-    record: IdempotencyRecord | None = g.pop("idempotency_record", None)
-    if record is None:
-        return response
-    if response.status_code >= 400 and not g.get("commit_on_error"):
-        return response  # rolled back with everything else: no reservation is left
-    record.status_code = response.status_code
-    record.content_type = response.content_type
-    record.location = response.headers.get("Location")
-    record.response_body = response.get_data()
+        g.pop("commit_on_error", None)  # nothing of this request is kept
+        try:
+            return _replay(found, wanted)
+        except ApiError as refused:
+            return problem_response(refused)
     return response
 
 
@@ -172,5 +204,5 @@ def recent_duplicate(session: Session, job: Job, *, sha256: str, content_type: s
 
 
 def init_app(app: Flask) -> None:
-    app.before_request(_reserve)
+    app.before_request(_look_up)
     app.after_request(_record_answer)

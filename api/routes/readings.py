@@ -48,7 +48,7 @@ from api.db.session import get_session
 from api.db.site_facts import merge_facts, site_of_rows, site_rows
 from api.errors import ApiError, insufficient_storage, storage_full
 from api.http.auth import tenant
-from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, recent_duplicate, request_key
+from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, answered_meanwhile, recent_duplicate, request_key
 from api.http.limits import body_limits
 from api.intake.bodies import Intake, read_body, site_of_facts
 from api.routes.common import READINGS_BODY_DOC, chosen_ruleset_id, raw_body, resolve_ruleset, settings
@@ -104,6 +104,9 @@ class JobReadings(MethodView):
             unreadable = problem
         session = get_session()
         job = lock_job(session, tenant(), job_id)
+        replayed = answered_meanwhile(session)  # the same key, committed while this one waited
+        if replayed is not None:
+            return replayed
         site_before = site_of_rows(site_rows(session, job))
         content_type = _full_content_type(media_type, charset)
         if key is None:

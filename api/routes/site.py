@@ -20,6 +20,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from flask import Response
 from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE
@@ -32,7 +33,7 @@ from api.db.session import get_session, read_session
 from api.db.site_facts import fact_history, replace_facts, site_of_rows, site_rows
 from api.errors import ApiError, escape_pointer
 from api.http.auth import tenant
-from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, request_key
+from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, answered_meanwhile, request_key
 from api.intake.bodies import JSON_MEDIA_TYPE
 from api.intake.site_document import read_site_document
 from api.routes.common import json_body_document, raw_body, resolve_ruleset
@@ -88,11 +89,14 @@ def _read_facts(scope: str, board: str) -> tuple[dict[str, Any], list[dict[str, 
     return dict(part.fields), warnings, body
 
 
-def _put(session: Session, job_id: int, scope: str, board: str) -> FactsAnswer:
+def _put(session: Session, job_id: int, scope: str, board: str) -> FactsAnswer | Response:
     with read_session() as reader:  # another organisation's job is a 404 before its body is looked at
         get_job(reader, tenant(), job_id)
     fields, warnings, body = _read_facts(scope, board)  # read before the job's (writer) lock is taken
     job = lock_job(session, tenant(), job_id)
+    replayed = answered_meanwhile(session)  # the same key, committed while this one waited
+    if replayed is not None:
+        return replayed
     ruleset = resolve_ruleset(job.ruleset)
     records = job_records(session, job)
     before = outcomes(verify(records, ruleset, site=site_of_rows(site_rows(session, job))))

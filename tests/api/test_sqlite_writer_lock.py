@@ -9,12 +9,15 @@ from __future__ import annotations
 import fcntl
 import os
 import threading
+import time
 from pathlib import Path
+from typing import Any
 
 import pytest
 from sqlalchemy import text
 from sqlalchemy.orm import Session
 
+from api.db.schema import upgrade
 from api.db.session import make_engine
 
 
@@ -75,3 +78,27 @@ def test_a_second_writer_waits_for_the_first_then_proceeds(engine) -> None:  # t
     assert order == ["first commits", "second began"]
     with engine.connect() as connection:
         assert sorted(x for (x,) in connection.execute(text("SELECT x FROM t"))) == [1, 2]
+
+
+def test_reads_and_an_answered_key_never_wait_for_a_writer(app_factory: Any, tmp_path: Path) -> None:
+    """While another process holds the writer lock (a long post), GET answers and a resent keyed post
+    is replayed at once: reads and the key look-up use the reader engine and take no writer lock."""
+    url = f"sqlite:///{tmp_path / 'shared.sqlite3'}"
+    upgrade(url)
+    client = app_factory(url).test_client()
+    job = client.post("/v1/jobs", json={"reference": "L", "site": "Invented site"}).get_json()["id"]
+    keyed = {"Idempotency-Key": "k-1"}
+    first = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data="board=A circuit=1 zs=0.4\n",
+                        content_type="text/plain", headers=keyed)
+    holder = make_engine(url)  # a writer of another "process": BEGIN IMMEDIATE and the flock
+    with holder.connect() as writer:
+        writer.exec_driver_sql("SELECT 1")  # BEGIN IMMEDIATE: the writer lock is now held
+        started = time.monotonic()
+        assert client.get(f"/v1/jobs/{job}/verdicts").status_code == 200
+        again = client.post(f"/v1/jobs/{job}/readings?adapter=lines", data="board=A circuit=1 zs=0.4\n",
+                            content_type="text/plain", headers=keyed)
+        waited = time.monotonic() - started
+        writer.rollback()
+    holder.dispose()
+    assert again.get_data() == first.get_data() and "Ohmtally-Replay" in again.headers
+    assert waited < 2.0  # the busy timeout is 30 s: a wait for the writer would show
