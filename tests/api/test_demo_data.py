@@ -12,7 +12,6 @@ import json
 from collections import Counter
 from pathlib import Path
 
-import pytest
 from flask.testing import FlaskClient
 
 from api.cli.demo_manifest import DEFAULT_MANIFEST, load_manifest

@@ -88,7 +88,8 @@ def test_pages_while_readings_arrive(client: FlaskClient) -> None:
 def test_a_page_of_verdicts_is_what_the_engine_says(client: FlaskClient) -> None:
     """Each page's verdicts equal engine.verify over all the job's records, for the page's circuits."""
     job = _job(client)
-    _post(client, job, _lines("DB1", 1, 12) + "board=DB2 circuit=1 board_fed_from=DB1/3\n" + _lines("DB2", 2, 5))
+    fed = "board=DB2 circuit=1 board_fed_from=DB1/3\n"
+    _post(client, job, _lines("DB1", 1, 12) + fed + _lines("DB2", 2, 5))
     records = []
     for item in all_pages(client, f"/v1/jobs/{job}/circuits", "circuits"):
         record, errors = build_record({"board": item["board"], "circuit": item["circuit"], **item["record"]})
