@@ -1,7 +1,10 @@
 """What a check sees: one circuit with what it inherits and the ruleset's defaults, and the whole set.
 
 Invariants:
-- :class:`CircuitView` is the only way a check reads a circuit. It answers a
+- :class:`CircuitView` is the only way a check reads a circuit. ``view.read``
+  answers a record field as an attribute (``view.read.zs_ohm``): it is the
+  record itself when nothing needs guarding, else a guard that withholds and
+  notes each read exactly as :meth:`CircuitView.raw` does. :meth:`CircuitView.get` answers a
   field from the record — the *effective* record, with what the circuit
   inherits from its board and the installation written in
   (:mod:`engine.inheritance`) — or, where that is silent, from an inference the
@@ -22,6 +25,10 @@ Invariants:
   each circuit's inherited values came from, plus a cache that board-level
   computations (feeder chains, a board's Ze consensus) fill on first use. It is
   per call: nothing is shared between calls, so ``verify`` stays pure.
+- A view built with ``tracking=False`` (the compact view's) notes nothing: the
+  verdict's ``inherited`` map and the notation named in the inputs are words of
+  the full view. It withholds exactly what a tracking view withholds, so both
+  views reach the same outcomes.
 - ``records``, ``by_board``, ``sources`` and ``cache`` are typed as mappings so that
   :func:`engine.stream.verify_stream` can layer one board's records over the
   few it keeps from earlier boards (``collections.ChainMap``) without copying.
@@ -35,6 +42,7 @@ from collections.abc import Iterable, Mapping, MutableMapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from .compiled import group_memo
 from .inference import INFERENCES
 from .inheritance import board_plan, inherit
 from .marks import LIMITATION
@@ -51,14 +59,34 @@ _NO_DEFAULTS: Mapping[str, Any] = {}
 _NO_SOURCES: Mapping[str, str] = {}
 
 
+class _Guarded:
+    """``view.read`` where a read must be withheld or noted: every attribute is :meth:`CircuitView.raw`."""
+
+    __slots__ = ("_view",)
+
+    def __init__(self, view: CircuitView) -> None:
+        self._view = view
+
+    def __getattr__(self, name: str) -> Any:
+        return self._view.raw(name)
+
+
 class CircuitView:
     """A record plus inferences and defaults, recording which were used; values judged first."""
 
     __slots__ = ("_defaults", "_notation_of", "_noted", "_sources", "_tracked", "_withheld",
-                 "defaults_applied", "inferred", "inherited", "notation_read", "record", "ruleset")
+                 "defaults_applied", "inferred", "inherited", "notation_read", "read", "record", "ruleset")
+
+    read: CircuitRecord
+    """The record's fields as attributes, each read as :meth:`raw` reads it (withheld, noted).
+
+    The record itself when nothing is withheld and no read needs noting (the common
+    case: a read is then one attribute access, not a method call; ~100 reads a
+    circuit), else a guard with the record's attribute names.
+    """
 
     def __init__(self, record: CircuitRecord, ruleset: Ruleset,
-                 sources: Mapping[str, str] = _NO_SOURCES) -> None:
+                 sources: Mapping[str, str] = _NO_SOURCES, *, tracking: bool = True) -> None:
         self.record = record
         self.ruleset = ruleset
         self.defaults_applied: dict[str, Any] = {}
@@ -70,7 +98,9 @@ class CircuitView:
         self._tracked: frozenset[str] | Mapping[str, str] = sources
         self._notation_of: dict[str, str] = {}
         self._noted: dict[str, Any] = {}
-        if record.notation:
+        if not tracking:
+            self._tracked = frozenset()
+        elif record.notation:
             self._note_notation(record)
         # the ruleset's defaults section, looked up once per circuit rather than per get()
         self._defaults: Mapping[str, Entry] = ruleset.sections.get("defaults", _NO_DEFAULTS)
@@ -83,6 +113,7 @@ class CircuitView:
             for name, problem in self._withheld.items():
                 if name in sources:
                     self._withheld[name] = dataclasses.replace(problem, origin=sources[name])
+        self.read = _Guarded(self) if self._tracked or self._withheld else record  # type: ignore[assignment]
 
     def _note_notation(self, record: CircuitRecord) -> None:
         """Which split fields a kept notation gave (to name it in the checks' inputs) and inferred."""
@@ -169,9 +200,18 @@ class Context:
     site: Site | None = None
     sources: Mapping[tuple[str, str], Mapping[str, str]] = field(default_factory=dict)
     """Circuit key → where each of its inherited fields came from (only circuits that inherit)."""
+    tracking: bool = True
+    """Whether views note what they hand out (the full view's ``inherited``, ``notation``); see above."""
+    memo: dict[Any, Any] = field(default_factory=dict)
+    """The ruleset's device and cable group memo (:func:`engine.compiled.group_memo`)."""
+
+    def __post_init__(self) -> None:
+        if not self.memo:
+            self.memo = group_memo(self.ruleset)
 
     @classmethod
-    def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset, site: Site | None = None) -> Context:
+    def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset, site: Site | None = None, *,
+              tracking: bool = True) -> Context:
         index: dict[tuple[str, str], CircuitRecord] = {}
         boards: dict[str, list[CircuitRecord]] = defaultdict(list)
         for record in records:
@@ -193,10 +233,12 @@ class Context:
                     if where:
                         own[at] = index[record.key] = effective
                         sources[record.key] = where
-        return cls(ruleset=ruleset, records=index, by_board=dict(boards), site=site, sources=sources)
+        return cls(ruleset=ruleset, records=index, by_board=dict(boards), site=site, sources=sources,
+                   tracking=tracking)
 
     def view(self, record: CircuitRecord) -> CircuitView:
-        return CircuitView(record, self.ruleset, self.sources.get(record.key, _NO_SOURCES))
+        return CircuitView(record, self.ruleset, self.sources.get(record.key, _NO_SOURCES),
+                           tracking=self.tracking)
 
     def other_view(self, record: CircuitRecord) -> CircuitView:
         """A view of another circuit (a feeder) read for this one: built once per call."""

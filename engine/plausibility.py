@@ -44,13 +44,15 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from .compiled import derived
 from .fields import FIELDS
+from .findings import Basis, Finding, found
 from .inference import INFERENCES
 from .inheritance import site_field
 from .marks import LIMITATION, MARK_REASONS
 from .readings import Reading, format_number
 from .records import CircuitRecord
-from .results import CheckResult, Outcome
+from .results import Outcome
 from .ruleset import Entry, Ruleset
 from .words import word_for
 
@@ -72,7 +74,8 @@ _TT_LOOPS = ("zs_ohm", "ze_ohm")
 #: dividing by a denormal (5e-324 mA, found by the property test) overflows to infinity.
 _FLOOR = 1e-9
 _NO_SECTION: Mapping[str, Entry] = {}
-_PARSED: dict[int, tuple[object, Mapping[str, tuple[float, str]]]] = {}
+#: A plausibility figure: (value, the published source, the ruleset entry's id).
+Limit = tuple[float, str, str]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -84,6 +87,8 @@ class Problem:
     shown: str
     value: float | None = None
     basis: str | None = None
+    basis_id: str | None = None
+    """The ruleset entry of ``basis`` (``plausibility.<key>``)."""
     rejected: bool = False
     mark: str | None = None
     """``"N/A"`` or ``"LIM"`` when the field was withheld for its mark."""
@@ -99,13 +104,11 @@ class Withheld(Exception):
         self.problem = problem
         self.key = key
 
-    def result(self, check: str, circuit: tuple[str, str]) -> CheckResult:
+    def result(self, check: str, circuit: tuple[str, str]) -> Finding:
         """The check's result: ``incomplete`` for a refused or marked value, ``investigate`` for an
         impossible one."""
         problem = self.problem
         where = "" if self.key == circuit or not self.key[1] else f"feeder {self.key[0]}/{self.key[1]}: "
-        word = word_for(problem.field)
-        at = ""
         inputs: dict[str, Any] = {"field": problem.field}
         if where:
             inputs["record"] = f"{self.key[0]}/{self.key[1]}"
@@ -113,28 +116,45 @@ class Withheld(Exception):
             inputs["board"] = self.key[0]
         if problem.origin is not None:
             inputs["inherited_from"] = problem.origin
-            written = site_field(problem.field, problem.origin)
-            at = f" in {problem.origin}" + ("" if written == problem.field else f" (as {word_for(written)})")
+        basis = None if problem.basis is None else Basis(id=problem.basis_id, text=problem.basis)
         if problem.mark is not None:
             inputs.update(missing=[problem.field], marked={problem.field: problem.mark})
             method = "limitation_recorded" if problem.mark == LIMITATION else "recorded_not_applicable"
-            tail = "" if problem.mark == LIMITATION else ", and no default is used in its place"
-            return CheckResult(check=check, outcome=Outcome.INCOMPLETE, method=method, inputs=inputs,
-                               basis=problem.basis,
-                               detail=f"not judged: {where}{word} {MARK_REASONS[problem.mark]}{at}{tail}")
+            return found(check, Outcome.INCOMPLETE, method=method, inputs=inputs, basis=basis,
+                         detail=lambda: _marked(problem, where))
         if problem.rejected:
             inputs.update(missing=[problem.field], rejected={problem.field: problem.shown})
-            return CheckResult(check=check, outcome=Outcome.INCOMPLETE, method="rejected_value",
-                               inputs=inputs, basis=problem.basis,
-                               detail=f"not judged: {where}{word} was rejected at intake{at} "
-                                      f"({problem.shown!r}) and no default is used in its place; "
-                                      "record a valid value")
+            return found(check, Outcome.INCOMPLETE, method="rejected_value", inputs=inputs, basis=basis,
+                         detail=lambda: _refused(problem, where))
         inputs["implausible"] = problem.shown
-        return CheckResult(check=check, outcome=Outcome.INVESTIGATE, method="implausible_value",
-                           value=problem.value, unit=FIELDS[problem.field].symbol, inputs=inputs,
-                           basis=problem.basis,
-                           detail=f"not judged: {where}{word} {problem.shown}{at} {problem.reason}; "
-                                  "check the reading and the record")
+        return found(check, Outcome.INVESTIGATE, method="implausible_value", value=problem.value,
+                     unit=FIELDS[problem.field].symbol, inputs=inputs, basis=basis,
+                     detail=lambda: _impossible(problem, where))
+
+
+def _at(problem: Problem) -> str:
+    """Where an inherited value was written, as the sentence says it ('' for the circuit's own)."""
+    if problem.origin is None:
+        return ""
+    written = site_field(problem.field, problem.origin)
+    return f" in {problem.origin}" + ("" if written == problem.field else f" (as {word_for(written)})")
+
+
+def _marked(problem: Problem, where: str) -> str:
+    assert problem.mark is not None
+    tail = "" if problem.mark == LIMITATION else ", and no default is used in its place"
+    return (f"not judged: {where}{word_for(problem.field)} {MARK_REASONS[problem.mark]}{_at(problem)}"
+            f"{tail}")
+
+
+def _refused(problem: Problem, where: str) -> str:
+    return (f"not judged: {where}{word_for(problem.field)} was rejected at intake{_at(problem)} "
+            f"({problem.shown!r}) and no default is used in its place; record a valid value")
+
+
+def _impossible(problem: Problem, where: str) -> str:
+    return (f"not judged: {where}{word_for(problem.field)} {problem.shown}{_at(problem)} {problem.reason}; "
+            "check the reading and the record")
 
 
 def _shown(name: str, value: Any) -> str:
@@ -185,26 +205,18 @@ def _sign(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], 
     return None
 
 
-def _limits(rules: Ruleset) -> Mapping[str, tuple[float, str]]:
-    """The ruleset's plausibility figures as (value, source), parsed once per ruleset.
-
-    Kept by the identity of the ruleset's section mapping, which is held beside the parse so
-    the id cannot be reused while cached (as :mod:`engine.conductors` keeps its tables): every
-    circuit asks for the same few figures.
-    """
+def _parse_limits(rules: Ruleset) -> Mapping[str, Limit]:
     section = rules.sections.get(SECTION, _NO_SECTION)
-    hit = _PARSED.get(id(section))
-    if hit is not None and hit[0] is section:
-        return hit[1]
-    parsed = {key: (float(entry.value), entry.source) for key, entry in section.items()
-              if isinstance(entry.value, int | float) and not isinstance(entry.value, bool)}
-    if len(_PARSED) >= 64:  # user rulesets come and go; the built-ins are parsed again once
-        _PARSED.clear()
-    _PARSED[id(section)] = (section, parsed)
-    return parsed
+    return {key: (float(entry.value), entry.source, f"{SECTION}.{key}") for key, entry in section.items()
+            if isinstance(entry.value, int | float) and not isinstance(entry.value, bool)}
 
 
-def _limit(rules: Ruleset, key: str) -> tuple[float, str] | None:
+def _limits(rules: Ruleset) -> Mapping[str, Limit]:
+    """The ruleset's plausibility figures, parsed once per ruleset (:mod:`engine.compiled`)."""
+    return derived(rules, _parse_limits)
+
+
+def _limit(rules: Ruleset, key: str) -> Limit | None:
     return _limits(rules).get(key)
 
 
@@ -214,6 +226,7 @@ def _u0(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], na
     top = _limit(rules, "u0_max_v")
     if found is None and top is not None and float(value) > top[0]:
         found = Problem(field=name, value=float(value), shown=_shown(name, value), basis=top[1],
+                        basis_id=top[2],
                         reason=f"is above the {top[0]:g} V this ruleset covers (a typo for U0?)")
     return found
 
@@ -226,10 +239,10 @@ def _temperatures(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, 
     theta = float(value)
     shown = f"{format_number(theta)} °C"
     if name == "test_temp_c" and low is not None and high is not None and not low[0] <= theta <= high[0]:
-        return Problem(field=name, value=theta, shown=shown, basis=low[1],
+        return Problem(field=name, value=theta, shown=shown, basis=low[1], basis_id=low[2],
                        reason=f"is outside the {low[0]:g}…{high[0]:g} °C a conductor is tested at")
     if name == "insulation_temp_c" and lowest_max is not None and theta < lowest_max[0]:
-        return Problem(field=name, value=theta, shown=shown, basis=lowest_max[1],
+        return Problem(field=name, value=theta, shown=shown, basis=lowest_max[1], basis_id=lowest_max[2],
                        reason=f"is below the {lowest_max[0]:g} °C of the coolest-rated cable insulation")
     test = _effective(record, defaults, "test_temp_c")
     limit = _effective(record, defaults, "insulation_temp_c")
@@ -249,6 +262,7 @@ def _factor(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry]
     top = _limit(rules, key)
     if top is not None and float(value) > top[0]:
         return Problem(field=name, value=float(value), shown=_shown(name, value), basis=top[1],
+                       basis_id=top[2],
                        reason=f"is above {top[0]:g}, the most such a correction factor can be")
     return None
 
@@ -278,6 +292,7 @@ def _tt_loop(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry
         if measured is not None and measured < ra - (ohm[0] + fraction[0] * ra):
             label = "Zs" if loop == "zs_ohm" else "Ze"
             return Problem(field=name, value=_number(value), shown=_shown(name, value), basis=ohm[1],
+                           basis_id=ohm[2],
                            reason=f"cannot be: on TT the loop runs through the electrode, so {label} "
                                   f"({format_number(measured)} Ω) cannot be below RA "
                                   f"({format_number(ra)} Ω)")

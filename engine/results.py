@@ -19,7 +19,8 @@ from functools import lru_cache
 from types import MappingProxyType
 from typing import Any, Literal
 
-__all__ = ["CHECK_IDS", "OUTCOME_MEANINGS", "CheckResult", "LimitKind", "Outcome", "Verdict", "worst"]
+__all__ = ["CHECK_IDS", "NO_INPUTS", "OUTCOME_MEANINGS", "CheckResult", "LimitKind", "Outcome", "Verdict",
+           "round_figure", "worst"]
 
 CHECK_IDS: tuple[str, ...] = (
     "continuity",
@@ -41,7 +42,7 @@ CHECK_IDS: tuple[str, ...] = (
 _KNOWN_CHECKS: frozenset[str] = frozenset(CHECK_IDS)  # one hash per result, not a scan of the tuple
 
 LimitKind = Literal["max", "min"]
-_NO_INPUTS: Mapping[str, Any] = MappingProxyType({})  # the shared, read-only "no inputs"
+NO_INPUTS: Mapping[str, Any] = MappingProxyType({})  # the shared, read-only "no inputs"
 
 
 class Outcome(StrEnum):
@@ -74,7 +75,7 @@ def worst(outcomes: Iterable[Outcome], *, empty: Outcome = Outcome.INCOMPLETE) -
 
 
 def _no_inputs() -> Mapping[str, Any]:
-    return _NO_INPUTS
+    return NO_INPUTS
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -99,6 +100,8 @@ class CheckResult:
     unit: str | None = None
     method: str | None = None
     basis: str | None = None
+    basis_id: str | None = None
+    """The ruleset entry ``basis`` begins with (``section.key``) or ``record:<field>``: the compact view's."""
     inputs: Mapping[str, Any] = field(default_factory=_no_inputs)
 
     def __post_init__(self) -> None:
@@ -124,8 +127,8 @@ class CheckResult:
         return (self.value - self.limit) / self.limit
 
     def as_dict(self) -> dict[str, Any]:
-        # The hot path of every verdict body (tests/bench): the margin and the rounding are
-        # inlined here, with the same results as :attr:`margin` and :func:`_round`.
+        # The hot path of every verdict body (tests/bench): the margin is inlined here, with
+        # the same result as :attr:`margin`.
         value, limit = self.value, self.limit
         margin = None
         if value is not None and limit is not None and limit != 0 and self.limit_kind is not None:
@@ -134,15 +137,16 @@ class CheckResult:
         return {
             "check": self.check,
             "outcome": self.outcome.value,
-            "value": None if value is None else _round(value),
+            "value": None if value is None else round_figure(value),
             "relation": self.relation,
-            "limit": None if limit is None else _round(limit),
+            "limit": None if limit is None else round_figure(limit),
             "limit_kind": self.limit_kind,
             "unit": self.unit,
             "margin": margin,
             "method": self.method,
             "basis": self.basis,
-            "inputs": {k: _round(v) if type(v) is float else v for k, v in inputs.items()} if inputs else {},
+            "inputs": {k: round_figure(v) if type(v) is float else v for k, v in inputs.items()}
+            if inputs else {},
             "detail": self.detail,
         }
 
@@ -154,7 +158,7 @@ def _rebuild(kwargs: dict[str, Any]) -> CheckResult:
     return CheckResult(**kwargs)
 
 
-def _round(value: float | None) -> float | None:
+def round_figure(value: float | None) -> float | None:
     """Six significant figures: far below any meter's resolution, free of float noise."""
     if value is None or value - value != 0.0:  # nan or ±inf: JSON has neither; None reads "no figure"
         return None

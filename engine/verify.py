@@ -1,4 +1,4 @@
-"""``verify(records, ruleset, site=...)``: every applicable check for every circuit.
+"""``verify(records, ruleset, site=..., view=...)``: every applicable check for every circuit.
 
 Invariants:
 - One verdict per distinct ``(board, circuit)``, in first-seen order; a later
@@ -7,7 +7,12 @@ Invariants:
   inherits from its board and the installation (:mod:`engine.inheritance`);
   the verdict says where each inherited value a check read came from
   (``inherited``). Without one, nothing is inherited.
-- Checks run in the order of :data:`engine.checks.CHECKS`.
+- Checks run in the order of :data:`engine.checks.CHECKS` and yield findings
+  (:mod:`engine.findings`): numbers first. The full view (``view="full"``, the
+  default) renders each into a :class:`engine.results.CheckResult`; the compact
+  view (``view="compact"``, :func:`verify_compact`) takes only the numbers and
+  never builds a sentence. Both views run the same checks on the same findings,
+  so they carry the same outcomes, values and limits.
 - Nothing a record holds makes this raise. A ruleset lacking a value a check
   needs, or a bug in a check, becomes an ``incomplete`` result and an entry in
   the verdict's ``errors`` — never a pass and never a crash.
@@ -16,10 +21,12 @@ Invariants:
   ``incomplete`` or ``investigate`` result here, the one place for every check;
   results the check gave before it read that value are kept.
 - An ``incomplete`` result that names as missing a field recorded as ``N/A``
-  says so (``inputs.marked`` and the sentence): N/A explains an absence.
-- A check that read fields a trade notation gave (``"device": "B32"``) names
-  the notation in its inputs (``inputs.notation``).
-- Nothing process-wide is read or changed: no collector tuning, no globals.
+  says so (``inputs.marked`` and the sentence): N/A explains an absence. A
+  check that read fields a trade notation gave names the notation in its inputs
+  (``inputs.notation``). Both are words of the full view; the compact view,
+  which has neither inputs nor sentences, skips them.
+- Nothing process-wide is read or changed: no collector tuning, no globals
+  (the per-ruleset memo of :mod:`engine.compiled` keeps pure values only).
   Collector settings belong to the process that owns them (the CLI, a server
   worker); at 10,000–30,000 circuits in one call a paused collector made
   ``verify`` 1.2–1.3× faster (tests/bench, same run), at 48 circuits it made
@@ -28,68 +35,103 @@ Invariants:
 
 from __future__ import annotations
 
-import dataclasses
 from collections.abc import Collection, Iterable
+from typing import Literal, TypedDict, overload
 
 from .checks import CHECKS
 from .context import CircuitView, Context
 from .errors import EngineError
+from .findings import CompactRow, Finding, compact_row, found, inputs_of, render, to_result
 from .marks import MARK_REASONS
 from .plausibility import Withheld
 from .records import CircuitRecord
-from .results import CheckResult, Outcome, Verdict, worst
+from .results import Outcome, Verdict
 from .ruleset import Ruleset, load_ruleset
 from .site import Site
 from .words import word_for
 
-__all__ = ["verify", "verify_one"]
+__all__ = ["CompactVerdict", "View", "compact_one", "verify", "verify_compact", "verify_one"]
+
+View = Literal["full", "compact"]
+_SEVERITY = {Outcome.PASS: 0, Outcome.INCOMPLETE: 1, Outcome.INVESTIGATE: 2, Outcome.FAIL: 3}
+_BY_SEVERITY = (Outcome.PASS, Outcome.INCOMPLETE, Outcome.INVESTIGATE, Outcome.FAIL)
+
+
+class CompactVerdict(TypedDict):
+    """A circuit's verdict in the compact view: JSON-ready, no text.
+
+    ``checks`` rows are ``[check, outcome, value, relation, limit, unit, basis_id]``.
+    """
+
+    board: str
+    circuit: str
+    outcome: str
+    checks: list[CompactRow]
+
+
+@overload
+def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+           only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
+           view: Literal["full"] = "full") -> list[Verdict]: ...
+
+
+@overload
+def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+           only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
+           view: Literal["compact"]) -> list[CompactVerdict]: ...
 
 
 def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
-           only: Collection[tuple[str, str]] | None = None, site: Site | None = None) -> list[Verdict]:
-    """Verdicts of every circuit, or of the circuits keyed in ``only``.
+           only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
+           view: View = "full") -> list[Verdict] | list[CompactVerdict]:
+    """Verdicts of every circuit, or of the circuits keyed in ``only``, in the view asked for.
 
     ``only`` still sees every record (board-level checks need the whole board
     and its feeders), so each verdict is the one a full call gives; it just
     skips the circuits nobody asked about (a logger's post touches a few).
     ``site`` gives the installation and board records the circuits inherit from.
+    ``view="compact"`` is :func:`verify_compact`.
     """
-    rules = load_ruleset(ruleset)
-    ctx = Context.build(records, rules, site)
-    if only is not None:
-        return [verify_one(record, ctx) for key, record in ctx.records.items() if key in only]
-    return [verify_one(record, ctx) for record in ctx.records.values()]
+    if view == "compact":
+        return verify_compact(records, ruleset, only=only, site=site)
+    if view != "full":
+        raise ValueError(f"view must be 'full' or 'compact', not {view!r}")
+    ctx = Context.build(records, load_ruleset(ruleset), site)
+    return [verify_one(record, ctx) for record in _wanted(ctx, only)]
+
+
+def verify_compact(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+                   only: Collection[tuple[str, str]] | None = None,
+                   site: Site | None = None) -> list[CompactVerdict]:
+    """The compact view: per circuit its outcome and ``[check, outcome, value, relation, limit, unit,
+    basis_id]`` per result, computed without building a sentence."""
+    ctx = Context.build(records, load_ruleset(ruleset), site, tracking=False)
+    return [compact_one(record, ctx) for record in _wanted(ctx, only)]
+
+
+def _wanted(ctx: Context, only: Collection[tuple[str, str]] | None) -> Iterable[CircuitRecord]:
+    if only is None:
+        return ctx.records.values()
+    return [record for key, record in ctx.records.items() if key in only]
+
+
+def _worst(findings: list[Finding]) -> Outcome:
+    if not findings:
+        return Outcome.INCOMPLETE  # nothing was shown to pass
+    return _BY_SEVERITY[max(_SEVERITY[f.outcome] for f in findings)]
 
 
 def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
+    """The full verdict of one circuit of ``ctx``."""
     view = ctx.view(record)
-    checks: list[CheckResult] = []
-    errors: list[dict[str, str]] = []
-    noted = bool(record.notation)
-    for check_id, run in CHECKS.items():
-        start = len(checks)
-        try:
-            checks.extend(run(view, ctx))
-        except Withheld as exc:
-            checks.append(exc.result(check_id, record.key))
-        except EngineError as exc:
-            errors.append({"check": check_id, **exc.as_dict()})
-            checks.append(CheckResult(check=check_id, outcome=Outcome.INCOMPLETE,
-                                      detail=f"could not be evaluated: {exc.message}"))
-        except Exception as exc:  # a bug must not become a pass or a 500
-            errors.append({"check": check_id, "code": "check_error",
-                           "message": f"{type(exc).__name__}: {exc}"})
-            checks.append(CheckResult(check=check_id, outcome=Outcome.INCOMPLETE,
-                                      detail="could not be evaluated (internal error, reported)"))
-        if noted and view.notation_read:
-            _name_notation(checks, start, view)
+    findings, errors = _findings(view, ctx, full=True)
     if record.marks:
-        _say_marks(checks, view)
+        _say_marks(findings, view)
     return Verdict(
         board=record.board,
         circuit=record.circuit,
-        outcome=worst(c.outcome for c in checks),
-        checks=tuple(checks),
+        outcome=_worst(findings),
+        checks=tuple(to_result(f) for f in findings),
         description=record.description,
         defaults_applied=dict(view.defaults_applied),
         inferred=dict(view.inferred),
@@ -98,20 +140,55 @@ def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
     )
 
 
-def _name_notation(checks: list[CheckResult], start: int, view: CircuitView) -> None:
+def compact_one(record: CircuitRecord, ctx: Context) -> CompactVerdict:
+    """The compact verdict of one circuit of ``ctx``."""
+    findings, _errors = _findings(ctx.view(record), ctx, full=False)
+    return {"board": record.board, "circuit": record.circuit, "outcome": _worst(findings).value,
+            "checks": [compact_row(f) for f in findings]}
+
+
+def _findings(view: CircuitView, ctx: Context, *, full: bool) -> tuple[list[Finding], list[dict[str, str]]]:
+    findings: list[Finding] = []
+    errors: list[dict[str, str]] = []
+    record = view.record
+    noted = full and bool(record.notation)
+    for check_id, run in CHECKS.items():
+        start = len(findings)
+        try:
+            findings.extend(run(view, ctx))
+        except Withheld as exc:
+            findings.append(exc.result(check_id, record.key))
+        except EngineError as exc:
+            errors.append({"check": check_id, **exc.as_dict()})
+            findings.append(found(check_id, Outcome.INCOMPLETE,
+                                  detail=f"could not be evaluated: {exc.message}"))
+        except Exception as exc:  # a bug must not become a pass or a 500
+            errors.append({"check": check_id, "code": "check_error",
+                           "message": f"{type(exc).__name__}: {exc}"})
+            findings.append(found(check_id, Outcome.INCOMPLETE,
+                                  detail="could not be evaluated (internal error, reported)"))
+        if noted and view.notation_read:
+            _name_notation(findings, start, view)
+    return findings, errors
+
+
+def _name_notation(findings: list[Finding], start: int, view: CircuitView) -> None:
     """The notation whose fields this check read goes into its results' inputs."""
     given = {name: view.record.notation[name] for name in sorted(view.notation_read)}
     view.notation_read.clear()
-    for at in range(start, len(checks)):
-        checks[at] = dataclasses.replace(checks[at], inputs={**checks[at].inputs, "notation": given})
+    for at in range(start, len(findings)):
+        findings[at] = findings[at]._replace(inputs={**inputs_of(findings[at]), "notation": given})
 
 
-def _say_marks(checks: list[CheckResult], view: CircuitView) -> None:
+def _say_marks(findings: list[Finding], view: CircuitView) -> None:
     """An incomplete result missing a field recorded as N/A or LIM says so (a mark explains an absence)."""
     marks = view.record.marks
-    for at, result in enumerate(checks):
-        missing = result.inputs.get("missing") if result.outcome is Outcome.INCOMPLETE else None
-        if not missing or "marked" in result.inputs:
+    for at, result in enumerate(findings):
+        if result.outcome is not Outcome.INCOMPLETE:
+            continue
+        inputs = inputs_of(result)
+        missing = inputs.get("missing")
+        if not missing or "marked" in inputs:
             continue
         marked = {name: marks[name] for name in missing if isinstance(name, str) and name in marks}
         if not marked:
@@ -122,5 +199,5 @@ def _say_marks(checks: list[CheckResult], view: CircuitView) -> None:
             said.append(f"{word_for(name)} {MARK_REASONS.get(mark, mark)}" + (f" in {source}" * bool(source)))
             if source:
                 view.inherited[name] = source
-        checks[at] = dataclasses.replace(result, inputs={**result.inputs, "marked": marked},
-                                         detail=f"{result.detail} ({'; '.join(said)})")
+        detail = f"{render(result.detail)} ({'; '.join(said)})"
+        findings[at] = result._replace(inputs={**inputs, "marked": marked}, detail=detail)

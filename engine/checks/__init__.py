@@ -1,13 +1,16 @@
 """The check registry: check id → function, in the order verdicts list them.
 
-A check is a pure function ``(view, context) -> iterable of CheckResult``. It
+A check is a pure function ``(view, context) -> iterable of Finding``
+(:mod:`engine.findings`: numbers first, the sentence left to be rendered). It
 yields nothing when it does not apply to the circuit (no RCD, not a ring), an
 ``incomplete`` result when it applies but data is missing, and otherwise one
 result per thing it judged (a ring check may judge three things).
 
 To add a check family: write ``engine/checks/<family>.py`` with a ``run``
 function and add it here; the check id must be one of
-:data:`engine.results.CHECK_IDS`.
+:data:`engine.results.CHECK_IDS`. Its figures come from the ruleset through
+:mod:`engine.compiled` (once per ruleset, not per circuit), and its sentences
+are renderers over values already computed (see :mod:`engine.findings`).
 """
 
 from __future__ import annotations
@@ -15,7 +18,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable
 
 from ..context import CircuitView, Context
-from ..results import CheckResult
+from ..findings import Finding
 from . import (
     additional_protection,
     continuity,
@@ -35,7 +38,7 @@ from . import (
 
 __all__ = ["CHECKS", "CheckFn"]
 
-CheckFn = Callable[[CircuitView, Context], Iterable[CheckResult]]
+CheckFn = Callable[[CircuitView, Context], Iterable[Finding]]
 
 CHECKS: dict[str, CheckFn] = {
     "continuity": continuity.run,

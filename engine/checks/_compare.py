@@ -11,8 +11,9 @@ from collections.abc import Mapping
 from enum import Enum
 from typing import Any
 
+from ..findings import BasisParts, Detail, Finding, found
 from ..readings import Reading
-from ..results import CheckResult, Outcome
+from ..results import Outcome
 from ..words import words
 
 __all__ = ["Side", "compare_max", "compare_min", "incomplete", "not_applicable_if_none"]
@@ -48,12 +49,12 @@ def compare_min(reading: Reading, limit: float) -> Side:
     return Side.WITHIN if reading.value >= limit else Side.BEYOND
 
 
-def incomplete(check: str, missing: list[str], *, detail: str | None = None,
-               basis: str | None = None, inputs: Mapping[str, Any] | None = None) -> CheckResult:
+def incomplete(check: str, missing: list[str], *, detail: Detail | None = None,
+               basis: BasisParts | None = None, inputs: Mapping[str, Any] | None = None) -> Finding:
     """The check applies but the record lacks what it needs: say what."""
-    text = detail or f"needs {words(missing)} to decide"
-    return CheckResult(check=check, outcome=Outcome.INCOMPLETE, detail=text, basis=basis,
-                       inputs={"missing": list(missing), **(inputs or {})})
+    names = list(missing)
+    return found(check, Outcome.INCOMPLETE, detail=detail or (lambda: f"needs {words(names)} to decide"),
+                 basis=basis, inputs={"missing": names, **(inputs or {})})
 
 
 def not_applicable_if_none(*values: object) -> bool:

@@ -13,13 +13,17 @@ from ..context import CircuitView
 
 __all__ = ["rcd_evidence"]
 
-_TESTS = ("rcd_trip_ms", "rcd_trip_5x_ms", "rcd_half_no_trip")
 
 
 def rcd_evidence(view: CircuitView) -> str | None:
     """The field that shows the circuit has an RCD, or ``None``."""
-    if view.raw("rcd_residual_ma") is not None:
+    read = view.read
+    if read.rcd_residual_ma is not None:
         return "rcd_residual_ma"
     if view.get("device_kind") == "rcbo":
         return "device_kind"
-    return next((name for name in _TESTS if view.raw(name) is not None), None)
+    if read.rcd_trip_ms is not None:
+        return "rcd_trip_ms"
+    if read.rcd_trip_5x_ms is not None:
+        return "rcd_trip_5x_ms"
+    return "rcd_half_no_trip" if read.rcd_half_no_trip is not None else None

@@ -26,8 +26,10 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import Any
 
+from ..compiled import basis
 from ..context import CircuitView, Context
-from ..results import CheckResult, Outcome
+from ..findings import Detail, Finding, found, render
+from ..results import Outcome
 from ..ruleset import Ruleset
 from ..words import word_for
 from ._compare import incomplete
@@ -37,107 +39,113 @@ __all__ = ["reasons", "run"]
 
 CHECK = "additional_protection"
 SECTION = "additional_protection"
+_CONCEALED = "cables concealed in a wall less than 50 mm deep without earthed protection"
+_LIGHTING = "luminaires on a final circuit in domestic premises"
 
 
-def reasons(view: CircuitView, rules: Ruleset) -> tuple[list[tuple[str, str]], list[str]]:
+def reasons(view: CircuitView, rules: Ruleset) -> tuple[list[tuple[str, Detail]], list[str]]:
     """(why additional protection applies: (key, sentence) each; fields whose absence leaves it open)."""
-    found: list[tuple[str, str]] = []
+    found_: list[tuple[str, Detail]] = []
     missing: list[str] = []
+    read = view.read
     if view.get("socket_outlets"):
         top = float(rules.value(SECTION, "socket_max_a"))
-        socket, device = view.raw("socket_rating_a"), view.raw("device_rating_a")
+        socket, device = read.socket_rating_a, read.device_rating_a
         if socket is not None:
             if float(socket) <= top:
-                found.append(("sockets", f"socket-outlets rated {float(socket):g} A (≤ {top:g} A)"))
+                found_.append(("sockets", lambda: f"socket-outlets rated {float(socket):g} A (≤ {top:g} A)"))
         elif device is not None and float(device) <= top:
-            found.append(("sockets", f"socket-outlets on a {float(device):g} A circuit, so rated "
-                                     f"≤ {top:g} A"))
+            found_.append(("sockets", lambda: f"socket-outlets on a {float(device):g} A circuit, so rated "
+                                              f"≤ {top:g} A"))
         else:
             missing.append("socket_rating_a")
-    if view.raw("outdoor_equipment"):
-        top = float(rules.value(SECTION, "outdoor_mobile_max_a"))
-        found.append(("outdoor", f"mobile equipment (≤ {top:g} A) for use outdoors"))
-    if rules.get(SECTION, "domestic_lighting") and view.raw("premises") == "domestic" \
+    if read.outdoor_equipment:
+        outdoor = float(rules.value(SECTION, "outdoor_mobile_max_a"))
+        found_.append(("outdoor", lambda: f"mobile equipment (≤ {outdoor:g} A) for use outdoors"))
+    if rules.get(SECTION, "domestic_lighting") and read.premises == "domestic" \
             and view.get("load_type") == "lighting":
-        found.append(("lighting", "luminaires on a final circuit in domestic premises"))
-    if rules.get(SECTION, "concealed_cables") and view.raw("concealed_in_wall"):
-        found.append(("concealed", "cables concealed in a wall less than 50 mm deep without earthed "
-                                   "protection"))
-    return found, missing
+        found_.append(("lighting", _LIGHTING))
+    if rules.get(SECTION, "concealed_cables") and read.concealed_in_wall:
+        found_.append(("concealed", _CONCEALED))
+    return found_, missing
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     rules = ctx.ruleset
-    found, missing = reasons(view, rules)
-    basis = rules.basis(SECTION, "max_residual_ma")
-    if not found:
+    found_, missing = reasons(view, rules)
+    required = basis(rules, SECTION, "max_residual_ma")
+    if not found_:
         if missing:
-            yield incomplete(CHECK, missing, basis=rules.basis(SECTION, "socket_max_a"),
+            yield incomplete(CHECK, missing, basis=basis(rules, SECTION, "socket_max_a"),
                              detail="needs the socket-outlets' rating to tell whether an RCD is required")
         return
-    why = "; ".join(text for _, text in found)
-    inputs: dict[str, Any] = {"required_for": [key for key, _ in found]}
+
+    def why() -> str:
+        return "; ".join(render(text) for _, text in found_)
+
+    inputs: dict[str, Any] = {"required_for": [key for key, _ in found_]}
     evidence = rcd_evidence(view)
     if evidence is None:
-        yield _no_rcd(view, rules, found, why, inputs, basis)
+        yield _no_rcd(view, rules, found_, why, inputs, required)
         return
     inputs["rcd_shown_by"] = evidence
-    idn = view.raw("rcd_residual_ma")
+    idn = view.read.rcd_residual_ma
     top = float(rules.value(SECTION, "max_residual_ma"))
     if idn is None:
-        yield incomplete(CHECK, ["rcd_residual_ma"], basis=basis, inputs=inputs,
-                         detail=f"an RCD is there ({word_for(evidence)}) but its IΔn is not recorded; "
-                                f"required for {why}")
+        yield incomplete(CHECK, ["rcd_residual_ma"], basis=required, inputs=inputs,
+                         detail=lambda: f"an RCD is there ({word_for(evidence)}) but its IΔn is not "
+                                        f"recorded; required for {why()}")
     else:
-        within = float(idn) <= top
-        yield CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=float(idn),
-                          limit=top, limit_kind="max", unit="mA", method="residual_current", basis=basis,
-                          inputs=inputs,
-                          detail=f"{float(idn):g} mA RCD {'within' if within else 'above'} the {top:g} mA "
-                                 f"required for {why}")
-    kind = _type_result(view, rules, found, inputs)
+        idn_ma = float(idn)
+        within = idn_ma <= top
+        yield found(CHECK, Outcome.PASS if within else Outcome.FAIL, value=idn_ma, limit=top,
+                    limit_kind="max", unit="mA", method="residual_current", basis=required, inputs=inputs,
+                    detail=lambda: f"{idn_ma:g} mA RCD {'within' if within else 'above'} the {top:g} mA "
+                                   f"required for {why()}")
+    kind = _type_result(view, rules, found_, inputs)
     if kind is not None:
         yield kind
 
 
-def _no_rcd(view: CircuitView, rules: Ruleset, found: list[tuple[str, str]], why: str,
-            inputs: dict[str, Any], basis: str) -> CheckResult:
-    keys = {key for key, _ in found}
-    exception = (keys == {"sockets"} and view.raw("premises") == "other"
+def _no_rcd(view: CircuitView, rules: Ruleset, found_: list[tuple[str, Detail]], why: Any,
+            inputs: dict[str, Any], required: Any) -> Finding:
+    keys = {key for key, _ in found_}
+    exception = (keys == {"sockets"} and view.read.premises == "other"
                  and rules.get(SECTION, "socket_exception_other_premises"))
     if exception:
-        return CheckResult(check=CHECK, outcome=Outcome.INVESTIGATE, method="residual_current",
-                           basis=rules.basis(SECTION, "socket_exception_other_premises"), inputs=inputs,
-                           detail=f"no RCD recorded for {why}: outside dwellings the regulation allows a "
-                                  "documented risk assessment to omit it; confirm one exists, else fit a "
-                                  "30 mA RCD")
-    return CheckResult(check=CHECK, outcome=Outcome.FAIL, method="residual_current", basis=basis,
-                       inputs=inputs, detail=f"no RCD recorded, but a 30 mA RCD is required for {why}")
+        return found(CHECK, Outcome.INVESTIGATE, method="residual_current",
+                     basis=basis(rules, SECTION, "socket_exception_other_premises"), inputs=inputs,
+                     detail=lambda: f"no RCD recorded for {why()}: outside dwellings the regulation allows a "
+                                    "documented risk assessment to omit it; confirm one exists, else fit a "
+                                    "30 mA RCD")
+    return found(CHECK, Outcome.FAIL, method="residual_current", basis=required, inputs=inputs,
+                 detail=lambda: f"no RCD recorded, but a 30 mA RCD is required for {why()}")
 
 
-def _type_result(view: CircuitView, rules: Ruleset, found: list[tuple[str, str]],
-                 inputs: dict[str, Any]) -> CheckResult | None:
-    kind, needed = view.raw("rcd_type"), view.raw("rcd_type_required")
+def _type_result(view: CircuitView, rules: Ruleset, found_: list[tuple[str, Detail]],
+                 inputs: dict[str, Any]) -> Finding | None:
+    read = view.read
+    kind, needed = read.rcd_type, read.rcd_type_required
     order: list[str] = rules.get(SECTION, "rcd_type_order", []) or []
-    basis = rules.basis(SECTION, "rcd_type_order")
+    type_order = basis(rules, SECTION, "rcd_type_order")
     inputs = {**inputs, "rcd_type": kind, "rcd_type_required": needed}
     if needed is not None:
         if kind is None:
-            return incomplete(CHECK, ["rcd_type"], basis=basis, inputs=inputs,
-                              detail=f"the load needs a type {needed} RCD; the RCD's type is not recorded")
+            return incomplete(CHECK, ["rcd_type"], basis=type_order, inputs=inputs,
+                              detail=lambda: f"the load needs a type {needed} RCD; the RCD's type is not "
+                                             "recorded")
         ok = kind in order and needed in order and order.index(kind) >= order.index(needed)
-        return CheckResult(check=CHECK, outcome=Outcome.PASS if ok else Outcome.FAIL, method="rcd_type",
-                           basis=basis, inputs=inputs,
-                           detail=f"type {kind} RCD {'covers' if ok else 'does not cover'} the type {needed} "
-                                  "the load needs")
+        return found(CHECK, Outcome.PASS if ok else Outcome.FAIL, method="rcd_type", basis=type_order,
+                     inputs=inputs,
+                     detail=lambda: f"type {kind} RCD {'covers' if ok else 'does not cover'} the type "
+                                    f"{needed} the load needs")
     if kind != "AC" or not rules.get(SECTION, "type_ac_fixed_only"):
         return None
-    basis = rules.basis(SECTION, "type_ac_fixed_only")
-    if {key for key, _ in found} & {"sockets", "outdoor"}:
-        return CheckResult(check=CHECK, outcome=Outcome.FAIL, method="rcd_type", basis=basis, inputs=inputs,
-                           detail="type AC RCD on socket-outlets or mobile equipment: type AC serves only "
-                                  "fixed equipment known to draw no d.c. component (type A or better)")
-    return CheckResult(check=CHECK, outcome=Outcome.INVESTIGATE, method="rcd_type", basis=basis,
-                       inputs=inputs,
-                       detail="type AC RCD: confirm the fixed equipment draws no d.c. component, or record "
-                              "rcd_type_required")
+    fixed_only = basis(rules, SECTION, "type_ac_fixed_only")
+    if {key for key, _ in found_} & {"sockets", "outdoor"}:
+        return found(CHECK, Outcome.FAIL, method="rcd_type", basis=fixed_only, inputs=inputs,
+                     detail="type AC RCD on socket-outlets or mobile equipment: type AC serves only "
+                            "fixed equipment known to draw no d.c. component (type A or better)")
+    return found(CHECK, Outcome.INVESTIGATE, method="rcd_type", basis=fixed_only, inputs=inputs,
+                 detail="type AC RCD: confirm the fixed equipment draws no d.c. component, or record "
+                        "rcd_type_required")

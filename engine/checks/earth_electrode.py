@@ -18,11 +18,15 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 
+from ..compiled import basis, derived
 from ..context import CircuitView, Context
+from ..findings import Basis, Finding, found
 from ..protection import positive
 from ..readings import Reading
-from ..results import CheckResult, Outcome
+from ..results import Outcome
+from ..ruleset import Ruleset
 from ._compare import Side, compare_max, incomplete
 
 __all__ = ["run"]
@@ -32,55 +36,82 @@ SECTION = "earth_electrode"
 _MA_PER_A = 1000.0
 
 
+@dataclass(frozen=True, slots=True)
+class _Touch:
+    volts: float
+    basis: Basis
+
+
+@dataclass(frozen=True, slots=True)
+class _Stable:
+    ohm: float
+    basis: Basis
+
+
+def _touch(rules: Ruleset) -> _Touch:
+    return _Touch(volts=float(rules.value(SECTION, "touch_voltage_v")),
+                  basis=basis(rules, SECTION, "touch_voltage_v"))
+
+
+def _stable(rules: Ruleset) -> _Stable:
+    return _Stable(ohm=float(rules.value(SECTION, "stable_max_ohm")),
+                   basis=basis(rules, SECTION, "stable_max_ohm"))
+
+
 def _volts(product: Reading) -> str:
     """RA × IΔn as a person reads it: 1.86 V, not the float's 1.8599999999999999 V."""
     if product.value is None:
         return product.display("V")
     relation = "" if product.relation == "=" else f"{product.relation} "
     return f"{relation}{product.value:.4g} V"
+
+
 _OUTCOME = {Side.WITHIN: Outcome.PASS, Side.BEYOND: Outcome.FAIL, Side.UNKNOWN: Outcome.INVESTIGATE}
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     rules = ctx.ruleset
-    earthing = view.raw("earthing")
-    ra = view.reading("ra_ohm")
+    read = view.read
+    earthing = read.earthing
+    ra = read.ra_ohm
     if earthing != "TT" and not (earthing is None and ra is not None):
         return
-    touch_v = float(rules.value(SECTION, "touch_voltage_v"))
-    basis = rules.basis(SECTION, "touch_voltage_v")
+    touch = derived(rules, _touch)
+    touch_v = touch.volts
     if ra is None:
-        yield incomplete(CHECK, ["ra_ohm"], basis=basis)
+        yield incomplete(CHECK, ["ra_ohm"], basis=touch.basis)
         return
-    idn_ma = positive(view.raw("rcd_residual_ma"))
+    idn_ma = positive(read.rcd_residual_ma)
     inputs: dict[str, object] = {"ra": ra.to_json(), "touch_voltage_v": touch_v,
                                  "earthing": earthing or "not recorded (RA implies TT)"}
     if ra.value is not None and ra.value > 0:
         inputs["max_residual_ma"] = touch_v / ra.value * _MA_PER_A
     if idn_ma is None:
-        yield incomplete(CHECK, ["rcd_residual_ma"], basis=basis, inputs=inputs,
+        yield incomplete(CHECK, ["rcd_residual_ma"], basis=touch.basis, inputs=inputs,
                          detail="needs the RCD's IΔn to judge RA × IΔn ≤ 50 V")
     else:
-        idn_a = idn_ma / _MA_PER_A
-        raw = None if ra.value is None else ra.value * idn_a
-        # a product too large for a float is over any limit: keep it as an over-range bound
-        product = (Reading(value=raw, relation=ra.relation) if raw is not None and math.isfinite(raw)
-                   else Reading(value=None, relation=">"))
-        side = compare_max(product, touch_v)
-        words = {Side.WITHIN: "within", Side.BEYOND: "above"}.get(side, "not shown within")
-        yield CheckResult(
-            check=CHECK, outcome=_OUTCOME[side], value=product.value, relation=product.relation,
-            limit=touch_v, limit_kind="max", unit="V", method="ra_x_idn", basis=basis,
-            inputs={**inputs, "rcd_residual_ma": idn_ma},
-            detail=f"RA {ra.display('Ω')} × IΔn {idn_ma:g} mA = {_volts(product)}, {words} "
-                   f"the {touch_v:g} V limit")
-    stable = float(rules.value(SECTION, "stable_max_ohm"))
-    side = compare_max(ra, stable)
-    yield CheckResult(
-        check=CHECK, outcome=Outcome.PASS if side is Side.WITHIN else Outcome.INVESTIGATE,
-        value=ra.value, relation=ra.relation, limit=stable, limit_kind="max", unit="Ω",
-        method="electrode_stability", basis=rules.basis(SECTION, "stable_max_ohm"),
-        inputs={"ra": ra.to_json()},
-        detail=f"RA {ra.display('Ω')} is within {stable:g} Ω" if side is Side.WITHIN
-        else f"RA {ra.display('Ω')} is not shown within {stable:g} Ω: such an electrode may not be "
-             "stable (soil drying or freezing); consider improving it")
+        yield _touch_voltage(ra, idn_ma, touch, inputs)
+    stable = derived(rules, _stable)
+    side = compare_max(ra, stable.ohm)
+    yield found(CHECK, Outcome.PASS if side is Side.WITHIN else Outcome.INVESTIGATE, value=ra.value,
+                relation=ra.relation, limit=stable.ohm, limit_kind="max", unit="Ω",
+                method="electrode_stability",
+                basis=stable.basis, inputs=lambda: {"ra": ra.to_json()},
+                detail=(lambda: f"RA {ra.display('Ω')} is within {stable.ohm:g} Ω") if side is Side.WITHIN
+                else (lambda: f"RA {ra.display('Ω')} is not shown within {stable.ohm:g} Ω: such an electrode "
+                              "may not be stable (soil drying or freezing); consider improving it"))
+
+
+def _touch_voltage(ra: Reading, idn_ma: float, touch: _Touch, inputs: dict[str, object]) -> Finding:
+    idn_a = idn_ma / _MA_PER_A
+    raw = None if ra.value is None else ra.value * idn_a
+    # a product too large for a float is over any limit: keep it as an over-range bound
+    product = (Reading(value=raw, relation=ra.relation) if raw is not None and math.isfinite(raw)
+               else Reading(value=None, relation=">"))
+    side = compare_max(product, touch.volts)
+    words = {Side.WITHIN: "within", Side.BEYOND: "above"}.get(side, "not shown within")
+    return found(CHECK, _OUTCOME[side], value=product.value, relation=product.relation, limit=touch.volts,
+                 limit_kind="max", unit="V", method="ra_x_idn", basis=touch.basis,
+                 inputs=lambda: {**inputs, "rcd_residual_ma": idn_ma},
+                 detail=lambda: f"RA {ra.display('Ω')} × IΔn {idn_ma:g} mA = {_volts(product)}, {words} "
+                                f"the {touch.volts:g} V limit")

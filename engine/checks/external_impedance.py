@@ -25,12 +25,14 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
+from ..compiled import basis
 from ..context import CircuitView, Context
 from ..feeders import feeder_chain
+from ..findings import Finding, found
 from ..inheritance import board_source
 from ..plausibility import Withheld
 from ..readings import Reading
-from ..results import CheckResult, Outcome
+from ..results import Outcome
 from ._compare import Side, compare_max, incomplete
 from .zdb_feeder import zdb_vs_feeder
 
@@ -40,7 +42,7 @@ CHECK = "external_impedance"
 SECTION = "external_impedance"
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     try:
         yield from _declared(view, ctx)
     except Withheld as exc:  # the board's Zdb is judged apart from this circuit's Ze
@@ -50,18 +52,19 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
         yield board
 
 
-def _declared(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def _declared(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     rules = ctx.ruleset
     board = view.record.board
     if view.source("ze_ohm") == board_source(board) and feeder_chain(board, ctx) != ():
         return  # a sub-board's Zdb, not the supply's Ze (judged against its feeder instead)
-    ze = view.reading("ze_ohm")
+    read = view.read
+    ze = read.ze_ohm
     if ze is None or not rules.get(SECTION, "applies", False):
         return
-    basis = rules.basis(SECTION, "typical_max_ohm")
-    earthing = view.raw("earthing")
+    declared = basis(rules, SECTION, "typical_max_ohm")
+    earthing = read.earthing
     if earthing is None:
-        yield incomplete(CHECK, ["earthing"], basis=basis,
+        yield incomplete(CHECK, ["earthing"], basis=declared,
                          detail="the typical declared Ze depends on the earthing arrangement")
         return
     maxima: dict[str, float] = rules.value(SECTION, "typical_max_ohm")
@@ -71,7 +74,7 @@ def _declared(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     side = compare_max(ze, limit)
     method = "declared_maximum"
     value, relation = ze.value, ze.relation
-    ra = view.reading("ra_ohm")
+    ra = read.ra_ohm
     note = ""
     if earthing == "TT" and side is not Side.WITHIN and ra is not None and ze.exact and ra.exact:
         assert ze.value is not None and ra.value is not None
@@ -81,15 +84,16 @@ def _declared(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     inputs = {"earthing": earthing, "typical_max_ohm": limit, "ze": ze.to_json()}
     if side is Side.WITHIN:
         outcome = Outcome.PASS
-        text = f"Ze {ze.display('Ω')}{note} is within the {limit:g} Ω typically declared for {earthing}"
+        tail = ""
     else:
         outcome = Outcome.INVESTIGATE
-        text = (f"Ze {ze.display('Ω')}{note} is above the {limit:g} Ω typically declared for "
-                f"{earthing}: not a regulation limit, but confirm the supply with the network "
-                "operator and check that the design used this Ze")
+        tail = (": not a regulation limit, but confirm the supply with the network operator and check that "
+                "the design used this Ze")
         if earthing == "TT" and method == "declared_maximum":
-            text += "; for TT the figure excludes the installation's electrode (record RA)"
+            tail += "; for TT the figure excludes the installation's electrode (record RA)"
             inputs["missing"] = ["ra_ohm"] if ra is None else []
-    yield CheckResult(check=CHECK, outcome=outcome, value=value, relation=relation, limit=limit,
-                      limit_kind="max", unit="Ω", method=method, basis=basis, inputs=inputs,
-                      detail=text)
+    word = "within" if outcome is Outcome.PASS else "above"
+    yield found(CHECK, outcome, value=value, relation=relation, limit=limit, limit_kind="max", unit="Ω",
+                method=method, basis=declared, inputs=inputs,
+                detail=lambda: f"Ze {ze.display('Ω')}{note} is {word} the {limit:g} Ω typically declared for "
+                               f"{earthing}{tail}")

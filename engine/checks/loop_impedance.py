@@ -32,14 +32,17 @@ the handbook rule of thumb for measured Zs, IET OSG / GN3; IEC 60364-6 Annex C):
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from dataclasses import replace
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
+from types import MappingProxyType
 from typing import Any
 
+from ..compiled import MISS, basis, derived, group_memo, remember
 from ..context import CircuitView, Context
+from ..findings import Basis, BasisParts, Finding, Inputs, found, render
 from ..protection import Missing, earthing_system, positive, rule_of_thumb_limit
 from ..readings import Reading
-from ..results import CheckResult, Outcome
+from ..results import Outcome
 from ..ruleset import Ruleset
 from ..temperature import resistance_ratio, temperature_factor
 from ._compare import Side, compare_max, incomplete
@@ -50,15 +53,44 @@ __all__ = ["rule_of_thumb_holds", "run"]
 CHECK = "loop_impedance"
 _MA_PER_A = 1000.0
 _THUMB_KEY = "loop_impedance.thumb"
+_HOLDS_KEY = "loop_impedance.holds"
 _SLACK = 1e-9  # 0.96 / 1.20 is 0.7999999999999999 in binary: the 0.8 rule holds at 10 °C
+
+
+@dataclass(frozen=True, slots=True)
+class _Touch:
+    """Zs × IΔn ≤ 50 V (Table 41.5): the touch voltage and its basis."""
+
+    volts: float
+    basis: Basis
+
+
+@dataclass(frozen=True, slots=True)
+class _Thumb:
+    factor: float
+    basis: Basis
+
+
+def _touch(rules: Ruleset) -> _Touch:
+    return _Touch(volts=float(rules.value("rcd", "touch_voltage_v")),
+                  basis=basis(rules, "rcd", "touch_voltage_v"))
+
+
+def _thumb_rule(rules: Ruleset) -> _Thumb:
+    return _Thumb(factor=float(rules.value("max_zs", "rule_of_thumb_factor")),
+                  basis=basis(rules, "max_zs", "rule_of_thumb_factor"))
+
+
+def _alpha(rules: Ruleset) -> float:
+    return float(rules.value("temperature", "alpha_per_k"))
 
 
 def _thumb(ctx: Context, max_ohm: float) -> float:
     key = (_THUMB_KEY, type(max_ohm), max_ohm)
     try:
-        cached: float = ctx.cache[key]
+        cached: float = ctx.memo[key]
     except KeyError:
-        cached = ctx.cache[key] = rule_of_thumb_limit(ctx.ruleset, max_ohm)
+        cached = remember(ctx.memo, key, rule_of_thumb_limit(ctx.ruleset, max_ohm))
     return cached
 
 
@@ -67,12 +99,27 @@ def rule_of_thumb_holds(view: CircuitView, rules: Ruleset, factor: float) -> str
     theta_test, theta_max = view.get("test_temp_c"), view.get("insulation_temp_c")
     if theta_test is None or theta_max is None:
         return "the conductor temperatures are not known"
+    return _holds(rules, factor, theta_test, theta_max)
+
+
+def _holds(rules: Ruleset, factor: float, theta_test: Any, theta_max: Any) -> str | None:
+    """The answer of :func:`rule_of_thumb_holds` for known temperatures: pure, kept per ruleset."""
+    memo = group_memo(rules)
+    key = (_HOLDS_KEY, factor, type(theta_test), theta_test, type(theta_max), theta_max)
+    answer = memo.get(key, MISS)
+    if answer is MISS:
+        answer = remember(memo, key, _why_not(rules, factor, theta_test, theta_max))
+    said: str | None = answer
+    return said
+
+
+def _why_not(rules: Ruleset, factor: float, theta_test: Any, theta_max: Any) -> str | None:
     window = rules.get("max_zs", "rule_of_thumb_test_temp_c")
     if window and not float(window["min"]) <= float(theta_test) <= float(window["max"]):
         return (f"it holds for tests at {float(window['min']):g}–{float(window['max']):g} °C "
                 f"({rules.basis('max_zs', 'rule_of_thumb_test_temp_c')}); this test was at "
                 f"{float(theta_test):g} °C")
-    alpha = float(rules.value("temperature", "alpha_per_k"))
+    alpha = derived(rules, _alpha)
     whole = resistance_ratio(alpha, float(theta_test)) / resistance_ratio(alpha, float(theta_max))
     if factor > whole + _SLACK:
         return (f"{factor:g} × max does not cover the rise from {float(theta_test):g} °C to "
@@ -80,129 +127,153 @@ def rule_of_thumb_holds(view: CircuitView, rules: Ruleset, factor: float) -> str
     return None
 
 
-def _rcd_result(zs: Reading, idn_ma: float, rules: Ruleset, why: str,
-                inputs: dict[str, Any]) -> CheckResult:
-    touch_v = float(rules.value("rcd", "touch_voltage_v"))
+def _rcd_result(zs: Reading, idn_ma: float, rules: Ruleset, why: Any, inputs: Inputs) -> Finding:
+    """Fault protection by the RCD: Zs × IΔn ≤ 50 V. ``why`` is a sentence or renders one."""
+    touch = derived(rules, _touch)
+    touch_v = touch.volts
     limit = touch_v / (idn_ma / _MA_PER_A)
     side = compare_max(zs, limit)
-    outcome = {Side.WITHIN: Outcome.PASS, Side.BEYOND: Outcome.FAIL}.get(side, Outcome.INVESTIGATE)
+    outcome = _BY_SIDE[side]
     verdict = {Outcome.PASS: "within", Outcome.FAIL: "above"}.get(outcome, "not shown within")
-    return CheckResult(
-        check=CHECK, outcome=outcome, value=zs.value, relation=zs.relation, limit=limit,
-        limit_kind="max", unit="Ω", method="rcd_fault_protection",
-        basis=rules.basis("rcd", "touch_voltage_v"),
-        inputs={**inputs, "rcd_residual_ma": idn_ma, "touch_voltage_v": touch_v},
-        detail=f"{why}; fault protection rests on the {idn_ma:g} mA RCD: Zs {zs.display('Ω')} is "
-               f"{verdict} {touch_v:g} V / IΔn = {limit:.4g} Ω",
-    )
+    return found(CHECK, outcome, value=zs.value, relation=zs.relation, limit=limit, limit_kind="max",
+                 unit="Ω", method="rcd_fault_protection", basis=touch.basis,
+                 inputs=lambda: {**_built(inputs), "rcd_residual_ma": idn_ma, "touch_voltage_v": touch_v},
+                 detail=lambda: f"{render(why)}; fault protection rests on the {idn_ma:g} mA RCD: Zs "
+                                f"{zs.display('Ω')} is {verdict} {touch_v:g} V / IΔn = {limit:.4g} Ω")
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+_TT = MappingProxyType({"earthing": "TT"})  # shared, so read-only
+_BY_SIDE = {Side.WITHIN: Outcome.PASS, Side.BEYOND: Outcome.FAIL, Side.UNKNOWN: Outcome.INVESTIGATE}
+
+
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     rules = ctx.ruleset
-    zs = view.reading("zs_ohm")
-    idn = positive(view.raw("rcd_residual_ma"))
-    if earthing_system(view.raw("earthing")) == "TT" and idn is not None:
+    read = view.read
+    zs = read.zs_ohm
+    idn = positive(read.rcd_residual_ma)
+    if earthing_system(read.earthing) == "TT" and idn is not None:
         if zs is None:
-            yield incomplete(CHECK, ["zs_ohm"], basis=rules.basis("rcd", "touch_voltage_v"))
+            yield incomplete(CHECK, ["zs_ohm"], basis=derived(rules, _touch).basis)
         else:
-            yield _rcd_result(zs, idn, rules, "TT system", {"earthing": "TT"})
+            yield _rcd_result(zs, idn, rules, "TT system", _TT)
         return
     limit = zs_limit(view, ctx)
     if isinstance(limit, Missing):
-        yield incomplete(CHECK, list(limit.fields), detail=f"cannot set the maximum Zs: {limit.reason}")
+        reason = limit.reason
+        yield incomplete(CHECK, list(limit.fields), detail=lambda: f"cannot set the maximum Zs: {reason}")
         return
     if zs is None:
-        notes = limit.notes()
-        yield incomplete(CHECK, ["zs_ohm"], basis=limit.max_zs.basis, inputs=limit.inputs(),
-                         detail=f"needs Zs to decide{'; ' + notes if notes else ''}")
+        notes = limit.said
+        yield incomplete(CHECK, ["zs_ohm"], basis=limit.basis, inputs=limit.figures,
+                         detail=f"needs Zs to decide; {notes}" if notes else "needs Zs to decide")
         return
     yield _finish(_judge(view, ctx, zs, limit, idn), limit)
 
 
-def _finish(result: CheckResult, limit: ZsLimit) -> CheckResult:
+def _finish(result: Finding, limit: ZsLimit) -> Finding:
     """Say which recorded figures were refused, and never pass on a table value in doubt."""
-    notes = limit.notes()
-    detail = f"{result.detail}; {notes}" if notes else result.detail
+    notes = limit.said
+    said = result.detail
     if result.outcome is Outcome.PASS and limit.max_zs.doubtful and result.method != "rcd_fault_protection":
-        return replace(result, outcome=Outcome.INVESTIGATE,
-                       detail=f"{detail}; but the table value {limit.max_zs.ohm:g} Ω is in doubt: "
-                              f"{limit.max_zs.doubtful}")
-    return replace(result, detail=detail) if notes else result
+        max_zs = limit.max_zs
+        return result._replace(outcome=Outcome.INVESTIGATE,
+                               detail=lambda: f"{_with_notes(said, notes)}; but the table value "
+                                              f"{max_zs.ohm:g} Ω is in doubt: {max_zs.doubtful}")
+    return result._replace(detail=lambda: _with_notes(said, notes)) if notes else result
 
 
-def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: ZsLimit, idn: float | None) -> CheckResult:
+def _with_notes(detail: Any, notes: str) -> str:
+    text = render(detail)
+    return f"{text}; {notes}" if notes else text
+
+
+def _judge(view: CircuitView, ctx: Context, zs: Reading, limit: ZsLimit, idn: float | None) -> Finding:
     rules = ctx.ruleset
     max_zs = limit.max_zs
-    factor = float(rules.value("max_zs", "rule_of_thumb_factor"))
+    thumb_rule = derived(rules, _thumb_rule)
+    factor = thumb_rule.factor
     thumb = _thumb(ctx, max_zs.ohm)
     not_used = rule_of_thumb_holds(view, rules, factor)
-    inputs = {**limit.inputs(), "rule_of_thumb_limit": thumb, "rule_of_thumb_factor": factor}
-    if not_used:
-        inputs["rule_of_thumb_not_used"] = not_used
-    basis = f"{max_zs.basis}; {rules.basis('max_zs', 'rule_of_thumb_factor')}"
-    common: dict[str, Any] = {"check": CHECK, "unit": "Ω", "limit_kind": "max", "basis": basis}
+    figures = limit.figures
+
+    def inputs() -> dict[str, Any]:
+        out = {**figures, "rule_of_thumb_limit": thumb, "rule_of_thumb_factor": factor}
+        if not_used:
+            out["rule_of_thumb_not_used"] = not_used
+        return out
+
+    judged: BasisParts = (limit.basis, thumb_rule.basis) if limit.basis is not None else thumb_rule.basis
     if not_used is None and compare_max(zs, thumb) is Side.WITHIN:
-        return CheckResult(outcome=Outcome.PASS, value=zs.value, relation=zs.relation, limit=thumb,
-                           method="rule_of_thumb", inputs=inputs, **common,
-                           detail=f"Zs {zs.display('Ω')} is within {factor:g} × {max_zs.ohm:g} Ω = "
-                                  f"{thumb:g} Ω ({max_zs.device})")
+        return found(CHECK, Outcome.PASS, value=zs.value, relation=zs.relation, limit=thumb, limit_kind="max",
+                     unit="Ω", method="rule_of_thumb", basis=judged, inputs=inputs,
+                     detail=lambda: f"Zs {zs.display('Ω')} is within {factor:g} × {max_zs.ohm:g} Ω = "
+                                    f"{thumb:g} Ω ({max_zs.device})")
     side = compare_max(zs, max_zs.ohm)
     if side is not Side.WITHIN:
         if idn is not None:
-            return _rcd_result(zs, idn, rules, f"Zs exceeds the {max_zs.ohm:g} Ω maximum for "
-                               f"{max_zs.device}", inputs)
+            return _rcd_result(zs, idn, rules, lambda: f"Zs exceeds the {max_zs.ohm:g} Ω maximum for "
+                                                       f"{max_zs.device}", inputs)
         beyond = side is Side.BEYOND
-        return CheckResult(
-            outcome=Outcome.FAIL if beyond else Outcome.INVESTIGATE, value=zs.value,
-            relation=zs.relation, limit=max_zs.ohm, method="max_zs", inputs=inputs, **common,
-            detail=f"Zs {zs.display('Ω')} is above the {max_zs.ohm:g} Ω maximum for {max_zs.device}"
-            if beyond else f"the bounded reading {zs.display('Ω')} does not show Zs within "
-                           f"{max_zs.ohm:g} Ω ({max_zs.device})")
-    ze = view.reading("ze_ohm")
+        return found(CHECK, Outcome.FAIL if beyond else Outcome.INVESTIGATE, value=zs.value,
+                     relation=zs.relation, limit=max_zs.ohm, limit_kind="max", unit="Ω", method="max_zs",
+                     basis=judged, inputs=inputs,
+                     detail=(lambda: f"Zs {zs.display('Ω')} is above the {max_zs.ohm:g} Ω maximum for "
+                                     f"{max_zs.device}") if beyond
+                     else (lambda: f"the bounded reading {zs.display('Ω')} does not show Zs within "
+                                   f"{max_zs.ohm:g} Ω ({max_zs.device})"))
+    ze = view.read.ze_ohm
     if ze is None:
         why = (f"the rule of thumb is not used: {not_used}" if not_used
                else f"above {factor:g} × max ({thumb:g} Ω)")
-        return CheckResult(
-            outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=thumb,
-            method="rule_of_thumb", inputs={**inputs, "missing": ["ze_ohm"]}, **common,
-            detail=f"Zs {zs.display('Ω')} is within the {max_zs.ohm:g} Ω maximum but {why}; Ze "
-                   "would allow the temperature-corrected check")
-    return _hot(view, rules, zs, ze, limit, idn, inputs, common)
+        return found(CHECK, Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=thumb,
+                     limit_kind="max", unit="Ω", method="rule_of_thumb", basis=judged,
+                     inputs=lambda: {**inputs(), "missing": ["ze_ohm"]},
+                     detail=lambda: f"Zs {zs.display('Ω')} is within the {max_zs.ohm:g} Ω maximum but {why}; "
+                                    "Ze would allow the temperature-corrected check")
+    return _hot(view, rules, zs, ze, limit, idn, inputs, judged)
 
 
 def _hot(view: CircuitView, rules: Ruleset, zs: Reading, ze: Reading, limit: ZsLimit,
-         idn: float | None, inputs: dict[str, Any], common: dict[str, Any]) -> CheckResult:
+         idn: float | None, inputs: Any, judged: BasisParts) -> Finding:
     max_zs = limit.max_zs
-    alpha = float(rules.value("temperature", "alpha_per_k"))
+    alpha = derived(rules, _alpha)
     temps = view.get("insulation_temp_c"), view.get("test_temp_c")
     if temps[0] is None or temps[1] is None:  # only a user ruleset without defaults lacks them
-        return CheckResult(outcome=Outcome.INCOMPLETE, value=zs.value, relation=zs.relation,
-                           limit=max_zs.ohm, method="temperature_corrected", **common,
-                           inputs={**inputs, "missing": ["insulation_temp_c", "test_temp_c"]},
-                           detail="the temperature-corrected check needs the conductor temperatures")
+        return found(CHECK, Outcome.INCOMPLETE, value=zs.value, relation=zs.relation, limit=max_zs.ohm,
+                     limit_kind="max", unit="Ω", method="temperature_corrected", basis=judged,
+                     inputs=lambda: {**inputs(), "missing": ["insulation_temp_c", "test_temp_c"]},
+                     detail="the temperature-corrected check needs the conductor temperatures")
     theta_max, theta_test = float(temps[0]), float(temps[1])
     assert zs.value is not None  # within the maximum, so not over range
     zs_up, ze_low = zs.value, ze.lower  # worst case: Zs_hot grows with Zs and falls with Ze
     if ze_low > zs_up or 1.0 + alpha * (theta_test - 20.0) <= 0.0:
-        return CheckResult(
-            outcome=Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=max_zs.ohm,
-            method="temperature_corrected", inputs={**inputs, "ze": ze.to_json()}, **common,
-            detail=f"Ze {ze.display('Ω')} is above Zs {zs.display('Ω')}: the readings disagree")
+        return found(CHECK, Outcome.INVESTIGATE, value=zs.value, relation=zs.relation, limit=max_zs.ohm,
+                     limit_kind="max", unit="Ω", method="temperature_corrected", basis=judged,
+                     inputs=lambda: {**inputs(), "ze": ze.to_json()},
+                     detail=lambda: f"Ze {ze.display('Ω')} is above Zs {zs.display('Ω')}: the readings "
+                                    "disagree")
     factor = temperature_factor(alpha, theta_max, theta_test)
     hot = ze_low + (zs_up - ze_low) * factor
     exact = zs.exact and ze.exact
-    inputs = {**inputs, "factor": factor, "ze": ze.to_json(), "zs_measured": zs.to_json(),
-              "insulation_temp_c": theta_max, "test_temp_c": theta_test}
+
+    def hot_inputs() -> dict[str, Any]:
+        return {**_built(inputs), "factor": factor, "ze": ze.to_json(), "zs_measured": zs.to_json(),
+                "insulation_temp_c": theta_max, "test_temp_c": theta_test}
+
     if hot <= max_zs.ohm:
         outcome = Outcome.PASS
     elif idn is not None:
-        return _rcd_result(zs, idn, rules, f"Zs corrected to {theta_max:g} °C ({hot:.4g} Ω) exceeds "
-                           f"the {max_zs.ohm:g} Ω maximum for {max_zs.device}", inputs)
+        return _rcd_result(zs, idn, rules, lambda: f"Zs corrected to {theta_max:g} °C ({hot:.4g} Ω) exceeds "
+                                                   f"the {max_zs.ohm:g} Ω maximum for {max_zs.device}",
+                           hot_inputs)
     else:
         outcome = Outcome.FAIL if exact else Outcome.INVESTIGATE
     word = "within" if outcome is Outcome.PASS else "above"
-    return CheckResult(
-        outcome=outcome, value=hot, relation="=" if exact else "<", limit=max_zs.ohm,
-        method="temperature_corrected", inputs=inputs, **common,
-        detail=f"Ze + (Zs − Ze) × {factor:.3g} = {hot:.4g} Ω at {theta_max:g} °C is {word} the "
-               f"{max_zs.ohm:g} Ω maximum for {max_zs.device}")
+    return found(CHECK, outcome, value=hot, relation="=" if exact else "<", limit=max_zs.ohm,
+                 limit_kind="max", unit="Ω", method="temperature_corrected", basis=judged, inputs=hot_inputs,
+                 detail=lambda: f"Ze + (Zs − Ze) × {factor:.3g} = {hot:.4g} Ω at {theta_max:g} °C is {word} "
+                                f"the {max_zs.ohm:g} Ω maximum for {max_zs.device}")
+
+
+def _built(inputs: Inputs) -> Mapping[str, Any]:
+    return inputs() if callable(inputs) else inputs

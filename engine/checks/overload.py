@@ -29,8 +29,10 @@ from collections.abc import Iterator
 from typing import Any
 
 from ..cable_ratings import Candidates, iz_candidates
+from ..compiled import MISS, basis, remember
 from ..context import CircuitView, Context
-from ..results import CheckResult, Outcome
+from ..findings import Basis, BasisParts, Detail, Finding, found, render
+from ..results import Outcome
 from ..ruleset import Ruleset
 from ..standards import match_standard
 from ._compare import incomplete
@@ -40,29 +42,34 @@ __all__ = ["run"]
 CHECK = "overload"
 SECTION = "overload"
 _FACTORS = ("ambient_factor", "grouping_factor", "thermal_insulation_factor")
-_DESIGN = ("design_current_a", "device_rating_a", "line_mm2", "cable_iz_a")
 _TABLE_KEY = "overload.iz_candidates"
-_MISS: Any = object()
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    if not any(view.has(name) for name in _DESIGN):
+def _has_design(view: CircuitView) -> bool:
+    return (view.has("design_current_a") or view.has("device_rating_a") or view.has("line_mm2")
+            or view.has("cable_iz_a"))
+
+
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
+    if not _has_design(view):
         return
     rules = ctx.ruleset
-    basis = rules.basis(SECTION, "requirement")
-    rating, ib = view.raw("device_rating_a"), view.raw("design_current_a")
+    requirement = basis(rules, SECTION, "requirement")
+    read = view.read
+    rating, ib = read.device_rating_a, read.design_current_a
     if rating is None:
-        yield incomplete(CHECK, ["device_rating_a"], basis=basis,
+        yield incomplete(CHECK, ["device_rating_a"], basis=requirement,
                          detail="needs the device's rating In to compare with Ib and Iz")
         return
     rating = float(rating)
     if ib is not None:
-        within = float(ib) <= rating
-        yield CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=float(ib),
-                          limit=rating, limit_kind="max", unit="A", method="ib_le_in", basis=basis,
-                          inputs={"design_current_a": float(ib), "device_rating_a": rating},
-                          detail=f"Ib {float(ib):g} A is {'within' if within else 'above'} In {rating:g} A")
-    yield _in_le_iz(view, ctx, rating, basis)
+        ib_a = float(ib)
+        within = ib_a <= rating
+        yield found(CHECK, Outcome.PASS if within else Outcome.FAIL, value=ib_a, limit=rating,
+                    limit_kind="max", unit="A", method="ib_le_in", basis=requirement,
+                    inputs={"design_current_a": ib_a, "device_rating_a": rating},
+                    detail=lambda: f"Ib {ib_a:g} A is {'within' if within else 'above'} In {rating:g} A")
+    yield _in_le_iz(view, ctx, rating, requirement)
 
 
 def _factors(view: CircuitView) -> tuple[float, dict[str, float]]:
@@ -73,103 +80,116 @@ def _factors(view: CircuitView) -> tuple[float, dict[str, float]]:
     return product, values
 
 
-def _in_le_iz(view: CircuitView, ctx: Context, rating: float, basis: str) -> CheckResult:
+def _in_le_iz(view: CircuitView, ctx: Context, rating: float, requirement: Basis) -> Finding:
     rules = ctx.ruleset
     product, factors = _factors(view)
-    rewirable = match_standard(view.raw("device_standard"),
+    rewirable = match_standard(view.read.device_standard,
                                rules.get(SECTION, "rewirable_fuse_standards", []) or [])
     k = float(rules.value(SECTION, "rewirable_fuse_factor")) if rewirable else 1.0
     inputs: dict[str, Any] = {"device_rating_a": rating, "correction_factor": product, **factors}
+    rule: BasisParts = requirement
     if rewirable:
         inputs["rewirable_fuse_factor"] = k
-        basis = f"{basis}; {rules.basis(SECTION, 'rewirable_fuse_factor')}"
+        rule = (requirement, basis(rules, SECTION, "rewirable_fuse_factor"))
     table = _table(view, ctx)
-    designer = view.raw("cable_iz_a")
+    designer = view.read.cable_iz_a
     ring = _ring_rule(view, rules, rating)
     if ring is not None:
         return _ring(view, rules, ring, designer, table, product, inputs)
     if designer is not None:
-        return _designer(float(designer), table, product, rating, k, inputs, basis)
+        return _designer(float(designer), table, product, rating, k, inputs, rule)
     if table is None:
         missing = ["cable_iz_a"] + [n for n in ("line_mm2",) if view.raw(n) is None]
-        return incomplete(CHECK, missing, basis=basis, inputs=inputs,
+        return incomplete(CHECK, missing, basis=rule, inputs=inputs,
                           detail="needs Iz: the designer's Iz, or a copper cable's size, type and "
                                  "installation method the ruleset's tables hold")
-    return _from_table(table, product, rating, k, inputs, basis)
+    return _from_table(table, product, rating, k, inputs, rule)
 
 
 def _table(view: CircuitView, ctx: Context) -> Candidates | None:
-    """The fitting Iz table entries: a pure function of the ruleset and these values, cached per call."""
-    line = view.raw("line_mm2")
+    """The fitting Iz table entries: a pure function of the ruleset and these values, kept per ruleset."""
+    read = view.read
+    line = read.line_mm2
     if line is None:
         return None
     insulation = view.get("insulation_temp_c")
-    args = (view.raw("cable_type"), view.raw("reference_method"),
+    args = (read.cable_type, read.reference_method,
             float(insulation if insulation is not None else 70.0), 3 if view.get("phases") == 3 else 2,
             float(line), str(view.get("conductor_material")))
     key = (_TABLE_KEY, *args)
-    cached = ctx.cache.get(key, _MISS)
-    if cached is _MISS:
-        cached = ctx.cache[key] = iz_candidates(ctx.ruleset, cable_type=args[0], method=args[1],
-                                                insulation_c=args[2], loaded=args[3], line_mm2=args[4],
-                                                material=args[5])
-    found: Candidates | None = cached
-    return found
+    cached = ctx.memo.get(key, MISS)
+    if cached is MISS:
+        cached = remember(ctx.memo, key, iz_candidates(ctx.ruleset, cable_type=args[0], method=args[1],
+                                                       insulation_c=args[2], loaded=args[3], line_mm2=args[4],
+                                                       material=args[5]))
+    found_: Candidates | None = cached
+    return found_
 
 
-def _verdict(rating: float, limit: float, inputs: dict[str, Any], basis: str, what: str) -> CheckResult:
+def _verdict(rating: float, limit: float, inputs: dict[str, Any], rule: BasisParts, what: Detail) -> Finding:
     within = rating <= limit
-    return CheckResult(check=CHECK, outcome=Outcome.PASS if within else Outcome.FAIL, value=rating,
-                       limit=limit, limit_kind="max", unit="A", method="in_le_iz", basis=basis, inputs=inputs,
-                       detail=f"In {rating:g} A is {'within' if within else 'above'} {what} = {limit:.4g} A")
+    return found(CHECK, Outcome.PASS if within else Outcome.FAIL, value=rating, limit=limit, limit_kind="max",
+                 unit="A", method="in_le_iz", basis=rule, inputs=inputs,
+                 detail=lambda: f"In {rating:g} A is {'within' if within else 'above'} {render(what)} = "
+                                f"{limit:.4g} A")
+
+
+def _parts(rule: BasisParts, *more: str) -> BasisParts:
+    head = rule if isinstance(rule, tuple) else (rule,)
+    return (*head, *more)
 
 
 def _designer(iz: float, table: Candidates | None, product: float, rating: float, k: float,
-              inputs: dict[str, Any], basis: str) -> CheckResult:
+              inputs: dict[str, Any], rule: BasisParts) -> Finding:
     inputs = {**inputs, "iz_a": iz, "iz_basis": "record: cable_iz_a (the designer's figure)"}
     limit = k * iz
-    found = _verdict(rating, limit, inputs, f"{basis}; designer's Iz",
-                     f"{k:g} × the designer's Iz {iz:g} A" if k != 1.0 else f"the designer's Iz {iz:g} A")
-    if found.outcome is Outcome.PASS and table is not None and table.exact:
+    result = _verdict(rating, limit, inputs, _parts(rule, "designer's Iz"),
+                      (lambda: f"{k:g} × the designer's Iz {iz:g} A") if k != 1.0
+                      else (lambda: f"the designer's Iz {iz:g} A"))
+    if result.outcome is Outcome.PASS and table is not None and table.exact:
         tabulated = table.least[0] * product
         if rating > k * tabulated:
             inputs["table_iz_a"] = tabulated
-            return CheckResult(check=CHECK, outcome=Outcome.INVESTIGATE, value=rating, limit=limit,
-                               limit_kind="max", unit="A", method="in_le_iz", basis=f"{basis}; {table.basis}",
-                               inputs=inputs,
-                               detail=f"In {rating:g} A is within the designer's Iz {iz:g} A but above the "
-                                      f"{k * tabulated:.4g} A the table gives for {table.least[1]} (from "
-                                      "memory): confirm the designer's figure")
-    return found
+            least = table.least[1]
+            return found(CHECK, Outcome.INVESTIGATE, value=rating, limit=limit, limit_kind="max", unit="A",
+                         method="in_le_iz", basis=_parts(rule, table.basis), inputs=inputs,
+                         detail=lambda: f"In {rating:g} A is within the designer's Iz {iz:g} A but above the "
+                                        f"{k * tabulated:.4g} A the table gives for {least} (from memory): "
+                                        "confirm the designer's figure")
+    return result
 
 
 def _from_table(table: Candidates, product: float, rating: float, k: float, inputs: dict[str, Any],
-                basis: str) -> CheckResult:
+                rule: BasisParts) -> Finding:
     least, most = table.least, table.most
     inputs = {**inputs, "iz_a": least[0] * product, "iz_basis": table.basis, "iz_table_a": least[0]}
-    basis = f"{basis}; {table.basis} (from memory)"
+    rule = _parts(rule, f"{table.basis} (from memory)")
     if table.exact:
-        return _verdict(rating, k * least[0] * product, inputs, basis,
-                        f"{'0.725 × ' if k != 1.0 else ''}Iz of {least[1]} ({least[0]:g} A × {product:.3g})")
+        return _verdict(rating, k * least[0] * product, inputs, rule,
+                        lambda: f"{'0.725 × ' if k != 1.0 else ''}Iz of {least[1]} ({least[0]:g} A × "
+                                f"{product:.3g})")
     if rating <= k * least[0] * product:
-        return _verdict(rating, k * least[0] * product, inputs, basis,
-                        f"the least Iz any fitting table gives ({least[1]}, {least[0]:g} A × {product:.3g})")
+        return _verdict(rating, k * least[0] * product, inputs, rule,
+                        lambda: f"the least Iz any fitting table gives ({least[1]}, {least[0]:g} A × "
+                                f"{product:.3g})")
     if rating > k * most[0] * product:
         inputs["iz_a"] = most[0] * product
-        return _verdict(rating, k * most[0] * product, inputs, basis,
-                        f"the most Iz any fitting table gives ({most[1]}, {most[0]:g} A × {product:.3g})")
-    return incomplete(CHECK, list(table.unknown), basis=basis,
+        return _verdict(rating, k * most[0] * product, inputs, rule,
+                        lambda: f"the most Iz any fitting table gives ({most[1]}, {most[0]:g} A × "
+                                f"{product:.3g})")
+    unknown = table.unknown
+    return incomplete(CHECK, list(unknown), basis=rule,
                       inputs={**inputs, "iz_range_a": [least[0] * product, most[0] * product]},
-                      detail=f"In {rating:g} A is within the Iz of some installation methods and not others "
-                             f"({least[0] * product:.4g}–{most[0] * product:.4g} A): record "
-                             f"{' and '.join(table.unknown)}")
+                      detail=lambda: f"In {rating:g} A is within the Iz of some installation methods and not "
+                                     f"others ({least[0] * product:.4g}–{most[0] * product:.4g} A): record "
+                                     f"{' and '.join(unknown)}")
 
 
 def _ring_rule(view: CircuitView, rules: Ruleset, rating: float) -> dict[str, Any] | None:
     rule = rules.get(SECTION, "ring_rule")
     if not rule or view.get("circuit_form") != "ring":
         return None
-    line = view.raw("line_mm2")
+    line = view.read.line_mm2
     if (rating > float(rule["max_in_a"]) or line is None or float(line) < float(rule["min_line_mm2"])
             or view.get("conductor_material") != "copper"):
         return None
@@ -177,8 +197,8 @@ def _ring_rule(view: CircuitView, rules: Ruleset, rating: float) -> dict[str, An
 
 
 def _ring(view: CircuitView, rules: Ruleset, rule: dict[str, Any], designer: Any, table: Candidates | None,
-          product: float, inputs: dict[str, Any]) -> CheckResult:
-    basis = rules.basis(SECTION, "ring_rule")
+          product: float, inputs: dict[str, Any]) -> Finding:
+    ring_basis: BasisParts = basis(rules, SECTION, "ring_rule")
     need = float(rule["min_iz_a"])
     rating = inputs["device_rating_a"]
     if designer is not None:
@@ -187,20 +207,21 @@ def _ring(view: CircuitView, rules: Ruleset, rule: dict[str, Any], designer: Any
     elif table is not None:
         low, high = table.least[0] * product, table.most[0] * product
         how = f"the Iz of {table.least[1]} (from memory)" if table.exact else "the Iz of every fitting table"
-        basis = f"{basis}; {table.basis}"
+        ring_basis = _parts(ring_basis, table.basis)
     else:
-        return incomplete(CHECK, ["cable_iz_a", "reference_method"], basis=basis, inputs=inputs,
-                          detail=f"a ring on {rating:g} A needs Iz ≥ {need:g} A: give the designer's Iz, or "
-                                 "the cable type and installation method")
+        return incomplete(CHECK, ["cable_iz_a", "reference_method"], basis=ring_basis, inputs=inputs,
+                          detail=lambda: f"a ring on {rating:g} A needs Iz ≥ {need:g} A: give the designer's "
+                                         "Iz, or the cable type and installation method")
     if low < need <= high:
-        return incomplete(CHECK, list(table.unknown) if table is not None else ["cable_iz_a"], basis=basis,
-                          inputs={**inputs, "iz_range_a": [low, high]},
-                          detail=f"a {rating:g} A ring needs Iz ≥ {need:g} A; the fitting tables give "
-                                 f"{low:.4g}–{high:.4g} A: record the cable type and reference method")
+        return incomplete(CHECK, list(table.unknown) if table is not None else ["cable_iz_a"],
+                          basis=ring_basis, inputs={**inputs, "iz_range_a": [low, high]},
+                          detail=lambda: f"a {rating:g} A ring needs Iz ≥ {need:g} A; the fitting tables "
+                                         f"give {low:.4g}–{high:.4g} A: record the cable type and reference "
+                                         "method")
     iz = low if low >= need else high
     outcome = Outcome.PASS if iz >= need else Outcome.FAIL
-    return CheckResult(check=CHECK, outcome=outcome, value=iz, limit=need, limit_kind="min", unit="A",
-                       method="ring_433_1_204", basis=basis, inputs={**inputs, "iz_a": iz},
-                       detail=f"ring final circuit: {how} {iz:.4g} A is "
-                              f"{'at least' if iz >= need else 'below'} the {need:g} A a {rating:g} A ring "
-                              "needs")
+    return found(CHECK, outcome, value=iz, limit=need, limit_kind="min", unit="A", method="ring_433_1_204",
+                 basis=ring_basis, inputs={**inputs, "iz_a": iz},
+                 detail=lambda: f"ring final circuit: {how} {iz:.4g} A is "
+                                f"{'at least' if iz >= need else 'below'} the {need:g} A a {rating:g} A ring "
+                                "needs")

@@ -9,8 +9,10 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
+from ..compiled import basis
 from ..context import CircuitView, Context
-from ..results import CheckResult, Outcome
+from ..findings import Finding, found
+from ..results import Outcome
 from ._compare import incomplete
 
 __all__ = ["run"]
@@ -18,17 +20,12 @@ __all__ = ["run"]
 CHECK = "polarity"
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    basis = ctx.ruleset.basis("polarity", "requirement")
-    ok = view.raw("polarity_ok")
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
+    requirement = basis(ctx.ruleset, "polarity", "requirement")
+    ok = view.read.polarity_ok
     if ok is None:
-        yield incomplete(CHECK, ["polarity_ok"], basis=basis)
+        yield incomplete(CHECK, ["polarity_ok"], basis=requirement)
         return
-    yield CheckResult(
-        check=CHECK,
-        outcome=Outcome.PASS if ok else Outcome.FAIL,
-        method="recorded",
-        basis=basis,
-        detail="polarity recorded as correct" if ok
-        else "polarity recorded as incorrect: single-pole devices must be in the line conductor",
-    )
+    yield found(CHECK, Outcome.PASS if ok else Outcome.FAIL, method="recorded", basis=requirement,
+                detail="polarity recorded as correct" if ok
+                else "polarity recorded as incorrect: single-pole devices must be in the line conductor")

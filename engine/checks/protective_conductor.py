@@ -29,10 +29,12 @@ import math
 from collections.abc import Iterator
 from typing import Any
 
+from ..compiled import basis
 from ..context import CircuitView, Context
+from ..findings import Basis, BasisParts, Finding, found
 from ..protection import Device, time_bounds
 from ..readings import format_number
-from ..results import CheckResult, Outcome
+from ..results import Outcome
 from ..ruleset import Ruleset
 from ._compare import incomplete
 from ._zs_limit import circuit_device
@@ -55,44 +57,47 @@ def table_minimum_mm2(rules: Ruleset, line_mm2: float) -> float:
     return line_mm2 * float(rule["fraction_above"])
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     if not (view.has("cpc_mm2") or view.has("line_mm2")):
         return
     rules = ctx.ruleset
-    cpc, line = view.raw("cpc_mm2"), view.raw("line_mm2")
-    table_basis = rules.basis(SECTION, "table_minimum")
+    read = view.read
+    cpc, line = read.cpc_mm2, read.line_mm2
+    table = basis(rules, SECTION, "table_minimum")
     if cpc is None:
-        yield incomplete(CHECK, ["cpc_mm2"], basis=table_basis, detail="needs the cpc size")
+        yield incomplete(CHECK, ["cpc_mm2"], basis=table, detail="needs the cpc size")
         return
     cpc = float(cpc)
     inputs: dict[str, Any] = {"cpc_mm2": cpc}
     if line is not None:
-        need = table_minimum_mm2(rules, float(line))
-        inputs.update(line_mm2=float(line), table_minimum_mm2=need)
+        line_mm2 = float(line)
+        need = table_minimum_mm2(rules, line_mm2)
+        inputs.update(line_mm2=line_mm2, table_minimum_mm2=need)
         if cpc >= need:
-            yield CheckResult(check=CHECK, outcome=Outcome.PASS, value=cpc, limit=need, limit_kind="min",
-                              unit="mm²", method="table_minimum", basis=table_basis, inputs=inputs,
-                              detail=f"cpc {cpc:g} mm² meets the {need:g} mm² the table asks for a "
-                                     f"{float(line):g} mm² line")
+            yield found(CHECK, Outcome.PASS, value=cpc, limit=need, limit_kind="min", unit="mm²",
+                        method="table_minimum", basis=table, inputs=inputs,
+                        detail=lambda: f"cpc {cpc:g} mm² meets the {need:g} mm² the table asks for a "
+                                       f"{line_mm2:g} mm² line")
             return
     yield _adiabatic(view, ctx, cpc, inputs)
 
 
-def _k(view: CircuitView, rules: Ruleset) -> tuple[float, str] | None:
+def _k(view: CircuitView, rules: Ruleset) -> tuple[float, Basis] | None:
     material = str(view.get("conductor_material"))
     table: dict[str, float] = rules.get(SECTION, f"k_{material}", {}) or {}
     insulation = view.get("insulation_temp_c")
-    found = table.get(format_number(float(insulation))) if insulation is not None else None
-    if found is None:
+    found_k = table.get(format_number(float(insulation))) if insulation is not None else None
+    if found_k is None:
         return None
-    return float(found), rules.basis(SECTION, f"k_{material}")
+    return float(found_k), basis(rules, SECTION, f"k_{material}")
 
 
 def _rcd_upper(view: CircuitView, rules: Ruleset, current_a: float) -> float | None:
-    idn = view.raw("rcd_residual_ma")
+    read = view.read
+    idn = read.rcd_residual_ma
     if idn is None:
         return None
-    kind = "general" if view.raw("rcd_delayed") is False else "delayed"
+    kind = "general" if read.rcd_delayed is False else "delayed"
     idn_a = float(idn) / _MA_PER_A
     for multiple, suffix in ((5.0, "at_5idn"), (1.0, "at_idn")):
         if current_a >= multiple * idn_a:
@@ -100,17 +105,18 @@ def _rcd_upper(view: CircuitView, rules: Ruleset, current_a: float) -> float | N
     return None
 
 
-def _adiabatic(view: CircuitView, ctx: Context, cpc: float, inputs: dict[str, Any]) -> CheckResult:
+def _adiabatic(view: CircuitView, ctx: Context, cpc: float, inputs: dict[str, Any]) -> Finding:
     rules = ctx.ruleset
-    basis = rules.basis(SECTION, "adiabatic_max_s")
+    adiabatic = basis(rules, SECTION, "adiabatic_max_s")
     smaller = "below the table's minimum" if "table_minimum_mm2" in inputs else "of a line size not recorded"
-    zs, u0 = view.reading("zs_ohm"), view.get("nominal_voltage_v")
+    zs, u0 = view.read.zs_ohm, view.get("nominal_voltage_v")
     if zs is None or not zs.exact or zs.value is None or u0 is None:
-        return incomplete(CHECK, ["zs_ohm"], basis=basis, inputs=inputs,
-                          detail=f"cpc {cpc:g} mm² is {smaller}: the adiabatic check needs an exact Zs")
+        return incomplete(CHECK, ["zs_ohm"], basis=adiabatic, inputs=inputs,
+                          detail=lambda: f"cpc {cpc:g} mm² is {smaller}: the adiabatic check needs an exact "
+                                         "Zs")
     k = _k(view, rules)
     if k is None:
-        return incomplete(CHECK, ["insulation_temp_c"], basis=basis, inputs=inputs,
+        return incomplete(CHECK, ["insulation_temp_c"], basis=adiabatic, inputs=inputs,
                           detail="the ruleset has no k for this conductor's insulation and metal")
     current = float(u0) / zs.value
     device = circuit_device(view, ctx)
@@ -122,28 +128,34 @@ def _adiabatic(view: CircuitView, ctx: Context, cpc: float, inputs: dict[str, An
         upper = rcd if upper is None else min(upper, rcd)
     if upper is not None and upper > float(rules.value(SECTION, "adiabatic_max_s")):
         upper = None
-    inputs = {**inputs, "fault_current_a": current, "k": k[0], "time_upper_s": upper, "time_lower_s": lower,
-              "zs_ohm": zs.value, "u0_v": float(u0)}
-    basis = f"{basis}; {k[1]}" + (f"; {bounds.basis}" if bounds is not None and bounds.basis else "")
-    need_lower = math.sqrt(current * current * lower) / k[0]
+    k_value = k[0]
+    inputs = {**inputs, "fault_current_a": current, "k": k_value, "time_upper_s": upper,
+              "time_lower_s": lower, "zs_ohm": zs.value, "u0_v": float(u0)}
+    rule: BasisParts = (adiabatic, k[1], bounds.basis) if bounds is not None and bounds.basis \
+        else (adiabatic, k[1])
+    need_lower = math.sqrt(current * current * lower) / k_value
     if upper is not None:
-        need = math.sqrt(current * current * upper) / k[0]
+        need = math.sqrt(current * current * upper) / k_value
         inputs["minimum_mm2"] = need
         if cpc >= need:
-            return CheckResult(check=CHECK, outcome=Outcome.PASS, value=cpc, limit=need, limit_kind="min",
-                               unit="mm²", method="adiabatic", basis=basis, inputs=inputs,
-                               detail=f"cpc {cpc:g} mm² ≥ √(I²t)/k = √({current:.4g}² × {upper:g})/{k[0]:g} "
-                                      f"= {need:.3g} mm² (I = U0/Zs, t within {upper:g} s)")
+            return found(CHECK, Outcome.PASS, value=cpc, limit=need, limit_kind="min", unit="mm²",
+                         method="adiabatic", basis=rule, inputs=inputs,
+                         detail=lambda: f"cpc {cpc:g} mm² ≥ √(I²t)/k = √({current:.4g}² × {upper:g})/"
+                                        f"{k_value:g} = {need:.3g} mm² (I = U0/Zs, t within {upper:g} s)")
     if cpc < need_lower:
-        return CheckResult(check=CHECK, outcome=Outcome.FAIL, value=cpc, limit=need_lower, limit_kind="min",
-                           unit="mm²", method="adiabatic", basis=basis, inputs=inputs,
-                           detail=f"cpc {cpc:g} mm² < √(I²t)/k = √({current:.4g}² × {lower:g})/{k[0]:g} = "
-                                  f"{need_lower:.3g} mm²: at {current:.4g} A the device takes more than "
-                                  f"{lower:g} s")
-    why = (f"needs {inputs['minimum_mm2']:.3g} mm² if the device takes its full {upper:g} s"
-           if upper is not None else f"the tables do not bound the device's time at {current:.4g} A")
-    return CheckResult(check=CHECK, outcome=Outcome.INVESTIGATE, value=cpc,
-                       limit=inputs.get("minimum_mm2"), limit_kind="min" if upper is not None else None,
-                       unit="mm²", method="adiabatic", basis=basis, inputs=inputs,
-                       detail=f"cpc {cpc:g} mm² is {smaller} and {why}: the maker's let-through energy (I²t) "
-                              "decides")
+        return found(CHECK, Outcome.FAIL, value=cpc, limit=need_lower, limit_kind="min", unit="mm²",
+                     method="adiabatic", basis=rule, inputs=inputs,
+                     detail=lambda: f"cpc {cpc:g} mm² < √(I²t)/k = √({current:.4g}² × {lower:g})/"
+                                    f"{k_value:g} = {need_lower:.3g} mm²: at {current:.4g} A the device "
+                                    f"takes more than {lower:g} s")
+    minimum = inputs.get("minimum_mm2")
+
+    def why() -> str:
+        return (f"needs {minimum:.3g} mm² if the device takes its full {upper:g} s" if upper is not None
+                else f"the tables do not bound the device's time at {current:.4g} A")
+
+    return found(CHECK, Outcome.INVESTIGATE, value=cpc, limit=minimum,
+                 limit_kind="min" if upper is not None else None, unit="mm²", method="adiabatic", basis=rule,
+                 inputs=inputs,
+                 detail=lambda: f"cpc {cpc:g} mm² is {smaller} and {why()}: the maker's let-through energy "
+                                "(I²t) decides")

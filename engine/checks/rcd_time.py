@@ -22,11 +22,14 @@ Invariants:
 from __future__ import annotations
 
 from collections.abc import Iterator
-from dataclasses import replace
+from dataclasses import dataclass
+from types import MappingProxyType
 
+from ..compiled import basis, remember
 from ..context import CircuitView, Context
+from ..findings import Basis, Finding, found, inputs_of, render
 from ..readings import Reading
-from ..results import CheckResult, LimitKind, Outcome
+from ..results import LimitKind, Outcome
 from ..ruleset import Ruleset
 from ._compare import Side, compare_max, compare_min, incomplete
 from ._rcd import rcd_evidence
@@ -38,7 +41,7 @@ SECTION = "rcd"
 
 
 def _is_delayed(view: CircuitView, rules: Ruleset) -> bool:
-    recorded = view.raw("rcd_delayed")
+    recorded = view.read.rcd_delayed
     if recorded is not None:
         return bool(recorded)
     assumed = bool(rules.value(SECTION, "delayed_when_unrecorded"))
@@ -46,92 +49,104 @@ def _is_delayed(view: CircuitView, rules: Ruleset) -> bool:
     return assumed
 
 
-def _without_idn(result: CheckResult, evidence: str) -> CheckResult:
+def _without_idn(result: Finding, evidence: str) -> Finding:
     """No IΔn: a time within the limit does not show the RCD works at its rated current."""
     if result.outcome is not Outcome.PASS:
         return result
-    return replace(result, outcome=Outcome.INCOMPLETE,
-                   inputs={**result.inputs, "missing": ["rcd_residual_ma"], "rcd_inferred_from": evidence},
-                   detail=f"{result.detail}, but the RCD's IΔn is not recorded, so the test "
-                          "current is not shown")
+    said = result.detail
+    return result._replace(
+        outcome=Outcome.INCOMPLETE,
+        inputs=lambda: {**inputs_of(result), "missing": ["rcd_residual_ma"], "rcd_inferred_from": evidence},
+        detail=lambda: f"{render(said)}, but the RCD's IΔn is not recorded, so the test current is not shown")
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     evidence = rcd_evidence(view)
     if evidence is None:
         return
     results = list(_run(view, ctx))
-    if view.raw("rcd_residual_ma") is None:
+    if view.read.rcd_residual_ma is None:
         results = [_without_idn(r, evidence) for r in results]
     yield from results
 
 
-def _run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
+_TESTS = (("IΔn", "rcd_trip_ms", "at_idn"), ("5 IΔn", "rcd_trip_5x_ms", "at_5idn"))
+
+
+def _run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     rules = ctx.ruleset
     delayed = _is_delayed(view, rules)
     kind = "S" if delayed else "general"
-    for multiple, field, suffix in (("IΔn", "rcd_trip_ms", "at_idn"), ("5 IΔn", "rcd_trip_5x_ms", "at_5idn")):
+    for multiple, field, suffix in _TESTS:
         low_key = f"delayed_min_ms_{suffix}" if delayed else None
         high_key = f"{'delayed' if delayed else 'general'}_max_ms_{suffix}"
-        reading = view.reading(field)
+        reading = view.raw(field)
         if reading is None:
             if suffix == "at_idn" or rules.get(SECTION, "require_5idn_test", False):
-                yield incomplete(CHECK, [field], basis=rules.basis(SECTION, high_key),
+                yield incomplete(CHECK, [field], basis=basis(rules, SECTION, high_key),
                                  inputs={"test": multiple, "rcd_kind": kind})
             continue
         yield _window(ctx, reading, multiple, kind, low_key, high_key, f"trip_time_{suffix}")
-    half = view.raw("rcd_half_no_trip")
+    half = view.read.rcd_half_no_trip
     if half is not None:
-        yield CheckResult(
-            check=CHECK, outcome=Outcome.PASS if half else Outcome.FAIL, method="half_idn_no_trip",
-            basis=rules.basis(SECTION, "half_idn_must_not_trip"), inputs={"test": "½ IΔn"},
-            detail="did not trip at ½ IΔn, as required" if half
-            else "tripped at ½ IΔn: the device must not operate at half its rated residual current")
+        yield found(CHECK, Outcome.PASS if half else Outcome.FAIL, method="half_idn_no_trip",
+                    basis=basis(rules, SECTION, "half_idn_must_not_trip"), inputs=_HALF,
+                    detail="did not trip at ½ IΔn, as required" if half
+                    else "tripped at ½ IΔn: the device must not operate at half its rated residual current")
 
 
-# The limits of a window depend on the ruleset alone: looked up once per verify call and
-# kept in ctx.cache, not four ruleset lookups per reading (tests/bench). A missing value
-# still raises here, at the same point, so the error and the results before it are as before.
+_HALF = MappingProxyType({"test": "½ IΔn"})  # shared by every such result, so read-only
+
+
+@dataclass(frozen=True, slots=True)
+class _Window:
+    high: float
+    low: float | None
+    high_basis: Basis
+    low_basis: Basis | None
+
+
+# The limits of a window depend on the ruleset alone: looked up once per ruleset and kept in
+# its group memo, not four ruleset lookups per reading (tests/bench). A missing value still
+# raises here, at the same point, so the error and the results before it are as before.
 _LIMITS_KEY = "rcd_time.limits"
 
 
-def _limits(ctx: Context, low_key: str | None,
-            high_key: str) -> tuple[float, float | None, str, str | None]:
-    """(max ms, min ms or None, basis of the max, basis of the min or None)."""
+def _limits(ctx: Context, low_key: str | None, high_key: str) -> _Window:
     key = (_LIMITS_KEY, low_key, high_key)
     try:
-        cached: tuple[float, float | None, str, str | None] = ctx.cache[key]
+        cached: _Window = ctx.memo[key]
     except KeyError:
         rules = ctx.ruleset
         high = float(rules.value(SECTION, high_key))
         low = float(rules.value(SECTION, low_key)) if low_key else None
-        cached = ctx.cache[key] = (high, low, rules.basis(SECTION, high_key),
-                                   rules.basis(SECTION, low_key) if low_key else None)
+        cached = remember(ctx.memo, key, _Window(high, low, basis(rules, SECTION, high_key),
+                                                 basis(rules, SECTION, low_key) if low_key else None))
     return cached
 
 
 def _window(ctx: Context, reading: Reading, multiple: str, kind: str, low_key: str | None,
-            high_key: str, method: str) -> CheckResult:
-    high, low, high_basis, low_basis = _limits(ctx, low_key, high_key)
-    shown = reading.display("ms")
-    limit, basis = high, high_basis
+            high_key: str, method: str) -> Finding:
+    window = _limits(ctx, low_key, high_key)
+    high, low = window.high, window.low
+    limit, rule = high, window.high_basis
     limit_kind: LimitKind = "max"
     side_high = compare_max(reading, high)
     side_low = compare_min(reading, low) if low is not None else Side.WITHIN
     if side_high is Side.BEYOND:
-        outcome, text = Outcome.FAIL, f"{shown} at {multiple} is above the {high:g} ms maximum"
+        outcome, text = Outcome.FAIL, "{shown} at {multiple} is above the {high:g} ms maximum"
     elif side_low is Side.BEYOND:
-        assert low is not None and low_basis is not None
-        limit, limit_kind, basis = low, "min", low_basis
-        outcome, text = Outcome.FAIL, (f"{shown} at {multiple} is below the {low:g} ms a type S "
-                                       "device must not trip within (loss of discrimination)")
+        assert low is not None and window.low_basis is not None
+        limit, limit_kind, rule = low, "min", window.low_basis
+        outcome, text = Outcome.FAIL, ("{shown} at {multiple} is below the {low:g} ms a type S device must "
+                                       "not trip within (loss of discrimination)")
     elif side_high is Side.UNKNOWN or side_low is Side.UNKNOWN:
-        outcome, text = Outcome.INVESTIGATE, f"the bounded reading {shown} at {multiple} settles nothing"
+        outcome, text = Outcome.INVESTIGATE, "the bounded reading {shown} at {multiple} settles nothing"
     else:
-        window = f"{low:g}–{high:g} ms" if low is not None else f"≤ {high:g} ms"
-        outcome, text = Outcome.PASS, f"{shown} at {multiple} is within {window}"
-    return CheckResult(
-        check=CHECK, outcome=outcome, value=reading.value, relation=reading.relation, limit=limit,
-        limit_kind=limit_kind, unit="ms", method=method,
-        basis=basis, inputs={"test": multiple, "rcd_kind": kind, "max_ms": high, "min_ms": low},
-        detail=f"{kind} RCD: {text}")
+        outcome, text = Outcome.PASS, "{shown} at {multiple} is within {window}"
+    return found(CHECK, outcome, value=reading.value, relation=reading.relation, limit=limit,
+                 limit_kind=limit_kind, unit="ms", method=method, basis=rule,
+                 inputs=lambda: {"test": multiple, "rcd_kind": kind, "max_ms": high, "min_ms": low},
+                 detail=lambda: f"{kind} RCD: " + text.format(
+                     shown=reading.display("ms"), multiple=multiple, high=high, low=low,
+                     window=f"{low:g}–{high:g} ms" if low is not None else f"≤ {high:g} ms"))

@@ -20,11 +20,15 @@ Invariants:
 from __future__ import annotations
 
 from collections.abc import Iterator
+from dataclasses import dataclass
 from typing import Any
 
+from ..compiled import basis, derived
 from ..context import CircuitView, Context
 from ..feeders import FeederProblem, upstream_drop
-from ..results import CheckResult, Outcome
+from ..findings import Finding, found
+from ..results import Outcome
+from ..ruleset import Ruleset
 from ..vdrop import NoDrop, own_drop
 from ._compare import incomplete
 
@@ -34,28 +38,48 @@ CHECK = "voltage_drop"
 _QUICK_METHODS = frozenset({"r1r2_quick", "ring_r1r2_quick", "three_phase_quick"})
 
 
-def limit_pct(view: CircuitView, route_length_m: float) -> tuple[float, float, str]:
-    """(base %, long-run allowance %, words) for the circuit's supply and load type."""
-    rules = view.ruleset
-    supply = str(view.get("supply"))
-    load = str(view.get("load_type"))
-    table: dict[str, dict[str, float]] = rules.value(CHECK, "limits_pct")
-    base = float(table[supply][load])
-    threshold = float(rules.value(CHECK, "long_run_threshold_m"))
-    per_m = float(rules.value(CHECK, "long_run_allowance_pct_per_m"))
-    cap = float(rules.value(CHECK, "long_run_allowance_cap_pct"))
-    allowance = min(cap, max(0.0, route_length_m - threshold) * per_m)
+@dataclass(frozen=True, slots=True)
+class _Limits:
+    table: dict[str, dict[str, float]]
+    threshold: float
+    per_m: float
+    cap: float
+
+
+def _limits(rules: Ruleset) -> _Limits:
+    return _Limits(table=rules.value(CHECK, "limits_pct"),
+                   threshold=float(rules.value(CHECK, "long_run_threshold_m")),
+                   per_m=float(rules.value(CHECK, "long_run_allowance_pct_per_m")),
+                   cap=float(rules.value(CHECK, "long_run_allowance_cap_pct")))
+
+
+def _words(base: float, load: str, supply: str, allowance: float, route_length_m: float) -> str:
     words = f"{base:g} % {'lighting' if load == 'lighting' else 'other uses'}, {supply} supply"
     if allowance > 0:
         words += f", +{allowance:.3g} % for {route_length_m:g} m of route"
-    return base, allowance, words
+    return words
 
 
-def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
-    basis = ctx.ruleset.basis(CHECK, "limits_pct")
+def limit_pct(view: CircuitView, route_length_m: float) -> tuple[float, float, str]:
+    """(base %, long-run allowance %, words) for the circuit's supply and load type."""
+    base, allowance, load, supply = _limit_pct(view, route_length_m)
+    return base, allowance, _words(base, load, supply, allowance, route_length_m)
+
+
+def _limit_pct(view: CircuitView, route_length_m: float) -> tuple[float, float, str, str]:
+    supply = str(view.get("supply"))
+    load = str(view.get("load_type"))
+    limits = derived(view.ruleset, _limits)
+    base = float(limits.table[supply][load])
+    allowance = min(limits.cap, max(0.0, route_length_m - limits.threshold) * limits.per_m)
+    return base, allowance, load, supply
+
+
+def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
+    table = basis(ctx.ruleset, CHECK, "limits_pct")
     own = own_drop(view)
     if isinstance(own, NoDrop):
-        yield incomplete(CHECK, own.missing, detail=own.detail, basis=basis, inputs=own.inputs)
+        yield incomplete(CHECK, own.missing, detail=own.detail, basis=table, inputs=own.inputs)
         return
     upstream = upstream_drop(view.record.board, ctx)
     if view.source("board_fed_from") is not None:
@@ -63,40 +87,46 @@ def run(view: CircuitView, ctx: Context) -> Iterator[CheckResult]:
     inputs: dict[str, Any] = {**own.inputs, "circuit_v": own.volts}
     if isinstance(upstream, FeederProblem):
         inputs["error"] = upstream.as_dict()
-        yield CheckResult(check=CHECK, outcome=Outcome.INCOMPLETE, method=own.method, basis=basis,
-                          detail=f"the drop from the origin cannot be found: {upstream.message}; "
-                                 f"this circuit's own drop is {own.volts:.3g} V",
-                          inputs=inputs)
+        message = upstream.message
+        yield found(CHECK, Outcome.INCOMPLETE, method=own.method, basis=table, inputs=inputs,
+                    detail=lambda: f"the drop from the origin cannot be found: {message}; "
+                                   f"this circuit's own drop is {own.volts:.3g} V")
         return
     total = own.volts + upstream.volts
-    own_length = view.raw("length_m")
+    own_length = view.read.length_m
     route = (float(own_length) if own_length is not None else 0.0) + upstream.length_m
-    base, allowance, words = limit_pct(view, route)
+    base, allowance, load, supply = _limit_pct(view, route)
     u0 = float(view.get("nominal_voltage_v"))
     if u0 <= 0:
-        yield incomplete(CHECK, ["nominal_voltage_v"], basis=basis, inputs=inputs,
-                         detail=f"U0 {u0:g} V is not usable for the limit")
+        yield incomplete(CHECK, ["nominal_voltage_v"], basis=table, inputs=inputs,
+                         detail=lambda: f"U0 {u0:g} V is not usable for the limit")
         return
     limit = u0 * (base + allowance) / 100.0
-    inputs.update(upstream_v=upstream.volts,
-                  upstream=[p.feeder for p in upstream.parts],
-                  upstream_parts=[{"feeder": p.feeder, "volts": p.volts, "method": p.method}
-                                  for p in upstream.parts],
-                  u0_v=u0, limit_pct=base + allowance, limit_basis=words,
-                  route_length_m=route)
-    percent = 100.0 * total / u0
-    split = (f"{own.volts:.3g} V here + {upstream.volts:.3g} V upstream "
-             f"({', '.join(p.feeder for p in upstream.parts)}) = " if upstream.parts else "")
-    figure = f"{split}{total:.3g} V ({percent:.2f} % of {u0:g} V) by {own.explanation}"
+    parts = upstream.parts
+
+    def words() -> str:
+        return _words(base, load, supply, allowance, route)
+
+    def all_inputs() -> dict[str, Any]:
+        return {**inputs, "upstream_v": upstream.volts, "upstream": [p.feeder for p in parts],
+                "upstream_parts": [{"feeder": p.feeder, "volts": p.volts, "method": p.method} for p in parts],
+                "u0_v": u0, "limit_pct": base + allowance, "limit_basis": words(), "route_length_m": route}
+
+    def figure() -> str:
+        percent = 100.0 * total / u0
+        split = (f"{own.volts:.3g} V here + {upstream.volts:.3g} V upstream "
+                 f"({', '.join(p.feeder for p in parts)}) = " if parts else "")
+        return f"{split}{total:.3g} V ({percent:.2f} % of {u0:g} V) by {own.explanation}"
+
     if total <= limit:
         outcome = Outcome.PASS
-        detail = f"drop {figure}, within the {limit:.3g} V limit ({words})"
+        detail = lambda: f"drop {figure()}, within the {limit:.3g} V limit ({words()})"  # noqa: E731
     elif own.method in _QUICK_METHODS:
         outcome = Outcome.INVESTIGATE
-        detail = (f"quick drop {figure} exceeds the {limit:.3g} V limit ({words}); give the line size "
-                  f"and cpc size (or R2) so R1+R2 can be split before deciding")
+        detail = lambda: (f"quick drop {figure()} exceeds the {limit:.3g} V limit ({words()}); give the "  # noqa: E731
+                          "line size and cpc size (or R2) so R1+R2 can be split before deciding")
     else:
         outcome = Outcome.FAIL
-        detail = f"drop {figure} exceeds the {limit:.3g} V limit ({words})"
-    yield CheckResult(check=CHECK, outcome=outcome, value=total, limit=limit, limit_kind="max",
-                      unit="V", method=own.method, basis=basis, detail=detail, inputs=inputs)
+        detail = lambda: f"drop {figure()} exceeds the {limit:.3g} V limit ({words()})"  # noqa: E731
+    yield found(CHECK, outcome, value=total, limit=limit, limit_kind="max", unit="V", method=own.method,
+                basis=table, detail=detail, inputs=all_inputs)

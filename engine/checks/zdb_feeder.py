@@ -29,12 +29,15 @@ from __future__ import annotations
 
 from typing import Any
 
+from ..compiled import derived
 from ..context import CircuitView, Context
 from ..feeders import FeederProblem, feeder_chain
+from ..findings import Basis, Finding, found
 from ..inheritance import board_plan, board_source, inherit
 from ..plausibility import Withheld
 from ..records import CircuitRecord
-from ..results import CheckResult, Outcome
+from ..results import Outcome
+from ..ruleset import Ruleset
 from ._compare import incomplete
 
 __all__ = ["METHOD", "zdb_vs_feeder"]
@@ -44,7 +47,7 @@ METHOD = "zdb_vs_feeder"
 _TOLERANCE = "loop_consistency"
 
 
-def zdb_vs_feeder(view: CircuitView, ctx: Context) -> CheckResult | None:
+def zdb_vs_feeder(view: CircuitView, ctx: Context) -> Finding | None:
     """The board's Zdb against its feeder, for a circuit of that board (``None``: does not apply)."""
     board = view.record.board
     if ctx.site is None or board not in ctx.site.boards:
@@ -56,7 +59,7 @@ def zdb_vs_feeder(view: CircuitView, ctx: Context) -> CheckResult | None:
         except Withheld as exc:
             found = exc.result(CHECK, ("", ""))
         ctx.cache[key] = found
-    result: CheckResult | None = ctx.cache[key]
+    result: Finding | None = ctx.cache[key]
     return result
 
 
@@ -65,16 +68,19 @@ def _board_view(board: str, ctx: Context) -> CircuitView:
     assert ctx.site is not None
     plan = board_plan(board, ctx.by_board.get(board, ()), ctx.site)
     blank, sources = inherit(CircuitRecord(board=board, circuit=""), plan)
-    return CircuitView(blank, ctx.ruleset, sources)
+    return CircuitView(blank, ctx.ruleset, sources, tracking=ctx.tracking)
 
 
-def _judge(board: str, ctx: Context) -> CheckResult | None:
+def _basis(rules: Ruleset) -> Basis:
+    return Basis(id=f"{_TOLERANCE}.basis", text=f"{rules.value(_TOLERANCE, 'basis')}, at a board: Zdb = Ze "
+                                                 "upstream + R1+R2 of the circuit feeding it")
+
+
+def _judge(board: str, ctx: Context) -> Finding | None:
     here = _board_view(board, ctx)
     if here.source("ze_ohm") != board_source(board):
         return None  # the board record gives no Zdb
-    rules = ctx.ruleset
-    basis = (f"{rules.value(_TOLERANCE, 'basis')}, at a board: Zdb = Ze upstream + R1+R2 of the "
-             "circuit feeding it")
+    basis = derived(ctx.ruleset, _basis)
     chain = feeder_chain(board, ctx)
     if not chain:
         return None  # at the origin: Zdb there is the supply's Ze
@@ -114,8 +120,8 @@ def _tolerance(ctx: Context, expected: float) -> float:
         + float(rules.value(_TOLERANCE, "tolerance_fraction")) * expected
 
 
-def _verdict(board: str, zdb: float, ze: float, ze_source: str, ref: str, r1r2: float, basis: str,
-             ctx: Context) -> CheckResult:
+def _verdict(board: str, zdb: float, ze: float, ze_source: str, ref: str, r1r2: float, basis: Basis,
+             ctx: Context) -> Finding:
     expected = ze + r1r2
     tol = _tolerance(ctx, expected)
     deviation = zdb - expected
@@ -136,5 +142,5 @@ def _verdict(board: str, zdb: float, ze: float, ze_source: str, ref: str, r1r2: 
         outcome = Outcome.INVESTIGATE
         detail = (f"Zdb {zdb:.3g} Ω of board {board} is {abs(deviation):.3g} Ω {side} {what}, beyond "
                   f"±{tol:.3g} Ω; check the readings and the sub-main's connections")
-    return CheckResult(check=CHECK, outcome=outcome, value=abs(deviation), limit=tol, limit_kind="max",
-                       unit="Ω", method=METHOD, basis=basis, inputs=inputs, detail=detail)
+    return found(CHECK, outcome, value=abs(deviation), limit=tol, limit_kind="max", unit="Ω", method=METHOD,
+                 basis=basis, inputs=inputs, detail=detail)

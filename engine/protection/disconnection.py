@@ -19,15 +19,19 @@ Invariants:
   conditions (411.6.4) need the designer's figure.
 - Defaults (``circuit_role``, ``circuit_form``, ``nominal_voltage_v``) are read
   through the view only when the answer depends on them, so only those used
-  are reported.
+  are reported. What the ruleset makes of the values read is a pure function
+  of them, kept per ruleset (:mod:`engine.compiled`): the answers are shared,
+  immutable objects.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TypeVar
 
+from ..compiled import MISS, derived, group_memo, remember
 from ..context import CircuitView
 from ..ruleset import Ruleset
 from .common import Missing, positive
@@ -35,6 +39,7 @@ from .common import Missing, positive
 __all__ = ["Disconnection", "disconnection_time", "earthing_system", "regulation_time"]
 
 SECTION = "disconnection"
+T = TypeVar("T")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -61,9 +66,12 @@ def _table_time(rules: Ruleset, system: str, u0: float) -> float | None:
     return None
 
 
+def _scope_limits(rules: Ruleset) -> tuple[float, float]:
+    return float(rules.value(SECTION, "final_socket_max_a")), float(rules.value(SECTION, "final_fixed_max_a"))
+
+
 def _in_table_scope(view: CircuitView, rules: Ruleset, rating: float) -> bool | Missing:
-    socket_max = float(rules.value(SECTION, "final_socket_max_a"))
-    fixed_max = float(rules.value(SECTION, "final_fixed_max_a"))
+    socket_max, fixed_max = derived(rules, _scope_limits)
     if rating <= min(socket_max, fixed_max):
         return True  # within scope whatever the circuit feeds
     if rating > max(socket_max, fixed_max):
@@ -85,35 +93,13 @@ def _reduced_low_voltage(rules: Ruleset, u0: float) -> Disconnection | None:
                          reason=f"reduced low voltage circuit, U0 = {u0:g} V")
 
 
-def regulation_time(view: CircuitView, rules: Ruleset) -> Disconnection | Missing:
-    """The time the regulation gives the circuit, without the record's own figure."""
-    u0_raw = view.get("nominal_voltage_v")
-    u0 = None if u0_raw is None else float(u0_raw)
-    if u0 is not None:
-        reduced = _reduced_low_voltage(rules, u0)
-        if reduced is not None:
-            return reduced
-    system = earthing_system(view.raw("earthing"))
-    if system is None:
-        return Missing(fields=("earthing",), reason="disconnection times depend on the earthing system")
-    if system == "IT":
-        return Missing(fields=("max_disconnection_s",),
-                       reason="IT systems: the second-fault time (411.6.4) is the designer's")
-    other_key = "other_tn_s" if system == "TN" else "other_tt_s"
-    if view.get("circuit_role") == "distribution":
-        return Disconnection(seconds=float(rules.value(SECTION, other_key)),
-                             basis=rules.basis(SECTION, other_key),
-                             reason=f"distribution circuit, {system} system")
-    rating = positive(view.raw("device_rating_a"))
-    if rating is None:
-        return Missing(fields=("device_rating_a",), reason="the scope of Table 41.1 is by rating")
-    scope = _in_table_scope(view, rules, rating)
-    if isinstance(scope, Missing):
-        return scope
-    if not scope:
-        return Disconnection(seconds=float(rules.value(SECTION, other_key)),
-                             basis=rules.basis(SECTION, other_key),
-                             reason=f"final circuit outside the scope of Table 41.1, {system} system")
+def _other(rules: Ruleset, system: str, why: str) -> Disconnection:
+    key = "other_tn_s" if system == "TN" else "other_tt_s"
+    return Disconnection(seconds=float(rules.value(SECTION, key)), basis=rules.basis(SECTION, key),
+                         reason=f"{why}, {system} system")
+
+
+def _final(rules: Ruleset, system: str, u0: float | None, u0_raw: Any) -> Disconnection | Missing:
     seconds = _table_time(rules, system, u0) if u0 is not None else None
     if seconds is None:
         return Missing(fields=("max_disconnection_s",),
@@ -122,12 +108,61 @@ def regulation_time(view: CircuitView, rules: Ruleset) -> Disconnection | Missin
                          reason=f"final circuit, {system} system, U0 = {u0:g} V")
 
 
+_NO_EARTHING = Missing(fields=("earthing",), reason="disconnection times depend on the earthing system")
+_IT = Missing(fields=("max_disconnection_s",),
+              reason="IT systems: the second-fault time (411.6.4) is the designer's")
+_NO_RATING = Missing(fields=("device_rating_a",), reason="the scope of Table 41.1 is by rating")
+
+
+def _memo(rules: Ruleset, key: tuple[Any, ...], work: Callable[[], T]) -> T:
+    """``work()``, a pure function of the ruleset and ``key``, kept in the ruleset's group memo."""
+    memo = group_memo(rules)
+    found = memo.get(key, MISS)
+    if found is MISS:
+        found = remember(memo, key, work())
+    answer: T = found
+    return answer
+
+
+def regulation_time(view: CircuitView, rules: Ruleset) -> Disconnection | Missing:
+    """The time the regulation gives the circuit, without the record's own figure.
+
+    The circuit's values are read here, in the order the answer needs them (so only the
+    defaults used are reported); what the ruleset makes of them is kept per ruleset.
+    """
+    u0_raw = view.get("nominal_voltage_v")
+    u0 = None if u0_raw is None else float(u0_raw)
+    if u0 is not None:
+        reduced = _memo(rules, ("disconnection.reduced", u0), lambda: _reduced_low_voltage(rules, u0))
+        if reduced is not None:
+            return reduced
+    system = earthing_system(view.read.earthing)
+    if system is None:
+        return _NO_EARTHING
+    if system == "IT":
+        return _IT
+    if view.get("circuit_role") == "distribution":
+        return _memo(rules, ("disconnection.other", system, True),
+                     lambda: _other(rules, system, "distribution circuit"))
+    rating = positive(view.read.device_rating_a)
+    if rating is None:
+        return _NO_RATING
+    scope = _in_table_scope(view, rules, rating)
+    if isinstance(scope, Missing):
+        return scope
+    if not scope:
+        return _memo(rules, ("disconnection.other", system, False),
+                     lambda: _other(rules, system, "final circuit outside the scope of Table 41.1"))
+    return _memo(rules, ("disconnection.final", system, u0, type(u0_raw), u0_raw),
+                 lambda: _final(rules, system, u0, u0_raw))
+
+
 def _strictest(view: CircuitView, rules: Ruleset) -> float | None:
     """The shortest time the regulation could require of this circuit, whatever is unrecorded."""
     u0 = view.get("nominal_voltage_v")
     if u0 is None:
         return None
-    system = earthing_system(view.raw("earthing"))
+    system = earthing_system(view.read.earthing)
     times = [_table_time(rules, s, float(u0)) for s in ((system,) if system else ("TN", "TT"))]
     found = [t for t in times if t is not None]
     return min(found) if found else None
@@ -136,7 +171,7 @@ def _strictest(view: CircuitView, rules: Ruleset) -> float | None:
 def disconnection_time(view: CircuitView, rules: Ruleset) -> Disconnection | Missing:
     """The time a check judges against: the regulation's, or the record's where it is not longer."""
     regulation = regulation_time(view, rules)
-    recorded = view.raw("max_disconnection_s")  # judged above zero by the view
+    recorded = view.read.max_disconnection_s  # judged above zero by the view
     if recorded is None:
         return regulation
     override = float(recorded)

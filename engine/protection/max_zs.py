@@ -38,6 +38,7 @@ class MaxZs:
     table_s: float | None = None
     formula: str | None = None
     doubtful: str | None = None  # why the tabulated value is in doubt: it may fail, never pass
+    basis_id: str | None = None  # the ruleset entry ``basis`` begins with, or ``record:device_max_zs_ohm``
 
 
 def _column(times: list[float], required_s: float, floor_s: float | None) -> float | None:
@@ -69,31 +70,36 @@ def breaker_max_zs(rules: Ruleset, curve: str, rating_a: float, u0_v: float,
     basis = (f"{rules.basis('max_zs', 'voltage_factor')}; Ia = {k:g} × In "
              f"({rules.basis('breakers', 'ia_multiple')})")
     formula = f"{factor:g} × {u0_v:g} / ({k:g} × {rating_a:g})"
-    return MaxZs(ohm=ohm, basis=basis, device=f"{curve}{rating_a:g}", table_s=column, formula=formula)
+    return MaxZs(ohm=ohm, basis=basis, device=f"{curve}{rating_a:g}", table_s=column, formula=formula,
+                 basis_id="max_zs.voltage_factor")
 
 
 def fuse_tables(rules: Ruleset, standard: str) -> list[tuple[float, dict[str, Any], str]]:
     """(seconds, table, source) of every Zs table the ruleset holds for fuses to ``standard``."""
+    return [(seconds, table, source) for seconds, table, source, _ in _fuse_tables(rules, standard)]
+
+
+def _fuse_tables(rules: Ruleset, standard: str) -> list[tuple[float, dict[str, Any], str, str]]:
     out = []
-    for entry in rules.sections.get("fuses", {}).values():
+    for key, entry in rules.sections.get("fuses", {}).items():
         value = entry.value
         if isinstance(value, dict) and value.get("standard") == standard and "ohm_by_rating_a" in value:
-            out.append((float(value["seconds"]), value, entry.source))
+            out.append((float(value["seconds"]), value, entry.source, f"fuses.{key}"))
     return out
 
 
 def fuse_max_zs(rules: Ruleset, standard: str, rating_a: float, u0_v: float,
                 required_s: float) -> MaxZs | Missing:
     """Zs max for a fuse from the ruleset's literal tables."""
-    tables = fuse_tables(rules, standard)
+    tables = _fuse_tables(rules, standard)
     if not tables:
         return Missing(fields=("device_max_zs_ohm",), reason=f"no Zs table for fuses to {standard}")
-    column = _column([t for t, _, _ in tables], required_s, None)
+    column = _column([t for t, _, _, _ in tables], required_s, None)
     if column is None:
         return Missing(fields=("device_max_zs_ohm",),
-                       reason=f"the {standard} tables start at {min(t for t, _, _ in tables):g} s; "
+                       reason=f"the {standard} tables start at {min(t for t, _, _, _ in tables):g} s; "
                               f"{required_s:g} s needs the maker's figure")
-    _, table, source = next(item for item in tables if item[0] == column)
+    _, table, source, entry_id = next(item for item in tables if item[0] == column)
     listed = table["ohm_by_rating_a"].get(format_number(rating_a))
     if listed is None or positive(u0_v) is None:
         return Missing(fields=("device_max_zs_ohm",),
@@ -104,7 +110,7 @@ def fuse_max_zs(rules: Ruleset, standard: str, rating_a: float, u0_v: float,
     formula = None if u0_v == table_u0 else f"{listed} × {u0_v:g} / {table_u0:g}"
     doubt = (table.get("doubtful_ratings_a") or {}).get(format_number(rating_a))
     return MaxZs(ohm=ohm, basis=source, device=f"{standard} {rating_a:g} A", table_s=column,
-                 formula=formula, doubtful=doubt)
+                 formula=formula, doubtful=doubt, basis_id=entry_id)
 
 
 def max_zs_for(rules: Ruleset, device: Device, u0_v: float, required_s: float) -> MaxZs | Missing:
