@@ -38,6 +38,7 @@ from api.errors import (
 )
 from api.http import auth, compression, idempotency, limits, metrics, proxies, request_log
 from api.http.json_provider import OrjsonProvider
+from api.openapi import DocumentCompletion
 from api.routes import BLUEPRINTS
 from api.schemas import json_types_attribute
 from api.schemas.errors import ProblemSchema
@@ -162,7 +163,8 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     limits.init_app(app)
     idempotency.init_app(app)
 
-    api = OhmtallyApi(app)
+    # the document completed as each route is registered: ids, security, headers, constraints, examples
+    api = OhmtallyApi(app, spec_kwargs={"extra_plugins": [DocumentCompletion(app)]})
     app.extensions["ohmtally.openapi"] = api
     api.ma_plugin.converter.add_attribute_function(json_types_attribute)
     app.register_error_handler(ApiError, _api_error)

@@ -4,6 +4,9 @@ Readings are a number or a string (``0.82``, ``"> 299 MΩ"``, ``"OL"``); the
 engine's parser decides whether the string is a reading. The schema only
 rejects the wrong JSON type (an object, a list, a boolean for a reading) and
 documents the union as an OpenAPI 3.1 type list.
+
+:class:`WholeNumber` reads an integer as the document's JSON Schema defines one (a number
+without a fraction, ``17.0`` included) and refuses ``2.5`` rather than cutting it to 2.
 """
 
 from __future__ import annotations
@@ -13,7 +16,7 @@ from typing import Any
 
 from marshmallow import ValidationError, fields
 
-__all__ = ["JsonTypes", "Prepared", "json_types_attribute"]
+__all__ = ["JsonTypes", "Prepared", "WholeNumber", "json_types_attribute"]
 
 _CHECKS: dict[str, Any] = {
     "string": lambda v: isinstance(v, str),
@@ -88,3 +91,13 @@ class Prepared(fields.List):  # type: ignore[type-arg]
             return None
         serialise = self.serialise
         return [serialise(item) for item in value]
+
+
+class WholeNumber(fields.Integer):
+    """An integer as JSON Schema means one: ``17`` and ``17.0`` are 17; ``2.5`` is refused, never cut to 2."""
+
+    def _validated(self, value: Any) -> int:
+        if isinstance(value, float) and not value.is_integer():
+            raise self.make_error("invalid", input=value)
+        found: int = super()._validated(value)
+        return found

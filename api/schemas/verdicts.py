@@ -78,6 +78,8 @@ class RejectedSchema(Schema):
         unknown = RAISE
 
     pointer = fields.String()
+    parameter = fields.String(metadata={"description": "the query parameter or header a refused upload "
+                                                      "was refused for"})
     line = fields.Integer()
     file = fields.String()
     field = fields.String()

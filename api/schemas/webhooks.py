@@ -5,7 +5,7 @@ from __future__ import annotations
 from marshmallow import RAISE, Schema, fields, validate
 
 from api.db.models import DELIVERY_STATUSES, EVENT_TYPES
-from api.schemas.fields import Prepared
+from api.schemas.fields import Prepared, WholeNumber
 from api.webhooks.secret_store import MAX_OVERLAP_S
 from api.webhooks.signing import SECRET_PATTERN
 
@@ -44,7 +44,7 @@ class SubscriptionCreateSchema(_Strict):
 class SecretRotateSchema(_Strict):
     secret = fields.String(validate=validate.Regexp(SECRET_PATTERN, error=_SECRET_DOC),
                            metadata={"description": _SECRET_DOC})
-    overlap_s = fields.Integer(
+    overlap_s = WholeNumber(  # 2.5 is refused, never cut to 2 (the document says integer)
         validate=validate.Range(min=0, max=MAX_OVERLAP_S),
         metadata={"description": "seconds the secrets valid until now keep signing beside the new one "
                                  "(never longer than they already had); 0 ends them at once (a leaked "
