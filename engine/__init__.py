@@ -5,6 +5,7 @@ See ``engine/README.md`` for the boundary this package keeps.
 
 from __future__ import annotations
 
+from .compact import CompactVerdict
 from .errors import EngineError, ReadingError, RecordError, RulesetError
 from .fields import FIELDS, MEASURED_FIELDS, FieldSpec
 from .marks import Mark, MarkedCell, cell_mark
@@ -36,7 +37,7 @@ from .site import (
     installation_to_dict,
 )
 from .summary import NOTICE, summarise
-from .verify import verify
+from .verify import verify, verify_compact
 from .words import FIELD_WORDS, word_for
 
 __version__ = "0.1.0"
@@ -54,6 +55,7 @@ __all__ = [
     "BoardRecord",
     "CheckResult",
     "CircuitRecord",
+    "CompactVerdict",
     "EngineError",
     "Entry",
     "FieldError",
@@ -88,6 +90,7 @@ __all__ = [
     "ruleset_from_data",
     "summarise",
     "verify",
+    "verify_compact",
     "word_for",
     "worst",
 ]

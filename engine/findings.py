@@ -34,7 +34,8 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any, NamedTuple
 
-from .results import NO_INPUTS, CheckResult, LimitKind, Outcome, round_figure
+from .compact import CompactRow
+from .results import NO_INPUTS, OUTCOME_TEXT, CheckResult, LimitKind, Outcome, round_figure
 
 __all__ = ["NO_INPUTS", "Basis", "BasisParts", "CompactRow", "Detail", "Finding", "Inputs", "basis_id",
            "basis_text", "compact_row", "found", "inputs_of", "render", "to_result"]
@@ -128,12 +129,9 @@ def to_result(finding: Finding) -> CheckResult:
                        inputs=inputs_of(finding))
 
 
-CompactRow = tuple[str, str, float | None, str, float | None, str | None, str | None]
-
-
 def compact_row(finding: Finding) -> CompactRow:
     """``[check, outcome, value, relation, limit, unit, basis_id]``: no text is built."""
     value, limit = finding.value, finding.limit
-    return (finding.check, finding.outcome.value, None if value is None else round_figure(value),
+    return (finding.check, OUTCOME_TEXT[finding.outcome], None if value is None else round_figure(value),
             finding.relation, None if limit is None else round_figure(limit), finding.unit,
             basis_id(finding.basis))

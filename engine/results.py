@@ -19,8 +19,10 @@ from functools import lru_cache
 from types import MappingProxyType
 from typing import Any, Literal
 
-__all__ = ["CHECK_IDS", "NO_INPUTS", "OUTCOME_MEANINGS", "CheckResult", "LimitKind", "Outcome", "Verdict",
-           "round_figure", "worst"]
+from .compact import CompactRow, CompactVerdict
+
+__all__ = ["CHECK_IDS", "NO_INPUTS", "OUTCOME_MEANINGS", "OUTCOME_TEXT", "CheckResult", "LimitKind",
+           "Outcome", "Verdict", "round_figure", "worst"]
 
 CHECK_IDS: tuple[str, ...] = (
     "continuity",
@@ -67,6 +69,8 @@ OUTCOME_MEANINGS: dict[Outcome, str] = {
 }
 
 _SEVERITY = {Outcome.PASS: 0, Outcome.INCOMPLETE: 1, Outcome.INVESTIGATE: 2, Outcome.FAIL: 3}
+#: Each outcome's text, for the hot paths (an enum's ``.value`` is a descriptor call).
+OUTCOME_TEXT: dict[Outcome, str] = {outcome: outcome.value for outcome in Outcome}
 
 
 def worst(outcomes: Iterable[Outcome], *, empty: Outcome = Outcome.INCOMPLETE) -> Outcome:
@@ -126,29 +130,45 @@ class CheckResult:
             return (self.limit - self.value) / self.limit
         return (self.value - self.limit) / self.limit
 
+    def compact_row(self) -> CompactRow:
+        """``[check, outcome, value, relation, limit, unit, basis_id]`` (:mod:`engine.compact`)."""
+        value, limit = self.value, self.limit
+        return (self.check, OUTCOME_TEXT[self.outcome], None if value is None else round_figure(value),
+                self.relation, None if limit is None else round_figure(limit), self.unit, self.basis_id)
+
     def as_dict(self) -> dict[str, Any]:
+        """The full view of this result: every key with a value, in a fixed order.
+
+        ``value``, ``limit``, ``limit_kind``, ``unit``, ``margin``, ``method`` and ``basis``
+        are left out when they have none (``null`` says nothing a missing key does not);
+        ``check``, ``outcome``, ``relation``, ``inputs`` and ``detail`` are always there.
+        """
         # The hot path of every verdict body (tests/bench): the margin is inlined here, with
         # the same result as :attr:`margin`.
         value, limit = self.value, self.limit
-        margin = None
+        out: dict[str, Any] = {"check": self.check, "outcome": OUTCOME_TEXT[self.outcome]}
+        shown = None if value is None else round_figure(value)
+        if shown is not None:
+            out["value"] = shown
+        out["relation"] = self.relation
+        bound = None if limit is None else round_figure(limit)
+        if bound is not None:
+            out["limit"] = bound
+        if self.limit_kind is not None:
+            out["limit_kind"] = self.limit_kind
+        if self.unit is not None:
+            out["unit"] = self.unit
         if value is not None and limit is not None and limit != 0 and self.limit_kind is not None:
-            margin = round(((limit - value) if self.limit_kind == "max" else (value - limit)) / limit, 4)
+            out["margin"] = round(((limit - value) if self.limit_kind == "max" else (value - limit)) / limit, 4)
+        if self.method is not None:
+            out["method"] = self.method
+        if self.basis is not None:
+            out["basis"] = self.basis
         inputs = self.inputs
-        return {
-            "check": self.check,
-            "outcome": self.outcome.value,
-            "value": None if value is None else round_figure(value),
-            "relation": self.relation,
-            "limit": None if limit is None else round_figure(limit),
-            "limit_kind": self.limit_kind,
-            "unit": self.unit,
-            "margin": margin,
-            "method": self.method,
-            "basis": self.basis,
-            "inputs": {k: round_figure(v) if type(v) is float else v for k, v in inputs.items()}
-            if inputs else {},
-            "detail": self.detail,
-        }
+        out["inputs"] = {k: round_figure(v) if type(v) is float else v for k, v in inputs.items()} \
+            if inputs else {}
+        out["detail"] = self.detail
+        return out
 
 
 _RESULT_FIELDS: tuple[str, ...] = tuple(f.name for f in fields(CheckResult))
@@ -189,12 +209,18 @@ class Verdict:
     def key(self) -> tuple[str, str]:
         return (self.board, self.circuit)
 
+    def compact(self) -> CompactVerdict:
+        """The compact view of this verdict (:mod:`engine.compact`): the same outcomes, values and limits."""
+        return {"board": self.board, "circuit": self.circuit, "outcome": OUTCOME_TEXT[self.outcome],
+                "checks": [c.compact_row() for c in self.checks]}
+
     def as_dict(self) -> dict[str, Any]:
+        """The full view: every key always (``description`` ``null`` when unrecorded), ``errors`` when any."""
         out: dict[str, Any] = {
             "board": self.board,
             "circuit": self.circuit,
             "description": self.description,
-            "outcome": self.outcome.value,
+            "outcome": OUTCOME_TEXT[self.outcome],
             "checks": [c.as_dict() for c in self.checks],
             "defaults_applied": dict(self.defaults_applied),
             "inferred": dict(self.inferred),

@@ -35,16 +35,17 @@ from __future__ import annotations
 from collections import ChainMap
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Literal, overload
 
 from .board_consistency import BoardZe, board_ze
+from .compact import CompactVerdict
 from .context import Context
 from .feeders import FeederProblem, feeder_chain
 from .records import CircuitRecord
 from .results import Verdict
 from .ruleset import Ruleset, load_ruleset
 from .site import Site
-from .verify import verify_one
+from .verify import View, compact_one, verify_one
 
 __all__ = ["verify_stream"]
 
@@ -61,13 +62,14 @@ class _Kept:
     cache: dict[Any, Any] = field(default_factory=dict)
     sources: dict[tuple[str, str], Mapping[str, str]] = field(default_factory=dict)
 
-    def context(self, run: list[CircuitRecord], rules: Ruleset, site: Site | None) -> Context:
+    def context(self, run: list[CircuitRecord], rules: Ruleset, site: Site | None, *,
+                tracking: bool = True) -> Context:
         """One board's run layered over the kept records (nothing copied)."""
         own = Context.build(run, rules, site)
         return Context(ruleset=rules, records=ChainMap(dict(own.records), self.records),
                        by_board=ChainMap(dict(own.by_board), self.by_board),
                        cache=ChainMap({}, self.cache), site=site,
-                       sources=ChainMap(dict(own.sources), self.sources))
+                       sources=ChainMap(dict(own.sources), self.sources), tracking=tracking)
 
     def keep(self, board: str, ctx: Context) -> None:
         """Remember the board's distribution circuits, its own feeder and its Ze summary."""
@@ -109,25 +111,45 @@ def _waits_for_feeder(board: str, ctx: Context) -> bool:
     return isinstance(chain, FeederProblem) and chain.code == "feeder_missing"
 
 
-def _verdicts(ctx: Context) -> list[Verdict]:
-    """One board's verdicts."""
+def _verdicts(ctx: Context) -> list[Verdict] | list[CompactVerdict]:
+    """One board's verdicts, in the view the context is for."""
     own = ctx.records.maps[0] if isinstance(ctx.records, ChainMap) else ctx.records
-    return [verify_one(record, ctx) for record in own.values()]
+    if ctx.tracking:
+        return [verify_one(record, ctx) for record in own.values()]
+    return [compact_one(record, ctx) for record in own.values()]
+
+
+@overload
+def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+                  site: Site | None = None, view: Literal["full"] = "full") -> Iterator[Verdict]: ...
+
+
+@overload
+def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
+                  site: Site | None = None, view: Literal["compact"]) -> Iterator[CompactVerdict]: ...
 
 
 def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
-                  site: Site | None = None) -> Iterator[Verdict]:
-    """Verdicts board by board, for records grouped by board (see the module's notes)."""
-    rules = load_ruleset(ruleset)
+                  site: Site | None = None,
+                  view: View = "full") -> Iterator[Verdict] | Iterator[CompactVerdict]:
+    """Verdicts board by board, for records grouped by board (see the module's notes), in the view asked
+    for (``"compact"``: :mod:`engine.compact`)."""
+    if view not in ("full", "compact"):
+        raise ValueError(f"view must be 'full' or 'compact', not {view!r}")
+    return _stream(records, load_ruleset(ruleset), site, tracking=view == "full")  # type: ignore[return-value]
+
+
+def _stream(records: Iterable[CircuitRecord], rules: Ruleset, site: Site | None, *,
+            tracking: bool) -> Iterator[Verdict | CompactVerdict]:
     kept = _Kept()
     held: list[list[CircuitRecord]] = []
     for run in _runs(records):
         board = run[0].board
-        ctx = kept.context(run, rules, site)
+        ctx = kept.context(run, rules, site, tracking=tracking)
         kept.keep(board, ctx)
         if _waits_for_feeder(board, ctx):
             held.append(run)
             continue
         yield from _verdicts(ctx)
     for run in held:
-        yield from _verdicts(kept.context(run, rules, site))
+        yield from _verdicts(kept.context(run, rules, site, tracking=tracking))

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 
-from .results import Outcome, Verdict
+from .compact import CompactVerdict
+from .results import OUTCOME_TEXT, Outcome, Verdict
 
 __all__ = ["NOTICE", "summarise"]
 
@@ -16,11 +17,12 @@ NOTICE = (
 )
 
 
-def summarise(verdicts: Iterable[Verdict]) -> dict[str, int]:
+def summarise(verdicts: Iterable[Verdict] | Iterable[CompactVerdict]) -> dict[str, int]:
+    """Circuits by outcome, of full or compact verdicts alike."""
     counts = {o.value: 0 for o in (Outcome.PASS, Outcome.FAIL, Outcome.INVESTIGATE,
                                    Outcome.INCOMPLETE)}
     total = 0
     for verdict in verdicts:
-        counts[verdict.outcome.value] += 1
+        counts[verdict["outcome"] if isinstance(verdict, dict) else OUTCOME_TEXT[verdict.outcome]] += 1
         total += 1
     return {"circuits": total, **counts}

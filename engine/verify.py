@@ -36,16 +36,17 @@ Invariants:
 from __future__ import annotations
 
 from collections.abc import Collection, Iterable
-from typing import Literal, TypedDict, overload
+from typing import Literal, overload
 
 from .checks import CHECKS
+from .compact import CompactVerdict
 from .context import CircuitView, Context
 from .errors import EngineError
-from .findings import CompactRow, Finding, compact_row, found, inputs_of, render, to_result
+from .findings import Finding, compact_row, found, inputs_of, render, to_result
 from .marks import MARK_REASONS
 from .plausibility import Withheld
 from .records import CircuitRecord
-from .results import Outcome, Verdict
+from .results import OUTCOME_TEXT, Outcome, Verdict
 from .ruleset import Ruleset, load_ruleset
 from .site import Site
 from .words import word_for
@@ -55,18 +56,6 @@ __all__ = ["CompactVerdict", "View", "compact_one", "verify", "verify_compact", 
 View = Literal["full", "compact"]
 _SEVERITY = {Outcome.PASS: 0, Outcome.INCOMPLETE: 1, Outcome.INVESTIGATE: 2, Outcome.FAIL: 3}
 _BY_SEVERITY = (Outcome.PASS, Outcome.INCOMPLETE, Outcome.INVESTIGATE, Outcome.FAIL)
-
-
-class CompactVerdict(TypedDict):
-    """A circuit's verdict in the compact view: JSON-ready, no text.
-
-    ``checks`` rows are ``[check, outcome, value, relation, limit, unit, basis_id]``.
-    """
-
-    board: str
-    circuit: str
-    outcome: str
-    checks: list[CompactRow]
 
 
 @overload
@@ -143,7 +132,7 @@ def verify_one(record: CircuitRecord, ctx: Context) -> Verdict:
 def compact_one(record: CircuitRecord, ctx: Context) -> CompactVerdict:
     """The compact verdict of one circuit of ``ctx``."""
     findings, _errors = _findings(ctx.view(record), ctx, full=False)
-    return {"board": record.board, "circuit": record.circuit, "outcome": _worst(findings).value,
+    return {"board": record.board, "circuit": record.circuit, "outcome": OUTCOME_TEXT[_worst(findings)],
             "checks": [compact_row(f) for f in findings]}
 
 

@@ -67,7 +67,7 @@ def test_as_dict_margin_and_rounding_match_the_plain_definitions(value: float | 
     result = _result(value=value, limit=limit, limit_kind=kind, inputs={"x": value, "n": 3})
     out = result.as_dict()
     margin = result.margin
-    assert out["margin"] == (None if margin is None else round(margin, 4)) or (
+    assert out.get("margin") == (None if margin is None else round(margin, 4)) or (
         margin is not None and math.isnan(margin) and math.isnan(out["margin"]))
 
     def plain_round(x: float | None) -> float | None:  # results.py's rule, written out once more
@@ -75,6 +75,6 @@ def test_as_dict_margin_and_rounding_match_the_plain_definitions(value: float | 
             return None
         return 0.0 if abs(x) < 1e-9 else float(f"{x:.6g}")
 
-    assert out["value"] == plain_round(value)
-    assert out["limit"] == plain_round(limit)
+    assert out.get("value") == plain_round(value)  # a key with no figure is left out (engine/README.md)
+    assert out.get("limit") == plain_round(limit)
     assert out["inputs"] == {"x": plain_round(value), "n": 3}
