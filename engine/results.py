@@ -159,7 +159,8 @@ class CheckResult:
         if self.unit is not None:
             out["unit"] = self.unit
         if value is not None and limit is not None and limit != 0 and self.limit_kind is not None:
-            out["margin"] = round(((limit - value) if self.limit_kind == "max" else (value - limit)) / limit, 4)
+            inside = (limit - value) if self.limit_kind == "max" else (value - limit)
+            out["margin"] = round(inside / limit, 4)
         if self.method is not None:
             out["method"] = self.method
         if self.basis is not None:

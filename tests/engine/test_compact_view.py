@@ -138,7 +138,8 @@ def _renderer_calls(work: Any) -> list[str]:
 
 
 def test_the_compact_view_builds_no_sentence() -> None:
-    """No renderer runs for the compact view; the full view of the same records runs them (the probe works)."""
+    """No renderer runs for the compact view; the full view of the same records runs them (so the probe
+    works)."""
     sample = [job for job in jobs() if job.name in ("bs-notation", "bs-site")]
     assert _renderer_calls(lambda: [verify(job.records, job.ruleset, site=job.site, view="compact")
                                     for job in sample]) == []

@@ -20,8 +20,8 @@ from tests.engine.golden_set import GOLDEN, canonical, digest, jobs
 _RECORDED: dict[str, Any] = json.loads(GOLDEN.read_text(encoding="utf-8"))
 
 
-_CHECK_KEYS = ("check", "outcome", "value", "relation", "limit", "limit_kind", "unit", "margin", "method", "basis",
-               "inputs", "detail")
+_CHECK_KEYS = ("check", "outcome", "value", "relation", "limit", "limit_kind", "unit", "margin", "method",
+               "basis", "inputs", "detail")
 _LEFT_OUT_WHEN_NONE = frozenset({"value", "limit", "limit_kind", "unit", "margin", "method", "basis"})
 
 
