@@ -37,19 +37,22 @@ GROUP_ENTRIES = 4096
 T = TypeVar("T")
 
 _MEMO: dict[int, tuple[Ruleset, dict[Any, Any]]] = {}
+_LAST: list[tuple[Ruleset | None, dict[Any, Any]]] = [(None, {})]  # the entry asked for last (of _MEMO)
 #: What ``memo.get(key, MISS)`` gives for a key not remembered (``None`` may be a remembered answer).
 MISS: Any = object()
 
 
 def _slot(rules: Ruleset) -> dict[Any, Any]:
+    last = _LAST[0]
+    if last[0] is rules:  # one ruleset for a whole call: the common case, one identity test
+        return last[1]
     hit = _MEMO.get(id(rules))
-    if hit is not None and hit[0] is rules:
-        return hit[1]
-    if len(_MEMO) >= RULESETS:
-        _MEMO.clear()
-    slot: dict[Any, Any] = {}
-    _MEMO[id(rules)] = (rules, slot)
-    return slot
+    if hit is None or hit[0] is not rules:
+        if len(_MEMO) >= RULESETS:
+            _MEMO.clear()
+        hit = _MEMO[id(rules)] = (rules, {})
+    _LAST[0] = hit
+    return hit[1]
 
 
 def derived(rules: Ruleset, build: Callable[[Ruleset], T]) -> T:

@@ -21,8 +21,9 @@ Invariants:
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 
+from .compiled import MISS, group_memo, remember
 from .errors import RulesetError
 from .ruleset import Ruleset
 from .temperature import resistance_ratio
@@ -109,6 +110,23 @@ def alpha_iec60228(ruleset: Ruleset, material: str) -> float:
 def resistance_at_test_temp(ruleset: Ruleset, material: str, area_mm2: float | None,
                             test_temp_c: float) -> float | None:
     """Ω/m at the conductor temperature of the test (IEC 60228 Annex B coefficient)."""
+    return _kept(ruleset, ("conductors.at_test", material, area_mm2, test_temp_c), _at_test_temp)
+
+
+def _kept(ruleset: Ruleset, key: tuple[str, str, float | None, float],
+          work: Callable[[Ruleset, str, float | None, float], float | None]) -> float | None:
+    """``work`` of the key's arguments, a pure look-up kept in the ruleset's group memo (engine.compiled):
+    a job asks for the same few sizes at the same temperatures for every circuit."""
+    memo = group_memo(ruleset)
+    found = memo.get(key, MISS)
+    if found is MISS:
+        found = remember(memo, key, work(ruleset, key[1], key[2], key[3]))
+    ohm: float | None = found
+    return ohm
+
+
+def _at_test_temp(ruleset: Ruleset, material: str, area_mm2: float | None,
+                  test_temp_c: float) -> float | None:
     r20 = resistance_ohm_per_m_20c(ruleset, material, area_mm2)
     if r20 is None:
         return None
@@ -118,6 +136,11 @@ def resistance_at_test_temp(ruleset: Ruleset, material: str, area_mm2: float | N
 def operating_ohm_per_m(ruleset: Ruleset, material: str, area_mm2: float | None,
                         operating_temp_c: float) -> float | None:
     """Ω/m at the maximum operating temperature (contract α, e.g. × 1.20 at 70 °C)."""
+    return _kept(ruleset, ("conductors.operating", material, area_mm2, operating_temp_c), _operating)
+
+
+def _operating(ruleset: Ruleset, material: str, area_mm2: float | None,
+               operating_temp_c: float) -> float | None:
     r20 = resistance_ohm_per_m_20c(ruleset, material, area_mm2)
     if r20 is None:
         return None

@@ -74,7 +74,7 @@ class _Guarded:
 class CircuitView:
     """A record plus inferences and defaults, recording which were used; values judged first."""
 
-    __slots__ = ("_defaults", "_notation_of", "_noted", "_sources", "_tracked", "_withheld",
+    __slots__ = ("_defaults", "_fallen", "_notation_of", "_noted", "_sources", "_tracked", "_withheld",
                  "defaults_applied", "inferred", "inherited", "notation_read", "read", "record", "ruleset")
 
     read: CircuitRecord
@@ -98,6 +98,7 @@ class CircuitView:
         self._tracked: frozenset[str] | Mapping[str, str] = sources
         self._notation_of: dict[str, str] = {}
         self._noted: dict[str, Any] = {}
+        self._fallen: dict[str, Any] = {}  # name → what get() answered for a field the record leaves out
         if not tracking:
             self._tracked = frozenset()
         elif record.notation:
@@ -159,6 +160,14 @@ class CircuitView:
         value = getattr(self.record, name)
         if value is not None:
             return value
+        try:  # asked again (a circuit's checks ask for U0 or the temperatures many times): reported already
+            return self._fallen[name]
+        except KeyError:
+            found = self._fallen[name] = self._fall_back(name)
+            return found
+
+    def _fall_back(self, name: str) -> Any:
+        """An inference, else the default, for a field the record leaves out (each reported)."""
         infer = INFERENCES.get(name)
         if infer is not None:
             found = infer(self.record, self.ruleset)

@@ -40,6 +40,7 @@ Invariants:
 from __future__ import annotations
 
 import math
+import operator
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -330,15 +331,26 @@ def judge(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry], 
     return None if rule is None else rule(record, rules, defaults, name, value)
 
 
+_ORDER = tuple(_RULES)
+_VALUES = operator.attrgetter(*_ORDER)  # every judged field of a record in one call
+_SIGN_ONLY = frozenset(name for name, rule in _RULES.items() if rule is _sign)
+
+
 def judge_record(record: CircuitRecord, rules: Ruleset, defaults: Mapping[str, Entry]) -> dict[str, Problem]:
     """Every field of ``record`` that must not be used, with why: rejected ones and impossible ones."""
     found: dict[str, Problem] = {}
-    for name, rule in _RULES.items():
-        value = getattr(record, name)
-        if value is not None:
-            problem = rule(record, rules, defaults, name, value)
-            if problem is not None:
-                found[name] = problem
+    for name, value in zip(_ORDER, _VALUES(record), strict=True):
+        if value is None:
+            continue
+        if name in _SIGN_ONLY:  # the sign rule's common case inlined: a usable number or no number at all
+            kind = type(value)
+            number = (value.value if kind is Reading
+                      else value if kind is float or kind is int else _number(value))
+            if number is None or _FLOOR <= number < math.inf:
+                continue
+        problem = _RULES[name](record, rules, defaults, name, value)
+        if problem is not None:
+            found[name] = problem
     for name in COMBINED:  # a default can clash with the record's other value (test vs maximum temperature)
         entry = defaults.get(name)
         if getattr(record, name) is None and entry is not None and entry.value is not None:

@@ -15,7 +15,6 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, fields
 from enum import StrEnum
-from functools import lru_cache
 from types import MappingProxyType
 from typing import Any, Literal
 
@@ -181,16 +180,25 @@ def _rebuild(kwargs: dict[str, Any]) -> CheckResult:
 
 def round_figure(value: float | None) -> float | None:
     """Six significant figures: far below any meter's resolution, free of float noise."""
+    try:
+        return _ROUNDED[value]  # type: ignore[index]
+    except KeyError:
+        pass
     if value is None or value - value != 0.0:  # nan or ±inf: JSON has neither; None reads "no figure"
         return None
     if -1e-9 < value < 1e-9:  # a difference of two equal readings, not a measurement
         return 0.0
-    return _six_figures(value)
+    if len(_ROUNDED) >= _ROUNDED_MAX:
+        _ROUNDED.clear()
+    rounded = _ROUNDED[value] = float(f"{value:.6g}")
+    return rounded
 
 
-@lru_cache(maxsize=4096)  # limits and factors repeat across a job's circuits; bounded small (stream RSS)
-def _six_figures(value: float) -> float:
-    return float(f"{value:.6g}")
+# Figures already rounded: limits, factors and readings repeat across a job's circuits, and a result
+# rounds two to ten figures. A pure memo of the line above, bounded small (stream RSS); a dict
+# look-up first, because the rounding is called ~30 times a circuit (tests/bench).
+_ROUNDED: dict[float, float] = {}
+_ROUNDED_MAX = 8192
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

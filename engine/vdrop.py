@@ -24,9 +24,11 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+from .compiled import derived
 from .conductors import area, operating_ohm_per_m
 from .context import CircuitView
 from .readings import Reading
+from .ruleset import Ruleset
 from .temperature import temperature_factor
 
 __all__ = ["Drop", "NoDrop", "circuit_current", "own_drop"]
@@ -51,36 +53,53 @@ class NoDrop:
     inputs: dict[str, Any] = field(default_factory=dict)
 
 
+#: A drop before it is chosen: (volts, method, explanation, inputs). Only the chosen one becomes a
+#: :class:`Drop` (a frozen dataclass costs ~1.5 µs to build; three were built a circuit, tests/bench).
+_Found = tuple[float, str, str, dict[str, Any]]
+
+
 def circuit_current(view: CircuitView) -> tuple[float, str] | None:
     """(I, basis): Ib if given, else In."""
-    ib = view.raw("design_current_a")
+    read = view.read
+    ib = read.design_current_a
     if ib is not None:
         return float(ib), "design_current"
-    rating = view.raw("device_rating_a")
+    rating = read.device_rating_a
     if rating is not None:
         return float(rating), "device_rating"
     return None
 
 
 def _exact(reading: Reading | None) -> float | None:
-    return reading.value if reading is not None and reading.exact else None
+    return reading.value if reading is not None and reading.relation == "=" else None
+
+
+def _alpha(rules: Ruleset) -> float:
+    return float(rules.value("temperature", "alpha_per_k"))
+
+
+def _ring_divisor(rules: Ruleset) -> float:
+    return float(rules.value("voltage_drop", "ring_mid_point_divisor"))
+
+
+_NEEDS_CURRENT = NoDrop(missing=["design_current_a or device_rating_a"],
+                        detail="needs Ib (the design current) or In (the device's rating) for the current")
 
 
 def own_drop(view: CircuitView) -> Drop | NoDrop:
     """The circuit's own drop; ``NoDrop`` naming what is missing when none can be had."""
     current = circuit_current(view)
     if current is None:
-        return NoDrop(missing=["design_current_a or device_rating_a"],
-                      detail="needs Ib (the design current) or In (the device's rating) for the current")
+        return NoDrop(missing=list(_NEEDS_CURRENT.missing), detail=_NEEDS_CURRENT.detail)
     amps, basis = current
     rules = view.ruleset
-    alpha = float(rules.value("temperature", "alpha_per_k"))
+    alpha = derived(rules, _alpha)
     theta_max = float(view.get("insulation_temp_c"))
     theta_test = float(view.get("test_temp_c"))
     factor = temperature_factor(alpha, theta_max, theta_test)
     common: dict[str, Any] = {"current_a": amps, "current_basis": basis, "temp_factor": factor}
     notes: list[str] = []
-    r1r2 = view.reading("r1_r2_ohm")
+    r1r2 = view.read.r1_r2_ohm
     r1r2_v = _exact(r1r2)
     if r1r2 is not None and r1r2_v is None:
         notes.append(f"R1+R2 {r1r2.display('Ω')} is not an exact reading and is not used")
@@ -88,7 +107,7 @@ def own_drop(view: CircuitView) -> Drop | NoDrop:
     common["quick_v"] = quick
     tabulated = _tabulated(view, amps)
     if tabulated is not None:
-        common["tabulated_v"] = tabulated.volts
+        common["tabulated_v"] = tabulated[0]
     three_phase = view.get("phases") == 3
     ring = not three_phase and view.get("circuit_form") == "ring"
     candidates = (_ring_end_to_end(view, amps, factor, notes) if ring else None,
@@ -98,9 +117,8 @@ def own_drop(view: CircuitView) -> Drop | NoDrop:
             return _with(found, common, notes)
     if quick is not None:
         method = "three_phase_quick" if three_phase else ("ring_r1r2_quick" if ring else "r1r2_quick")
-        return _with(Drop(volts=quick, method=method,
-                          explanation="(R1+R2) × F × I, an upper bound when the cpc is no larger "
-                                      "than the neutral"), common, notes)
+        formula = "(R1+R2) × F × I, an upper bound when the cpc is no larger than the neutral"
+        return _with((quick, method, formula, {}), common, notes)
     if tabulated is not None:
         return _with(tabulated, common, notes)
     return NoDrop(missing=["r1_r2_ohm (or ring end-to-end readings), or length_m with line_mm2 "
@@ -110,37 +128,39 @@ def own_drop(view: CircuitView) -> Drop | NoDrop:
                   inputs={k: v for k, v in common.items() if v is not None})
 
 
-def _with(drop: Drop, common: dict[str, Any], notes: list[str]) -> Drop:
-    inputs = {**common, **drop.inputs}
+def _with(found: _Found, common: dict[str, Any], notes: list[str]) -> Drop:
+    volts, method, explanation, own = found
+    inputs = {**common, **own}
     if notes:
         inputs["notes"] = list(notes)
-    return Drop(volts=drop.volts, method=drop.method, explanation=drop.explanation, inputs=inputs)
+    return Drop(volts=volts, method=method, explanation=explanation, inputs=inputs)
 
 
-def _ring_end_to_end(view: CircuitView, amps: float, factor: float, notes: list[str]) -> Drop | None:
-    r1, rn = view.reading("ring_r1_ohm"), view.reading("ring_rn_ohm")
+def _ring_end_to_end(view: CircuitView, amps: float, factor: float, notes: list[str]) -> _Found | None:
+    read = view.read
+    r1, rn = read.ring_r1_ohm, read.ring_rn_ohm
     r1_v, rn_v = _exact(r1), _exact(rn)
     if r1 is None or rn is None:
         return None
     if r1_v is None or rn_v is None:
         notes.append("ring end-to-end readings are not both exact and are not used")
         return None
-    divisor = float(view.ruleset.value("voltage_drop", "ring_mid_point_divisor"))
+    divisor = derived(view.ruleset, _ring_divisor)
     volts = amps * (r1_v + rn_v) / divisor * factor
-    return Drop(volts=volts, method="ring_end_to_end",
-                explanation="I × (r1 + rn)/4 × F, load at the ring's mid-point",
-                inputs={"ring_r1_ohm": r1_v, "ring_rn_ohm": rn_v})
+    return (volts, "ring_end_to_end", "I × (r1 + rn)/4 × F, load at the ring's mid-point",
+            {"ring_r1_ohm": r1_v, "ring_rn_ohm": rn_v})
 
 
 def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, notes: list[str],
-           *, ring: bool, three_phase: bool) -> Drop | None:
+           *, ring: bool, three_phase: bool) -> _Found | None:
     """R1 from R1+R2 − R2 (measured) or by the area split; Rn = R1 × A_line / A_neutral."""
     if r1r2 is None:
         return None
-    line, cpc = area(view.raw("line_mm2")), area(view.raw("cpc_mm2"))
+    read = view.read
+    line, cpc = area(read.line_mm2), area(read.cpc_mm2)
     r1: float | None = None
     r1_basis = ""
-    r2 = view.reading("r2_ohm")
+    r2 = read.r2_ohm
     r2_v = _exact(r2)
     if r2_v is not None:
         if r2_v <= r1r2:
@@ -155,9 +175,8 @@ def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, no
     if three_phase:
         # balanced load: no neutral current, so the per-phase drop is the line conductor's alone
         inputs["rn_ohm"] = 0.0
-        return Drop(volts=r1 * factor * amps, method="three_phase_split",
-                    explanation="balanced three-phase, per-phase R1 × F × I", inputs=inputs)
-    neutral = area(view.raw("neutral_mm2"))
+        return (r1 * factor * amps, "three_phase_split", "balanced three-phase, per-phase R1 × F × I", inputs)
+    neutral = area(read.neutral_mm2)
     if neutral is not None and line is None:
         notes.append("a neutral size given without the line size: the neutral/line ratio is unknown")
         return None
@@ -166,44 +185,52 @@ def _split(view: CircuitView, r1r2: float | None, amps: float, factor: float, no
         view.get("neutral_mm2")  # reports the default (neutral = line)
     rn = r1 * ratio
     inputs["rn_ohm"] = rn
-    return Drop(volts=(r1 + rn) * factor * amps, method="ring_r1r2_split" if ring else "r1r2_split",
-                explanation="(R1 + Rn) × F × I with R1, Rn split from R1+R2"
-                            + (" at the ring's furthest point" if ring else ""), inputs=inputs)
+    return ((r1 + rn) * factor * amps, "ring_r1r2_split" if ring else "r1r2_split",
+            _SPLIT_RING if ring else _SPLIT, inputs)
 
 
-def _tabulated(view: CircuitView, amps: float) -> Drop | None:
+_SPLIT = "(R1 + Rn) × F × I with R1, Rn split from R1+R2"
+_SPLIT_RING = _SPLIT + " at the ring's furthest point"
+
+
+def _tabulated(view: CircuitView, amps: float) -> _Found | None:
     """mV/A/m × I × L / 1000 (÷ 4 for a ring loaded at its mid-point)."""
-    length = view.raw("length_m")
+    read = view.read
+    length = read.length_m
     if length is None:
         return None
     three_phase = view.get("phases") == 3
     ring = not three_phase and view.get("circuit_form") == "ring"
-    given = view.raw("cable_mv_per_a_m")
+    given = read.cable_mv_per_a_m
     inputs: dict[str, Any] = {"length_m": float(length)}
     if given is not None:
         mv = float(given)
         inputs.update(mv_per_a_m=mv, mv_basis="given")
         # BS 7671 Appendix 4 tabulates three-phase mV/A/m line to line: per phase ÷ √3
-        per_phase_mv = mv / math.sqrt(3) if three_phase else mv
+        per_phase_mv = mv / _SQRT3 if three_phase else mv
     else:
         material = str(view.get("conductor_material"))
         theta = float(view.get("insulation_temp_c"))
-        r_line = operating_ohm_per_m(view.ruleset, material, area(view.raw("line_mm2")), theta)
+        r_line = operating_ohm_per_m(view.ruleset, material, area(read.line_mm2), theta)
         if r_line is None:
             return None
         if three_phase:
             per_phase_mv = r_line * 1000.0
-            mv = per_phase_mv * math.sqrt(3)
+            mv = per_phase_mv * _SQRT3
         else:
-            neutral = area(view.raw("neutral_mm2")) or area(view.raw("line_mm2"))
+            neutral = area(read.neutral_mm2) or area(read.line_mm2)
             r_neutral = operating_ohm_per_m(view.ruleset, material, neutral, theta)
             if r_neutral is None:
                 return None
             mv = per_phase_mv = (r_line + r_neutral) * 1000.0
         inputs.update(mv_per_a_m=mv, mv_basis=f"IEC 60228 {material} at {theta:g} °C")
-    divisor = float(view.ruleset.value("voltage_drop", "ring_mid_point_divisor")) if ring else 1.0
+    divisor = derived(view.ruleset, _ring_divisor) if ring else 1.0
     volts = per_phase_mv * amps * float(length) / 1000.0 / divisor
     method = "three_phase_tabulated" if three_phase else ("ring_tabulated" if ring else "tabulated")
-    return Drop(volts=volts, method=method,
-                explanation="mV/A/m × I × L / 1000" + (" / 4 (ring, mid-point load)" if ring else "")
-                            + (", per phase" if three_phase else ""), inputs=inputs)
+    return (volts, method, _TABULATED[(three_phase, ring)], inputs)
+
+
+_SQRT3 = math.sqrt(3)
+_TABULATED = {(three_phase, ring): "mV/A/m × I × L / 1000" + (" / 4 (ring, mid-point load)" if ring else "")
+              + (", per phase" if three_phase else "")
+              for three_phase in (False, True) for ring in (False, True)}

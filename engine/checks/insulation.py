@@ -24,8 +24,9 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 from dataclasses import dataclass
+from typing import Any
 
-from ..compiled import basis, derived
+from ..compiled import basis, derived, remember
 from ..context import CircuitView, Context
 from ..findings import Basis, Detail, Finding, found, render
 from ..plausibility import Withheld
@@ -75,8 +76,17 @@ def _band(ctx: Context, circuit_v: float) -> Band:
     try:
         cached: Band = ctx.memo[key]
     except KeyError:
-        cached = ctx.memo[key] = band_for(ctx.ruleset, circuit_v)
+        cached = remember(ctx.memo, key, band_for(ctx.ruleset, circuit_v))
     return cached
+
+
+def _same_band(ctx: Context, u0: float, line_to_line: float) -> bool:
+    key = (_BAND_KEY, "same", u0)
+    try:
+        same: bool = ctx.memo[key]
+    except KeyError:
+        same = remember(ctx.memo, key, _band(ctx, u0).key == _band(ctx, line_to_line).key)
+    return same
 
 
 def _attention(rules: Ruleset) -> float:
@@ -89,7 +99,7 @@ def _circuit_voltage(view: CircuitView, ctx: Context) -> float | None:
         return None
     # Table 64 bands by the circuit's nominal voltage: line to line on a three-phase circuit
     line_to_line = float(u0) * _SQRT3
-    if view.read.phases is None and _band(ctx, float(u0)).key == _band(ctx, line_to_line).key:
+    if view.read.phases is None and _same_band(ctx, float(u0), line_to_line):
         return float(u0)  # same band either way: no need to assume (and report) a phase count
     return line_to_line if view.get("phases") == 3 else float(u0)
 
@@ -141,10 +151,15 @@ def _judge(rules: Ruleset, band: Band, circuit_v: float, test_v: float | None, n
     forced, note = _test_voltage_note(rules, band, test_v, name)
     minimum = band.min_mohm
     side = compare_min(reading, minimum)
-    inputs = {"conductors": where, "field": name, "circuit_voltage_v": circuit_v, "band": band.name,
-              "required_test_v": band.test_v, "test_v": test_v, "attention_mohm": attention}
-    if forced is Outcome.INCOMPLETE:
-        inputs["missing"] = ["ir_test_v"]
+    missing = forced is Outcome.INCOMPLETE
+
+    def inputs() -> dict[str, Any]:
+        out = {"conductors": where, "field": name, "circuit_voltage_v": circuit_v, "band": band.name,
+               "required_test_v": band.test_v, "test_v": test_v, "attention_mohm": attention}
+        if missing:
+            out["missing"] = ["ir_test_v"]
+        return out
+
     if side is Side.BEYOND:
         outcome, text = Outcome.FAIL, _BELOW
     elif side is Side.UNKNOWN:

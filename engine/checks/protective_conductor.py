@@ -29,7 +29,7 @@ import math
 from collections.abc import Iterator
 from typing import Any
 
-from ..compiled import basis
+from ..compiled import MISS, basis, remember
 from ..context import CircuitView, Context
 from ..findings import Basis, BasisParts, Finding, found
 from ..protection import Device, time_bounds
@@ -82,10 +82,19 @@ def run(view: CircuitView, ctx: Context) -> Iterator[Finding]:
     yield _adiabatic(view, ctx, cpc, inputs)
 
 
-def _k(view: CircuitView, rules: Ruleset) -> tuple[float, Basis] | None:
+def _k(view: CircuitView, ctx: Context) -> tuple[float, Basis] | None:
     material = str(view.get("conductor_material"))
-    table: dict[str, float] = rules.get(SECTION, f"k_{material}", {}) or {}
     insulation = view.get("insulation_temp_c")
+    key = ("protective_conductor.k", material, insulation if insulation is None else float(insulation))
+    found = ctx.memo.get(key, MISS)
+    if found is MISS:
+        found = remember(ctx.memo, key, _k_of(ctx.ruleset, material, insulation))
+    k: tuple[float, Basis] | None = found
+    return k
+
+
+def _k_of(rules: Ruleset, material: str, insulation: Any) -> tuple[float, Basis] | None:
+    table: dict[str, float] = rules.get(SECTION, f"k_{material}", {}) or {}
     found_k = table.get(format_number(float(insulation))) if insulation is not None else None
     if found_k is None:
         return None
@@ -114,7 +123,7 @@ def _adiabatic(view: CircuitView, ctx: Context, cpc: float, inputs: dict[str, An
         return incomplete(CHECK, ["zs_ohm"], basis=adiabatic, inputs=inputs,
                           detail=lambda: f"cpc {cpc:g} mm² is {smaller}: the adiabatic check needs an exact "
                                          "Zs")
-    k = _k(view, rules)
+    k = _k(view, ctx)
     if k is None:
         return incomplete(CHECK, ["insulation_temp_c"], basis=adiabatic, inputs=inputs,
                           detail="the ruleset has no k for this conductor's insulation and metal")

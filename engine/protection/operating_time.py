@@ -17,6 +17,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from ..compiled import group_memo, remember
 from ..readings import format_number
 from ..ruleset import Ruleset
 from .devices import Device
@@ -32,32 +33,36 @@ class TimeBounds:
     basis: str
 
 
-def _breaker(rules: Ruleset, device: Device, current_a: float) -> TimeBounds:
+# What the tables say of one device, worked out once per ruleset and device (engine.compiled): the
+# bounds at a given current are then a pass over a few thresholds (it was a table walk, a list of
+# sources and a basis text per circuit, tests/bench).
+_Steps = tuple[tuple[tuple[float, float, bool], ...], str]  # ((current ≥ this, seconds, upper too), …), basis
+
+
+def _breaker_steps(rules: Ruleset, device: Device) -> _Steps:
     multiples: dict[str, dict[str, float]] = rules.value("breakers", "ia_multiple")
     assert device.curve is not None
-    uppers: list[float] = []
+    steps: list[tuple[float, float, bool]] = []
     top = 0.0
     for seconds, by_curve in multiples.items():
         k = by_curve.get(device.curve)
         if k is None:
             continue
         top = max(top, float(k))
-        if current_a >= float(k) * device.rating_a:
-            uppers.append(float(seconds))
+        steps.append((float(k) * device.rating_a, float(seconds), True))
     instant = rules.get("breakers", "instantaneous_within_s")
-    if instant is not None and top and current_a >= top * device.rating_a:
-        uppers.append(float(instant))
+    if instant is not None and top:
+        steps.append((top * device.rating_a, float(instant), True))
     basis = rules.basis("breakers", "ia_multiple")
     if instant is not None:
         basis = f"{basis}; {rules.basis('breakers', 'instantaneous_within_s')}"
-    return TimeBounds(upper=min(uppers) if uppers else None, lower=0.0, basis=basis)
+    return tuple(steps), basis
 
 
-def _fuse(rules: Ruleset, device: Device, current_a: float) -> TimeBounds:
+def _fuse_steps(rules: Ruleset, device: Device) -> _Steps:
     assert device.standard is not None
     factor = float(rules.value("max_zs", "voltage_factor"))
-    uppers: list[float] = []
-    lowers: list[float] = [0.0]
+    steps: list[tuple[float, float, bool]] = []
     sources: list[str] = []
     rating = format_number(device.rating_a)
     for seconds, table, source in fuse_tables(rules, device.standard):
@@ -66,16 +71,26 @@ def _fuse(rules: Ruleset, device: Device, current_a: float) -> TimeBounds:
             continue
         ia = factor * float(table["u0_v"]) / float(listed)
         doubtful = rating in (table.get("doubtful_ratings_a") or {})
-        if current_a >= ia and not doubtful:
-            uppers.append(seconds)
-        elif current_a < ia:
-            lowers.append(seconds)
+        steps.append((ia, seconds, not doubtful))
         sources.append(source)
-    return TimeBounds(upper=min(uppers) if uppers else None, lower=max(lowers), basis="; ".join(sources))
+    return tuple(steps), "; ".join(sources)
+
+
+def _steps(rules: Ruleset, device: Device) -> _Steps:
+    memo = group_memo(rules)
+    key = ("operating_time.steps", device, type(device.rating_a))
+    found: _Steps | None = memo.get(key)
+    if found is None:
+        found = remember(memo, key, _breaker_steps(rules, device) if device.kind == "breaker"
+                         else _fuse_steps(rules, device))
+    return found
 
 
 def time_bounds(rules: Ruleset, device: Device, current_a: float) -> TimeBounds:
     """Bounds on the device's opening time at ``current_a`` from the ruleset's tables."""
-    if device.kind == "breaker":
-        return _breaker(rules, device, current_a)
-    return _fuse(rules, device, current_a)
+    steps, basis = _steps(rules, device)
+    uppers = [seconds for threshold, seconds, upper in steps if upper and current_a >= threshold]
+    if device.kind == "breaker":  # a breaker's band lets it open anywhere within it: no lower bound
+        return TimeBounds(upper=min(uppers) if uppers else None, lower=0.0, basis=basis)
+    lowers = [0.0, *(seconds for threshold, seconds, _ in steps if current_a < threshold)]
+    return TimeBounds(upper=min(uppers) if uppers else None, lower=max(lowers), basis=basis)
