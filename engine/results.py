@@ -136,34 +136,22 @@ class CheckResult:
                 self.relation, None if limit is None else round_figure(limit), self.unit, self.basis_id)
 
     def as_dict(self) -> dict[str, Any]:
-        """The full view of this result: every key with a value, in a fixed order.
+        """The full view of this result: every key, in a fixed order (``null`` where there is none).
 
-        ``value``, ``limit``, ``limit_kind``, ``unit``, ``margin``, ``method`` and ``basis``
-        are left out when they have none (``null`` says nothing a missing key does not);
-        ``check``, ``outcome``, ``relation``, ``inputs`` and ``detail`` are always there.
+        Clients read ``check["limit"]`` without asking whether the key is there: the keys of the
+        contract are always present; the compact view (:meth:`compact_row`) is the small one.
         """
         # The hot path of every verdict body (tests/bench): the margin is inlined here, with
         # the same result as :attr:`margin`.
-        value, limit = self.value, self.limit
-        out: dict[str, Any] = {"check": self.check, "outcome": OUTCOME_TEXT[self.outcome]}
-        shown = None if value is None else round_figure(value)
-        if shown is not None:
-            out["value"] = shown
-        out["relation"] = self.relation
-        bound = None if limit is None else round_figure(limit)
-        if bound is not None:
-            out["limit"] = bound
-        if self.limit_kind is not None:
-            out["limit_kind"] = self.limit_kind
-        if self.unit is not None:
-            out["unit"] = self.unit
-        if value is not None and limit is not None and limit != 0 and self.limit_kind is not None:
-            inside = (limit - value) if self.limit_kind == "max" else (value - limit)
-            out["margin"] = round(inside / limit, 4)
-        if self.method is not None:
-            out["method"] = self.method
-        if self.basis is not None:
-            out["basis"] = self.basis
+        value, limit, kind = self.value, self.limit, self.limit_kind
+        margin = None
+        if value is not None and limit is not None and limit != 0 and kind is not None:
+            margin = round(((limit - value) if kind == "max" else (value - limit)) / limit, 4)
+        out: dict[str, Any] = {
+            "check": self.check, "outcome": OUTCOME_TEXT[self.outcome],
+            "value": None if value is None else round_figure(value), "relation": self.relation,
+            "limit": None if limit is None else round_figure(limit), "limit_kind": kind, "unit": self.unit,
+            "margin": margin, "method": self.method, "basis": self.basis}
         inputs = self.inputs
         out["inputs"] = {k: round_figure(v) if type(v) is float else v for k, v in inputs.items()} \
             if inputs else {}
