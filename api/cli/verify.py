@@ -79,7 +79,7 @@ def register(sub: Any) -> None:
                    help="exit 2 when the input carried a name read as nothing (an unknown or ambiguous "
                         "column or key), as for rejected input")
     p.add_argument("--decimal", choices=("comma", "point"), default=None,
-                   help="the files' decimal separator (default: as the profile or a '#% decimal=' line says; "
+                   help="the files' decimal separator (default: as the profile or a '#%% decimal=' line says; "
                         "CSV detects it)")
     p.set_defaults(func=run)
 

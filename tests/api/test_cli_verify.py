@@ -9,6 +9,7 @@ holds however many other checks join the engine.
 
 from __future__ import annotations
 
+import argparse
 import json
 import subprocess
 import sys
@@ -18,6 +19,7 @@ from typing import Any
 import pytest
 from junitparser import Failure, JUnitXml
 
+import api.cli
 import api.cli.verify
 from api.answers import verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE, main
@@ -200,3 +202,26 @@ def test_a_site_document_and_fact_lines_are_verified_with_inheritance(
     _status, out = run([str(facts), str(sheet), "--format", "json"], capsys)
     (from_files,) = json.loads(out)["verdicts"]
     assert from_files["checks"] == verdict["checks"] and from_files["inherited"] == verdict["inherited"]
+
+
+def _actions(command: str) -> list[list[str]]:
+    """The command and each of its sub-actions (``db upgrade``, ``keys create`` …), as argv prefixes."""
+    parser = api.cli.build_parser(command)
+    found = [[command]]
+    for action in parser._subparsers._group_actions if parser._subparsers else []:
+        sub = action.choices[command]  # type: ignore[index]
+        for inner in sub._actions:
+            if isinstance(inner, argparse._SubParsersAction):
+                found += [[command, name] for name in inner.choices]
+    return found
+
+
+@pytest.mark.parametrize("command", list(api.cli.COMMANDS))
+def test_every_commands_help_prints(command: str, capsys: pytest.CaptureFixture[str]) -> None:
+    """`ohmtally COMMAND --help` is a newcomer's first step: every command's and action's help prints
+    (a help text with a bare '%' once made `verify --help` a traceback)."""
+    for argv in _actions(command):
+        with pytest.raises(SystemExit) as stopped:
+            main([*argv, "--help"])
+        assert stopped.value.code == 0, argv
+        assert "usage: ohmtally" in capsys.readouterr().out, argv
