@@ -38,6 +38,8 @@ from .site import (
 )
 from .summary import NOTICE, summarise
 from .verify import verify, verify_compact
+from .visit_changes import visit_changes
+from .visits import PreviousVisit
 from .words import FIELD_WORDS, word_for
 
 __version__ = "0.1.0"
@@ -64,6 +66,7 @@ __all__ = [
     "Mark",
     "MarkedCell",
     "Outcome",
+    "PreviousVisit",
     "Reading",
     "ReadingError",
     "RecordError",
@@ -91,6 +94,7 @@ __all__ = [
     "summarise",
     "verify",
     "verify_compact",
+    "visit_changes",
     "word_for",
     "worst",
 ]

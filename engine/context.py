@@ -52,6 +52,7 @@ from .record_notation import notation_values
 from .records import CircuitRecord
 from .ruleset import Entry, Ruleset
 from .site import Site
+from .visits import PreparedVisit
 
 __all__ = ["CircuitView", "Context"]
 
@@ -213,6 +214,8 @@ class Context:
     """Whether views note what they hand out (the full view's ``inherited``, ``notation``); see above."""
     memo: dict[Any, Any] = field(default_factory=dict)
     """The ruleset's device and cable group memo (:func:`engine.compiled.group_memo`)."""
+    previous: PreparedVisit | None = None
+    """The previous visit of the installation, made ready once per call (``previous_visit``)."""
 
     def __post_init__(self) -> None:
         if not self.memo:
@@ -220,7 +223,7 @@ class Context:
 
     @classmethod
     def build(cls, records: Iterable[CircuitRecord], ruleset: Ruleset, site: Site | None = None, *,
-              tracking: bool = True) -> Context:
+              tracking: bool = True, previous: PreparedVisit | None = None) -> Context:
         index: dict[tuple[str, str], CircuitRecord] = {}
         boards: dict[str, list[CircuitRecord]] = defaultdict(list)
         for record in records:
@@ -243,7 +246,7 @@ class Context:
                         own[at] = index[record.key] = effective
                         sources[record.key] = where
         return cls(ruleset=ruleset, records=index, by_board=dict(boards), site=site, sources=sources,
-                   tracking=tracking)
+                   tracking=tracking, previous=previous)
 
     def view(self, record: CircuitRecord) -> CircuitView:
         return CircuitView(record, self.ruleset, self.sources.get(record.key, _NO_SOURCES),

@@ -38,6 +38,7 @@ CHECK_IDS: tuple[str, ...] = (
     "additional_protection",
     "overload",
     "protective_conductor",
+    "previous_visit",
 )
 
 _KNOWN_CHECKS: frozenset[str] = frozenset(CHECK_IDS)  # one hash per result, not a scan of the tuple

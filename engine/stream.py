@@ -46,6 +46,7 @@ from .results import Verdict
 from .ruleset import Ruleset, load_ruleset
 from .site import Site
 from .verify import View, compact_one, verify_one
+from .visits import PreparedVisit, PreviousVisit, prepare
 
 __all__ = ["verify_stream"]
 
@@ -63,13 +64,14 @@ class _Kept:
     sources: dict[tuple[str, str], Mapping[str, str]] = field(default_factory=dict)
 
     def context(self, run: list[CircuitRecord], rules: Ruleset, site: Site | None, *,
-                tracking: bool = True) -> Context:
+                tracking: bool = True, previous: PreparedVisit | None = None) -> Context:
         """One board's run layered over the kept records (nothing copied)."""
         own = Context.build(run, rules, site)
         return Context(ruleset=rules, records=ChainMap(dict(own.records), self.records),
                        by_board=ChainMap(dict(own.by_board), self.by_board),
                        cache=ChainMap({}, self.cache), site=site,
-                       sources=ChainMap(dict(own.sources), self.sources), tracking=tracking)
+                       sources=ChainMap(dict(own.sources), self.sources), tracking=tracking,
+                       previous=previous)
 
     def keep(self, board: str, ctx: Context) -> None:
         """Remember the board's distribution circuits, its own feeder and its Ze summary."""
@@ -121,35 +123,39 @@ def _verdicts(ctx: Context) -> list[Verdict] | list[CompactVerdict]:
 
 @overload
 def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
-                  site: Site | None = None, view: Literal["full"] = "full") -> Iterator[Verdict]: ...
+                  site: Site | None = None, view: Literal["full"] = "full",
+                  previous: PreviousVisit | None = None) -> Iterator[Verdict]: ...
 
 
 @overload
 def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
-                  site: Site | None = None, view: Literal["compact"]) -> Iterator[CompactVerdict]: ...
+                  site: Site | None = None, view: Literal["compact"],
+                  previous: PreviousVisit | None = None) -> Iterator[CompactVerdict]: ...
 
 
 def verify_stream(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
-                  site: Site | None = None,
-                  view: View = "full") -> Iterator[Verdict] | Iterator[CompactVerdict]:
+                  site: Site | None = None, view: View = "full",
+                  previous: PreviousVisit | None = None) -> Iterator[Verdict] | Iterator[CompactVerdict]:
     """Verdicts board by board, for records grouped by board (see the module's notes), in the view asked
-    for (``"compact"``: :mod:`engine.compact`)."""
+    for (``"compact"``: :mod:`engine.compact`); ``previous`` as :func:`engine.verify` takes it."""
     if view not in ("full", "compact"):
         raise ValueError(f"view must be 'full' or 'compact', not {view!r}")
-    return _stream(records, load_ruleset(ruleset), site, tracking=view == "full")  # type: ignore[return-value]
+    prepared = None if previous is None else prepare(previous)  # once, for every board's run
+    return _stream(records, load_ruleset(ruleset), site, tracking=view == "full",  # type: ignore[return-value]
+                   previous=prepared)
 
 
 def _stream(records: Iterable[CircuitRecord], rules: Ruleset, site: Site | None, *,
-            tracking: bool) -> Iterator[Verdict | CompactVerdict]:
+            tracking: bool, previous: PreparedVisit | None = None) -> Iterator[Verdict | CompactVerdict]:
     kept = _Kept()
     held: list[list[CircuitRecord]] = []
     for run in _runs(records):
         board = run[0].board
-        ctx = kept.context(run, rules, site, tracking=tracking)
+        ctx = kept.context(run, rules, site, tracking=tracking, previous=previous)
         kept.keep(board, ctx)
         if _waits_for_feeder(board, ctx):
             held.append(run)
             continue
         yield from _verdicts(ctx)
     for run in held:
-        yield from _verdicts(kept.context(run, rules, site, tracking=tracking))
+        yield from _verdicts(kept.context(run, rules, site, tracking=tracking, previous=previous))

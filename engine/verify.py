@@ -49,6 +49,7 @@ from .records import CircuitRecord
 from .results import OUTCOME_TEXT, Outcome, Verdict
 from .ruleset import Ruleset, load_ruleset
 from .site import Site
+from .visits import PreparedVisit, PreviousVisit, prepare
 from .words import word_for
 
 __all__ = ["CompactVerdict", "View", "compact_one", "verify", "verify_compact", "verify_one"]
@@ -61,41 +62,48 @@ _BY_SEVERITY = (Outcome.PASS, Outcome.INCOMPLETE, Outcome.INVESTIGATE, Outcome.F
 @overload
 def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
            only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
-           view: Literal["full"] = "full") -> list[Verdict]: ...
+           view: Literal["full"] = "full", previous: PreviousVisit | None = None) -> list[Verdict]: ...
 
 
 @overload
 def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
            only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
-           view: Literal["compact"]) -> list[CompactVerdict]: ...
+           view: Literal["compact"], previous: PreviousVisit | None = None) -> list[CompactVerdict]: ...
 
 
 def verify(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
            only: Collection[tuple[str, str]] | None = None, site: Site | None = None,
-           view: View = "full") -> list[Verdict] | list[CompactVerdict]:
+           view: View = "full",
+           previous: PreviousVisit | None = None) -> list[Verdict] | list[CompactVerdict]:
     """Verdicts of every circuit, or of the circuits keyed in ``only``, in the view asked for.
 
     ``only`` still sees every record (board-level checks need the whole board
     and its feeders), so each verdict is the one a full call gives; it just
     skips the circuits nobody asked about (a logger's post touches a few).
     ``site`` gives the installation and board records the circuits inherit from.
-    ``view="compact"`` is :func:`verify_compact`.
+    ``view="compact"`` is :func:`verify_compact`. ``previous`` is the installation's
+    previous visit (:class:`engine.visits.PreviousVisit`): each circuit that matches one of
+    its circuits gets the ``previous_visit`` check; without it that check is left out.
     """
     if view == "compact":
-        return verify_compact(records, ruleset, only=only, site=site)
+        return verify_compact(records, ruleset, only=only, site=site, previous=previous)
     if view != "full":
         raise ValueError(f"view must be 'full' or 'compact', not {view!r}")
-    ctx = Context.build(records, load_ruleset(ruleset), site)
+    ctx = Context.build(records, load_ruleset(ruleset), site, previous=_prepared(previous))
     return [verify_one(record, ctx) for record in _wanted(ctx, only)]
 
 
 def verify_compact(records: Iterable[CircuitRecord], ruleset: Ruleset | str | None = None, *,
                    only: Collection[tuple[str, str]] | None = None,
-                   site: Site | None = None) -> list[CompactVerdict]:
+                   site: Site | None = None, previous: PreviousVisit | None = None) -> list[CompactVerdict]:
     """The compact view: per circuit its outcome and ``[check, outcome, value, relation, limit, unit,
     basis_id]`` per result, computed without building a sentence."""
-    ctx = Context.build(records, load_ruleset(ruleset), site, tracking=False)
+    ctx = Context.build(records, load_ruleset(ruleset), site, tracking=False, previous=_prepared(previous))
     return [compact_one(record, ctx) for record in _wanted(ctx, only)]
+
+
+def _prepared(previous: PreviousVisit | None) -> PreparedVisit | None:
+    return None if previous is None else prepare(previous)
 
 
 def _wanted(ctx: Context, only: Collection[tuple[str, str]] | None) -> Iterable[CircuitRecord]:

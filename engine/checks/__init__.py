@@ -30,6 +30,7 @@ from . import (
     loop_impedance,
     overload,
     polarity,
+    previous_visit,
     protective_conductor,
     rcd_time,
     ring_continuity,
@@ -55,4 +56,5 @@ CHECKS: dict[str, CheckFn] = {
     "additional_protection": additional_protection.run,
     "overload": overload.run,
     "protective_conductor": protective_conductor.run,
+    "previous_visit": previous_visit.run,
 }
