@@ -6,6 +6,7 @@ states the refusal where it happens, from the code that refuses:
 - No text the server reads holds U+0000 (PostgreSQL text cannot store it): every string of a
   JSON request body (``api.intake.json_document``: 422 ``nul_character``) and every string
   query parameter (``api.http.limits``: 400 ``nul_character``) says ``pattern: ^[^\\x00]*$``.
+- A board or circuit in a path is a reference like one in a record (format ``reference``).
 - A page ``cursor`` is one this API handed out (``api.db.repository.decode_cursor``: 400
   ``bad_cursor``): format ``page-cursor``, in the base64url alphabet.
 - A text body is not blank (``api.intake.bodies``: 400 ``empty_body``); a CSV body's header
@@ -18,9 +19,11 @@ states the refusal where it happens, from the code that refuses:
 - A board's facts are PUT to ``…/boards/{board}``, whose body may leave ``board`` out
   (``api.routes.site``): there the body is ``BoardFactsRequest``, ``BoardIn`` without
   ``board`` required.
-- What no schema can state (a value that must agree with the path, the job or DNS) is said
-  in words and, machine-readably, in the operation's ``x-ohmtally-refusals`` (status, problem
-  code, when): :data:`WORDS_ONLY`. Clients and the fuzz test read it from the document.
+- What no schema can state (a value that must agree with the path, the job, another item or
+  DNS) is said in words and, machine-readably, in the operation's ``x-ohmtally-refusals``
+  (status, code, when): :data:`WORDS_ONLY`. An answer is such a refusal when its status is
+  stated and each code it gives (of its ``errors``, else its own) is stated there. Clients and
+  the fuzz test read it from the document.
 - A raw upload is served as it was received, in the media type it was sent with, so a
   JSON-typed one need not parse: the JSON media types carry no schema there.
 """
@@ -35,23 +38,44 @@ from apispec import APISpec
 
 from api.schemas.webhooks import SecretRotateSchema, SubscriptionCreateSchema
 
-__all__ = ["NOT_BLANK", "NO_NUL", "bind_ruleset_to_job", "body_attribute", "state_operation"]
+__all__ = [
+    "NOT_BLANK",
+    "NOT_BLANK_TEXT",
+    "NO_NUL",
+    "REFUSALS_EXTENSION",
+    "WORDS_ONLY",
+    "bind_board_to_path",
+    "bind_ruleset_to_job",
+    "body_attribute",
+    "state_operation",
+    "state_path_parameters",
+    "state_refusals",
+]
 
 NO_NUL = "^[^\\x00]*$"
 NOT_BLANK = "[^\\x09-\\x0d\\x20]"  # a character bytes.strip() keeps (api.intake.bodies: empty_body)
+NOT_BLANK_TEXT = "^[^\\x00]*[^\\x00\\s][^\\x00]*$"  # something besides white space, and no U+0000
 _CURSOR = "^[A-Za-z0-9_-]*$"  # base64url without padding (api.db.repository.encode_cursor); empty: none
 _PORT = "(?:6553[0-5]|655[0-2][0-9]|65[0-4][0-9]{2}|6[0-4][0-9]{3}|[1-5][0-9]{4}|[0-9]{1,4})"
 _WEBHOOK_URL = f"^[Hh][Tt][Tt][Pp][Ss]?://[A-Za-z0-9.-]+(?::{_PORT})?(?:[/?#][^\\x00-\\x20]*)?$"
 REFUSALS_EXTENSION = "x-ohmtally-refusals"
 _NOTATION_CONFLICT = (422, "notation_conflict", "an RCBO's `device` (`RCBO B20 30mA A`) and an `rcd` beside "
                       "it name different residual currents or types: neither is used")
-#: operationId → refusals of requests the schema allows: (status, problem code, when).
+_DUPLICATE_BOARD = (422, "duplicate_board", "`boards` lists one board twice (a list's items cannot be "
+                    "made unique by one member in JSON Schema)")
+_VIEW_CONFLICT = (400, "view_conflict", "`view=compact` beside a `format` other than json: the compact view is "
+                  "a JSON answer, the other formats render the full verdicts")
+#: operationId → refusals of requests the schema allows: (status, code, when). The code is the
+#: problem's, or each of its ``errors``' (an answer refusing several fields lists each code).
 WORDS_ONLY: Mapping[str, tuple[tuple[int, str, str], ...]] = {
-    "post_verify": (_NOTATION_CONFLICT,),
+    "post_verify": (_NOTATION_CONFLICT, _DUPLICATE_BOARD, _VIEW_CONFLICT),
+    "get_job_verdicts": (_VIEW_CONFLICT,),
     "post_job_readings": (
         (422, "ruleset_mismatch", "the body or `?ruleset=` names a ruleset other than the job's"),
-        _NOTATION_CONFLICT),
-    "put_board": ((422, "board_mismatch", "the body's `board` is not the path's `{board}` (leave it out)"),),
+        _NOTATION_CONFLICT, _DUPLICATE_BOARD),
+    "put_board": ((422, "board_mismatch", "the body's `board` is not the path's `{board}` (leave it out)"),
+                  (422, "missing_key", "the path's `{board}` is a word for an empty cell (`-`, `none`, "
+                                       "`null`) or a cell word (`N/A`, `LIM`), which names no board")),
     "post_webhooks": ((422, "target_not_allowed", "the URL's host does not resolve, now, to public addresses "
                                                   "only (unless the server allows private ones)"),),
 }
@@ -144,6 +168,14 @@ def bind_ruleset_to_job(operation: dict[str, Any], path: str, spec: APISpec) -> 
                                                           "description": _JOB_RULESET}
         spec.components.schema("JobReadingsRequest", component=bound)
     entry["schema"] = {"$ref": "#/components/schemas/JobReadingsRequest"}
+
+
+def state_path_parameters(parameters: list[dict[str, Any]]) -> None:
+    """A board or circuit named in a path is a reference, as in a record (format ``reference``)."""
+    for parameter in parameters:
+        if parameter.get("in") == "path" and parameter.get("name") in ("board", "circuit"):
+            parameter.setdefault("schema", {}).update(format="reference", pattern=NOT_BLANK_TEXT)
+            parameter.setdefault("description", f"a {parameter['name']} reference, percent-encoded")
 
 
 def state_refusals(operation: dict[str, Any]) -> None:

@@ -78,10 +78,10 @@ def _example(exchange: Mapping[str, Any], part: Mapping[str, Any]) -> dict[str, 
     return found
 
 
-Components = Callable[[str], Mapping[str, Any]]  # a response component by name
+_Components = Callable[[str], Mapping[str, Any]]  # a response component by name
 
 
-def _response_for(operation: dict[str, Any], status: int, component: Components) -> dict[str, Any] | None:
+def _response_for(operation: dict[str, Any], status: int, component: _Components) -> dict[str, Any] | None:
     responses: dict[str, Any] = operation.setdefault("responses", {})
     documented = (responses.get(str(status)) or responses.get(f"{str(status)[0]}XX")
                   or responses.get("default"))
@@ -111,7 +111,7 @@ def _query_examples(operation: dict[str, Any], query: Mapping[str, Any]) -> None
 
 
 def attach_examples(operation: dict[str, Any], recorded: Mapping[str, Any] | None,
-                    component: Components) -> None:
+                    component: _Components) -> None:
     """Put the recorded exchanges of one operation into it as Example Objects."""
     if recorded is None:
         return

@@ -25,8 +25,10 @@ Invariants:
   a name no field has is not refused but read as nothing with a warning
   (``api.intake.site_document``): their description says so, and ``x-ohmtally-other-names:
   warning`` says it to a program (the fuzz test reads it).
-- tests/api/test_openapi_formats.py checks each format against the engine: its examples
-  are read, and generated values of each format are read, by :func:`engine.coerce_field`.
+- A site document states at least one of circuits, installation or boards (``anyOf``
+  required; else 422 ``nothing_stated``): :func:`record_statement`.
+- tests/api/test_openapi_formats.py checks each format against the server: values of each,
+  generated, are taken whole by ``POST /v1/verify`` (and cursors, CSV, secrets where read).
 """
 
 from __future__ import annotations
@@ -36,6 +38,7 @@ from typing import Any
 
 from marshmallow import fields
 
+from api.openapi.constraints import NOT_BLANK_TEXT
 from api.schemas.records import BoardInSchema, CircuitInSchema, InstallationInSchema, VerifyRequestSchema
 from engine import BOARD_FIELDS, FIELDS, INSTALLATION_FIELDS, FieldSpec
 from engine.record_notation import NOTATION_INPUTS, NOTATION_SPLIT
@@ -46,7 +49,6 @@ __all__ = ["FORMATS", "OTHER_NAMES_EXTENSION", "SAFE_INTEGER", "field_attribute"
 SAFE_INTEGER = 2**53 - 1
 _MARKS = ("Every field but `board` and `circuit` also reads `N/A` (does not apply) and `LIM` (a "
           "limitation: not tested), kept as marks, and `-`, `none`, `null` or empty text, meaning absent.")
-_NOT_BLANK = "^[^\\x00]*[^\\x00\\s][^\\x00]*$"  # something besides white space, and no U+0000
 _UNIT_SLUGS = {"mm**2": "mm2", "dimensionless": "ratio", "mV/A/m": "mV-A-m"}
 _SYMBOLS = {"ohm": "Ω", "megaohm": "MΩ", "degC": "°C", "mm**2": "mm²", "dimensionless": "a plain ratio"}
 
@@ -175,7 +177,7 @@ def field_attribute(_converter: Any, field: Any, **_kwargs: Any) -> dict[str, An
     elif spec.kind in ("reading", "text"):
         found.update(minimum=-SAFE_INTEGER, maximum=SAFE_INTEGER)
     if fmt == "reference":
-        found["pattern"] = _NOT_BLANK
+        found["pattern"] = NOT_BLANK_TEXT
     if spec.kind == "count":
         found["anyOf"] = [{"type": "integer", "enum": [int(c) for c in spec.choices]},
                           {"type": "string"}, {"type": "null"}]

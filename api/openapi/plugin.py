@@ -62,6 +62,7 @@ class DocumentCompletion(BasePlugin):
         for method, operation in (operations or {}).items():
             restore_arguments(operation, view_for(self.app, rule.endpoint, method))
         self._concrete[path] = security.sample_path(path, parameters or [])
+        constraints.state_path_parameters(parameters or [])
         return None
 
     def operation_helper(self, path: str | None = None, operations: dict[str, Any] | None = None,

@@ -27,8 +27,8 @@ SCHEME = "apiKey"  # the bearer scheme's name in components.securitySchemes (api
 SCOPE_EXTENSION = "x-ohmtally-scope"
 _PLACEHOLDER = re.compile(r"\{([^}]+)\}")
 _SCOPE_SENTENCE = {
-    "read": "Needs an API key with the `read` scope (or `write`/`admin`, which include it).",
-    "write": "Needs an API key with the `write` scope (or `admin`).",
+    "read": "Needs an API key with the `read` scope (or `admin`, which includes every scope).",
+    "write": "Needs an API key with the `write` scope (or `admin`, which includes every scope).",
     "admin": "Needs an API key with the `admin` scope.",
 }
 
