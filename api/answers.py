@@ -17,11 +17,22 @@ from datetime import datetime
 from typing import Any
 
 from api.db.models import Circuit, Upload
+from api.schemas.compact import CompactVerifyResponseSchema
 from api.schemas.verdicts import VerifyResponseSchema
 from engine import CircuitRecord, Ruleset, Site, Verdict
+from engine.compact import CompactVerdict, encode
 
-__all__ = ["CircuitState", "FactsAnswer", "FactsState", "ReadingsAnswer", "VerifyAnswer", "circuit_state",
-           "verify_body"]
+__all__ = [
+    "CircuitState",
+    "CompactAnswer",
+    "FactsAnswer",
+    "FactsState",
+    "ReadingsAnswer",
+    "VerifyAnswer",
+    "circuit_state",
+    "compact_answer",
+    "verify_body",
+]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -36,6 +47,27 @@ class VerifyAnswer:
     job_id: int | None = None
     next_cursor: str | None = None
     limit: int | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class CompactAnswer:
+    """The compact view of a verdicts answer (``api.schemas.compact``): rows and their legend."""
+
+    ruleset: Ruleset
+    verdicts: Sequence[Mapping[str, Any]]
+    legend: Sequence[Sequence[str | None]]
+    rejected: Sequence[Mapping[str, Any]] = ()
+    warnings: Sequence[Mapping[str, Any]] = ()
+    site: Site | None = None
+    job_id: int | None = None
+    next_cursor: str | None = None
+    limit: int | None = None
+
+
+def compact_answer(verdicts: Sequence[CompactVerdict], **envelope: Any) -> CompactAnswer:
+    """Compact verdicts with each (check, unit, basis id) written once in a legend (engine.compact)."""
+    encoded = encode(verdicts)
+    return CompactAnswer(verdicts=encoded["verdicts"], legend=encoded["legend"], **envelope)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -101,4 +133,15 @@ def verify_body(ruleset: Ruleset, verdicts: Sequence[Verdict], rejected: Sequenc
     """The verify answer's JSON document (as ``POST /v1/verify`` answers it)."""
     body: dict[str, Any] = _VERIFY_SCHEMA.dump(VerifyAnswer(ruleset=ruleset, verdicts=verdicts,
                                                             rejected=rejected, warnings=warnings, site=site))
+    return body
+
+
+_COMPACT_SCHEMA = CompactVerifyResponseSchema()
+
+
+def compact_body(ruleset: Ruleset, verdicts: Sequence[CompactVerdict], rejected: Sequence[Mapping[str, Any]],
+                 warnings: Sequence[Mapping[str, Any]] = (), *, site: Site | None = None) -> dict[str, Any]:
+    """The compact verify answer's JSON document (as ``POST /v1/verify?view=compact`` answers it)."""
+    body: dict[str, Any] = _COMPACT_SCHEMA.dump(compact_answer(verdicts, ruleset=ruleset, rejected=rejected,
+                                                               warnings=warnings, site=site))
     return body

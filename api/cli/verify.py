@@ -35,7 +35,7 @@ from rich.console import Console
 
 from adapters import AdapterOptions, collect
 from adapters.registry import adapter_for_extension, get_adapter
-from api.answers import verify_body
+from api.answers import compact_body, verify_body
 from api.cli import EXIT_BAD_INPUT, EXIT_FAIL, EXIT_OK, EXIT_USAGE
 from api.cli.progress import SILENT, Reporter, counted, progress_for, verify_in_steps
 from api.intake.bodies import site_of_facts
@@ -71,6 +71,9 @@ def register(sub: Any) -> None:
     p.add_argument("--profile", help="mapping or line profile for the adapter")
     p.add_argument("--ruleset", help="ruleset id, or a path to a ruleset JSON file")
     p.add_argument("--format", choices=FORMATS, default="table")
+    p.add_argument("--view", choices=("full", "compact"), default="full",
+                   help="compact: per check [legend index, outcome, value, relation, limit] with a legend, "
+                        "no sentences (with --format json only; as POST /v1/verify?view=compact)")
     p.add_argument("--fail-on", choices=FAIL_ON_CHOICES, default="fail",
                    help="least severe outcome that fails (exit 1, JUnit <failure>)")
     p.add_argument("--warn-on", choices=WARN_ON_CHOICES, default="incomplete",
@@ -79,8 +82,8 @@ def register(sub: Any) -> None:
                    help="exit 2 when the input carried a name read as nothing (an unknown or ambiguous "
                         "column or key), as for rejected input")
     p.add_argument("--decimal", choices=("comma", "point"), default=None,
-                   help="the files' decimal separator (default: as the profile or a '#%% decimal=' line says; "
-                        "CSV detects it)")
+                   help="the files' decimal separator (default: as the profile or a "
+                        "'#%% decimal=' line says; CSV detects it)")
     p.set_defaults(func=run)
 
 
@@ -197,13 +200,20 @@ def run(args: argparse.Namespace) -> int:
     # so it switches the collector off (the engine itself touches no process-wide state).
     gc.disable()
     policy = policy_from_names(args.fail_on, args.warn_on)
+    if args.view == "compact" and args.format != "json":
+        print(f"ohmtally verify: --view compact is a JSON answer; --format {args.format} renders the full "
+              "verdicts: add --format json", file=sys.stderr)
+        return EXIT_USAGE
     try:
         with progress_for(args.format) as reporter:
             found = _read_files(args, reporter)
             ruleset = _ruleset(args.ruleset or found.ruleset_id)
             site = site_of_facts(found.facts)
-            verdicts = (verify(found.records, ruleset, site=site) if reporter is SILENT
-                        else verify_in_steps(found.records, ruleset, site, reporter))
+            if args.view == "compact":
+                compact = verify(found.records, ruleset, site=site, view="compact")
+            else:
+                verdicts = (verify(found.records, ruleset, site=site) if reporter is SILENT
+                            else verify_in_steps(found.records, ruleset, site, reporter))
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         print(f"ohmtally verify: cannot read the ruleset: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -216,7 +226,10 @@ def run(args: argparse.Namespace) -> int:
             raise
         print(f"ohmtally verify: {exc}", file=sys.stderr)
         return EXIT_USAGE
-    body = verify_body(ruleset, verdicts, found.rejected, found.warnings, site=site)
+    if args.view == "compact":
+        body = compact_body(ruleset, compact, found.rejected, found.warnings, site=site)
+    else:
+        body = verify_body(ruleset, verdicts, found.rejected, found.warnings, site=site)
     _say_warnings(found.warnings)
     _write(body, args.format, policy)
     if policy.failing_circuits(body["verdicts"]):

@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import current_app, request
+from flask import Response, current_app, request
 from marshmallow import Schema, ValidationError
 
 from api.errors import ApiError
 from api.intake.bodies import JSON_MEDIA_TYPE, read_json_document, validation_problem
+from api.schemas.fields import COMPACT_MEDIA_TYPE
 from api.schemas.records import VerifyRequestSchema
 from api.settings import Settings
 from engine import DEFAULT_RULESET, EngineError, Ruleset, builtin_ruleset_ids, load_ruleset
@@ -17,12 +18,15 @@ __all__ = [
     "NOTICE_HEADER",
     "READINGS_BODY_DOC",
     "chosen_ruleset_id",
+    "compact_doc",
+    "compact_response",
     "json_body",
     "json_body_doc",
     "json_body_document",
     "raw_body",
     "resolve_ruleset",
     "settings",
+    "view_of",
 ]
 
 # CSV has no place for prose, so every rendered answer also carries the caution in a header.
@@ -114,3 +118,25 @@ def chosen_ruleset_id(query_id: str | None, body_id: str | None) -> tuple[str | 
     if body_id:
         return body_id, {"pointer": "/ruleset"}
     return query_id, {"parameter": "ruleset"}
+
+
+def view_of(query: dict[str, Any]) -> str:
+    """The view asked for; compact with a text ``format`` is refused, never silently dropped."""
+    view = str(query.get("view") or "full")
+    if view == "compact" and query.get("format") not in (None, "json"):
+        raise ApiError(400, "view_conflict", f"view=compact is a JSON answer; format={query['format']} "
+                                             "renders the full verdicts: ask for one or the other",
+                       errors=[{"pointer": "/query/view", "code": "view_conflict",
+                                "reason": "view=compact goes with format=json (or no format)"}])
+    return view
+
+
+def compact_response(schema: Any, answer: Any, headers: dict[str, str], status: int = 200) -> Response:
+    """A compact answer, serialised by its schema, in the compact media type."""
+    body = current_app.json.dumps(schema.dump(answer))
+    return Response(body, status=status, content_type=COMPACT_MEDIA_TYPE, headers=headers)
+
+
+def compact_doc(schema: type) -> dict[str, Any]:
+    """The 200 answer's compact media type, for ``@blp.doc(responses=…)``."""
+    return {COMPACT_MEDIA_TYPE: {"schema": schema}}

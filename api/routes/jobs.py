@@ -11,7 +11,7 @@ from flask_smorest import Blueprint
 from marshmallow import RAISE
 from sqlalchemy.orm import Session
 
-from api.answers import VerifyAnswer, circuit_state, verify_body
+from api.answers import VerifyAnswer, circuit_state, compact_answer, verify_body
 from api.db.context import context_rows
 from api.db.models import Circuit, Job
 from api.db.repository import (
@@ -31,7 +31,17 @@ from api.http.auth import tenant
 from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC
 from api.render import DEFAULT_POLICY, MEDIA_TYPES, render
-from api.routes.common import NOTICE_HEADER, json_body, json_body_doc, resolve_ruleset, settings
+from api.routes.common import (
+    NOTICE_HEADER,
+    compact_doc,
+    compact_response,
+    json_body,
+    json_body_doc,
+    resolve_ruleset,
+    settings,
+    view_of,
+)
+from api.schemas.compact import CompactJobVerdictsSchema
 from api.schemas.jobs import (
     CircuitsQuerySchema,
     CircuitsResponseSchema,
@@ -127,17 +137,23 @@ class JobCircuits(MethodView):
         return body, _page_links(job.id, "circuits", cursor, query)
 
 
+_COMPACT_PAGE = CompactJobVerdictsSchema()
+
+
 @blp.route("/jobs/<job:job_id>/verdicts")
 class JobVerdicts(MethodView):
     @blp.arguments(VerdictsQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
     @blp.doc(parameters=[IF_NONE_MATCH_DOC], responses={
         304: {"description": "unchanged since that ETag"},
-        200: {"content": {media.split(";")[0]: {"schema": {"type": "string"}}
-                          for fmt, media in MEDIA_TYPES.items() if fmt != "json"}}})
+        200: {"content": {**{media.split(";")[0]: {"schema": {"type": "string"}}
+                             for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
+                          **compact_doc(CompactJobVerdictsSchema)}}})
     @blp.response(200, JobVerdictsSchema, headers={"ETag": {"schema": {"type": "string"}}, **_LINK_DOC})
     def get(self, job_id: int, **query: Any) -> Any:
         """Verdicts of the job's circuits, a page at a time (`?limit`, `?cursor`, `?board`),
-        recomputed now; `If-None-Match` → 304 while unchanged; `?format=` renders the page."""
+        recomputed now; `If-None-Match` → 304 while unchanged; `?format=` renders the page;
+        `?view=compact` answers rows of figures instead of sentences."""
+        view = view_of(query)
         session = get_session()
         job = get_job(session, tenant(), job_id)
         ruleset = resolve_ruleset(job.ruleset)
@@ -151,8 +167,13 @@ class JobVerdicts(MethodView):
         # the boards feeding it: api.db.context): a page costs its boards, not the whole job.
         site = site_of_rows(site_rows(session, job))
         context = context_rows(session, job.id, {board for board, _circuit in wanted}, site)
-        verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site)
         headers = {"ETag": etag, **_page_links(job.id, "verdicts", cursor, query)}
+        if view == "compact":
+            compact = verify(records_of_rows(context), ruleset, only=wanted, site=site, view="compact")
+            return compact_response(_COMPACT_PAGE, compact_answer(
+                compact, ruleset=ruleset, job_id=job.id, next_cursor=cursor, limit=limit, site=site),
+                {**headers, NOTICE_HEADER: NOTICE})
+        verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site)
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,
                               limit=limit, site=site)
         if query.get("format") in (None, "json"):

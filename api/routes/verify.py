@@ -9,7 +9,7 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE, Schema, fields, validate
 
-from api.answers import VerifyAnswer, verify_body
+from api.answers import VerifyAnswer, compact_answer, verify_body
 from api.http.limits import body_limits
 from api.intake.bodies import read_body
 from api.render import (
@@ -25,10 +25,15 @@ from api.routes.common import (
     NOTICE_HEADER,
     READINGS_BODY_DOC,
     chosen_ruleset_id,
+    compact_doc,
+    compact_response,
     raw_body,
     resolve_ruleset,
     settings,
+    view_of,
 )
+from api.schemas.compact import CompactVerifyResponseSchema
+from api.schemas.fields import view_field
 from api.schemas.verdicts import VerifyResponseSchema
 from engine import NOTICE, verify
 
@@ -52,7 +57,9 @@ class ReadingsQuerySchema(Schema):
 
 
 class VerifyQuerySchema(ReadingsQuerySchema):
-    """/verify only: the output format and the pipeline policy (the renderers of api.render)."""
+    """/verify only: the output format, the view and the pipeline policy (the renderers of api.render)."""
+
+    view = view_field()
 
     format = fields.String(validate=validate.OneOf(FORMATS),
                            metadata={"description": "json (default), junit, csv, table or html (a page "
@@ -67,11 +74,15 @@ class VerifyQuerySchema(ReadingsQuerySchema):
 _TEXT = {"schema": {"type": "string"}}
 FAILING_HEADER = "Ohmtally-Failing-Circuits"
 _FORMATS_DOC: dict[int, Any] = {200: {
-    "content": {media.split(";")[0]: _TEXT for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
+    "content": {**{media.split(";")[0]: _TEXT for fmt, media in MEDIA_TYPES.items() if fmt != "json"},
+                **compact_doc(CompactVerifyResponseSchema)},
     "headers": {FAILING_HEADER: {"schema": {"type": "integer"},
                                  "description": "circuits failing under fail_on (so a curl step can gate)"},
                 "Ohmtally-Notice": {"schema": {"type": "string"},
                                     "description": "the safety caution, also in the JSON body's notice"}}}}
+
+
+_COMPACT_SCHEMA = CompactVerifyResponseSchema()
 
 
 @blp.route("/verify")
@@ -84,8 +95,10 @@ class Verify(MethodView):
 
         JSON bodies are all or nothing (422 with a pointer per bad field); CSV,
         lines and NDJSON take the good rows and list the bad ones in `rejected`.
-        `?format=junit|csv|table|html` renders the same body for a pipeline or a person.
+        `?format=junit|csv|table|html` renders the same body for a pipeline or a person;
+        `?view=compact` answers rows of figures instead of sentences.
         """
+        view = view_of(query)
         if query.get("ruleset"):  # a bad name is reported before the body is read
             resolve_ruleset(query["ruleset"])
         body, media_type, charset = raw_body()
@@ -96,9 +109,15 @@ class Verify(MethodView):
         ruleset_id, where = chosen_ruleset_id(query.get("ruleset"), intake.ruleset)
         ruleset = resolve_ruleset(ruleset_id, **where)
         site = intake.site()
+        policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
+        if view == "compact":
+            compact = verify(intake.records(), ruleset, site=site, view="compact")
+            failing = sum(1 for v in compact if policy.treat(v["outcome"]) is Treatment.FAIL)
+            return compact_response(_COMPACT_SCHEMA, compact_answer(
+                compact, ruleset=ruleset, rejected=intake.rejected, warnings=intake.warnings, site=site),
+                {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE})
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset, site=site),
                               rejected=intake.rejected, warnings=intake.warnings, site=site)
-        policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
         failing = sum(1 for v in answer.verdicts if policy.treat(v.outcome.value) is Treatment.FAIL)
         headers = {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE}
         if query.get("format") is None:

@@ -14,9 +14,22 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from marshmallow import ValidationError, fields
+from marshmallow import ValidationError, fields, validate
 
-__all__ = ["JsonTypes", "Prepared", "WholeNumber", "json_types_attribute"]
+__all__ = ["COMPACT_MEDIA_TYPE", "VIEWS", "JsonTypes", "Prepared", "WholeNumber", "json_types_attribute",
+           "view_field"]
+
+#: The compact view's media type (RFC 6838 vendor tree, RFC 6839 ``+json``): api.schemas.compact.
+COMPACT_MEDIA_TYPE = "application/vnd.ohmtally.compact+json"
+VIEWS = ("full", "compact")
+
+
+def view_field() -> fields.String:
+    """``?view=``: the full verdicts (default) or the compact rows (api.schemas.compact)."""
+    return fields.String(validate=validate.OneOf(VIEWS), metadata={
+        "description": "full (default): every check with its sentence and basis; compact: per check "
+                       "[legend index, outcome, value, relation, limit] with a legend, served as "
+                       f"{COMPACT_MEDIA_TYPE} (JSON only: not with another format)"})
 
 _CHECKS: dict[str, Any] = {
     "string": lambda v: isinstance(v, str),

@@ -11,6 +11,7 @@ from typing import Any
 from marshmallow import RAISE, Schema, fields, post_dump, validate
 
 from api.render import FORMATS
+from api.schemas.fields import view_field
 from api.schemas.verdicts import (
     VerifyResponseSchema,
     notice_field,
@@ -125,6 +126,7 @@ class CircuitsQuerySchema(_CircuitPageQuery):
 
 
 class VerdictsQuerySchema(_CircuitPageQuery):
+    view = view_field()
     format = fields.String(validate=validate.OneOf(FORMATS), metadata={
         "description": "json (default), junit, csv, table or html: the page rendered as `ohmtally verify "
                        "--format` renders it"})

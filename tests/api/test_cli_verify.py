@@ -225,3 +225,28 @@ def test_every_commands_help_prints(command: str, capsys: pytest.CaptureFixture[
             main([*argv, "--help"])
         assert stopped.value.code == 0, argv
         assert "usage: ohmtally" in capsys.readouterr().out, argv
+
+
+def test_view_compact_carries_the_full_views_figures(tmp_path: Path,
+                                                     capsys: pytest.CaptureFixture[str]) -> None:
+    """`--view compact --format json` is the compact answer of POST /v1/verify?view=compact: the same
+    outcomes, values and limits as the full view (engine.compact.decode spells the rows out), the same
+    exit status; beside another format it is a usage error, never silently the full table."""
+    from engine.compact import decode  # local: only this test reads the compact rows back
+
+    readings = tmp_path / "db4.txt"
+    readings.write_text("".join(
+        f"board=DB4 circuit={n} device=B32 earthing=TN-S ze_ohm=0.35 r1_r2_ohm={0.2 + n / 10:.2f} "
+        f"zs_ohm={0.55 + n / 10:.2f} polarity_ok=yes\n" for n in range(1, 10)), encoding="utf-8")
+    full_exit = main(["verify", str(readings), "--format", "json"])
+    full = json.loads(capsys.readouterr().out)
+    compact_exit = main(["verify", str(readings), "--format", "json", "--view", "compact"])
+    compact = json.loads(capsys.readouterr().out)
+    assert full_exit == compact_exit == EXIT_FAIL  # Zs beyond B32's maximum on the later circuits
+    assert compact["view"] == "compact" and compact["summary"] == full["summary"]
+    assert compact["notice"] == full["notice"]
+    assert {(v["board"], v["circuit"]): [tuple(r[:6]) for r in v["checks"]] for v in decode(compact)} == {
+        (v["board"], v["circuit"]): [(c["check"], c["outcome"], c["value"], c["relation"], c["limit"],
+                                      c["unit"]) for c in v["checks"]] for v in full["verdicts"]}
+    assert main(["verify", str(readings), "--view", "compact"]) == EXIT_USAGE
+    assert "--format json" in capsys.readouterr().err
