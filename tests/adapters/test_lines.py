@@ -103,10 +103,10 @@ def test_units_in_values() -> None:
 
 
 def test_readme_example_line_verifies() -> None:
-    """The checksummed example line in README.md really verifies (so the recipe is right)."""
+    """The checksummed example line in adapters/README.md really verifies (so the recipe is right)."""
     from pathlib import Path
 
-    readme = (Path(__file__).parents[2] / "README.md").read_text(encoding="utf-8")
+    readme = (Path(__file__).parents[2] / "adapters" / "README.md").read_text(encoding="utf-8")
     line = next(x for x in readme.splitlines() if x.startswith("board=DB1 circuit=3") and "*" in x)
     result = check_suffix(line.encode())
     assert result.present and result.ok

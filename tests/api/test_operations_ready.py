@@ -83,10 +83,10 @@ def test_ready_is_503_when_the_database_does_not_answer(tmp_path: Path,
     assert client.get("/v1/health").status_code == 200  # liveness: the process itself is fine
 
 
-def test_ready_is_documented(client: FlaskClient) -> None:
-    """The OpenAPI document lists /v1/ready (200 and the 503 problem) without security, and /v1/metrics
-    as text needing an admin key."""
-    spec = client.get("/v1/openapi.json").get_json()
+def test_ready_is_documented(auth_client: FlaskClient) -> None:
+    """The OpenAPI document of a server with keys lists /v1/ready (200 and the 503 problem) without
+    security, and /v1/metrics as text needing an admin key."""
+    spec = auth_client.get("/v1/openapi.json").get_json()
     ready = spec["paths"]["/v1/ready"]["get"]
     assert ready["security"] == []
     assert set(ready["responses"]) >= {"200", "503"}
@@ -94,3 +94,4 @@ def test_ready_is_documented(client: FlaskClient) -> None:
     metrics = spec["paths"]["/v1/metrics"]["get"]
     assert "text/plain" in metrics["responses"]["200"]["content"]
     assert metrics["security"] == [{"apiKey": ["admin"]}]
+    assert metrics["x-ohmtally-scope"] == "admin"
