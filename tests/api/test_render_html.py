@@ -213,12 +213,13 @@ def test_html_is_a_format_with_its_media_type() -> None:
 
 
 def test_the_openapi_document_offers_the_page(client: FlaskClient) -> None:
-    """POST /v1/verify and GET /v1/jobs/{job_id}/verdicts document text/html beside JSON, XML, CSV and text,
-    and ?format= on /verify lists html among its five choices."""
+    """POST /v1/verify and GET /v1/jobs/{job_id}/verdicts document text/html beside JSON, XML, CSV, text
+    and the compact view's JSON, and ?format= on /verify lists html among its five choices."""
     spec = client.get("/v1/openapi.json").get_json()
     verify_op = spec["paths"]["/v1/verify"]["post"]
     assert set(verify_op["responses"]["200"]["content"]) == {
-        "application/json", "application/xml", "text/csv", "text/plain", "text/html"}
+        "application/json", "application/xml", "text/csv", "text/plain", "text/html",
+        "application/vnd.ohmtally.compact+json"}
     param = next(p for p in verify_op["parameters"] if p["name"] == "format")
     assert set(param["schema"]["enum"]) == {"json", "junit", "csv", "table", "html"}
     verdicts_op = spec["paths"]["/v1/jobs/{job_id}/verdicts"]["get"]

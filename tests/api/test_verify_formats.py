@@ -121,11 +121,14 @@ def test_bad_format_or_policy_is_a_422_naming_the_parameter(client: FlaskClient,
 
 
 def test_formats_are_in_the_openapi_document(client: FlaskClient) -> None:
-    """The 200 of POST /v1/verify documents JSON, XML, CSV, text and HTML, and the format parameter's
-    choices."""
+    """The 200 of POST /v1/verify documents JSON, XML, CSV, text, HTML and the compact view's JSON, and
+    the format and view parameters' choices."""
     spec = client.get("/v1/openapi.json").get_json()
     operation = spec["paths"]["/v1/verify"]["post"]
     assert set(operation["responses"]["200"]["content"]) == {
-        "application/json", "application/xml", "text/csv", "text/plain", "text/html"}
+        "application/json", "application/xml", "text/csv", "text/plain", "text/html",
+        "application/vnd.ohmtally.compact+json"}
     param = next(p for p in operation["parameters"] if p["name"] == "format")
     assert set(param["schema"]["enum"]) == {"json", "junit", "csv", "table", "html"}
+    view = next(p for p in operation["parameters"] if p["name"] == "view")
+    assert set(view["schema"]["enum"]) == {"full", "compact"}
