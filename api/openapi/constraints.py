@@ -63,8 +63,12 @@ _NOTATION_CONFLICT = (422, "notation_conflict", "an RCBO's `device` (`RCBO B20 3
                       "it name different residual currents or types: neither is used")
 _DUPLICATE_BOARD = (422, "duplicate_board", "`boards` lists one board twice (a list's items cannot be "
                     "made unique by one member in JSON Schema)")
-_VIEW_CONFLICT = (400, "view_conflict", "`view=compact` beside a `format` other than json: the compact view is "
-                  "a JSON answer, the other formats render the full verdicts")
+_VIEW_CONFLICT = (400, "view_conflict", "`view=compact` beside a `format` other than json: the compact view "
+                  "is a JSON answer, the other formats render the full verdicts")
+_PREVIOUS_JOB = ((422, "previous_job_not_found",
+                  "`previous_job_id` names no job of the caller's organisation (another organisation's job "
+                  "is refused word for word alike)"),
+                 (422, "previous_job_invalid", "`previous_job_id` names the job itself"))
 #: operationId → refusals of requests the schema allows: (status, code, when). The code is the
 #: problem's, or each of its ``errors``' (an answer refusing several fields lists each code).
 WORDS_ONLY: Mapping[str, tuple[tuple[int, str, str], ...]] = {
@@ -76,6 +80,8 @@ WORDS_ONLY: Mapping[str, tuple[tuple[int, str, str], ...]] = {
     "put_board": ((422, "board_mismatch", "the body's `board` is not the path's `{board}` (leave it out)"),
                   (422, "missing_key", "the path's `{board}` is a word for an empty cell (`-`, `none`, "
                                        "`null`) or a cell word (`N/A`, `LIM`), which names no board")),
+    "post_jobs": _PREVIOUS_JOB,
+    "patch_job": _PREVIOUS_JOB,
     "post_webhooks": ((422, "target_not_allowed", "the URL's host does not resolve, now, to public addresses "
                                                   "only (unless the server allows private ones)"),),
 }

@@ -5,6 +5,7 @@ from __future__ import annotations
 from flask_smorest import Blueprint
 
 from api.routes.catalogue import blp as catalogue
+from api.routes.changes import blp as changes
 from api.routes.docs import blp as docs
 from api.routes.jobs import blp as jobs
 from api.routes.operations import blp as operations
@@ -16,5 +17,5 @@ from api.routes.webhooks import blp as webhooks
 
 __all__ = ["BLUEPRINTS"]
 
-BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, operations, verify, jobs, site, sync, readings, webhooks,
-                                      docs)
+BLUEPRINTS: tuple[Blueprint, ...] = (catalogue, operations, verify, jobs, site, sync, readings, changes,
+                                      webhooks, docs)

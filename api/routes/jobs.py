@@ -27,6 +27,7 @@ from api.db.repository import (
 )
 from api.db.session import get_session
 from api.db.site_facts import site_of_rows, site_rows
+from api.db.visits import check_previous_job, previous_visit, visit_tag
 from api.http.auth import tenant
 from api.http.conditional import if_none_match, parse_rfc3339, verdicts_etag
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC
@@ -41,6 +42,7 @@ from api.routes.common import (
     settings,
     view_of,
 )
+from api.schemas.changes import VISIT_FIELDS
 from api.schemas.compact import CompactJobVerdictsSchema
 from api.schemas.jobs import (
     CircuitsQuerySchema,
@@ -74,8 +76,11 @@ class Jobs(MethodView):
         data = json_body(JobCreateSchema())
         ruleset = resolve_ruleset(data.get("ruleset"), pointer="/ruleset")
         session = get_session()
+        check_previous_job(session, data.get("previous_job_id"), tenant())
         job = create_job(session, tenant(), reference=data["reference"], site=data["site"],
                          ruleset=ruleset.id, external_ref=data.get("external_ref"))
+        for name in VISIT_FIELDS:  # the installation and its previous visit (api/db/visits.py)
+            setattr(job, name, data.get(name))
         emit_job_created(session, job, JobSchema().dump(job))  # committed with the job, or not at all
         return job, 201, {"Location": f"/v1/jobs/{job.id}"}
 
@@ -157,8 +162,8 @@ class JobVerdicts(MethodView):
         session = get_session()
         job = get_job(session, tenant(), job_id)
         ruleset = resolve_ruleset(job.ruleset)
-        variant = "&".join(f"{k}={v}" for k, v in sorted(query.items()))
-        etag = verdicts_etag(job, ruleset, variant)  # from the job row alone: a 304 reads no record
+        variant = "&".join(f"{k}={v}" for k, v in sorted(query.items())) + visit_tag(session, job)
+        etag = verdicts_etag(job, ruleset, variant)  # from job rows alone: a 304 reads no record
         if if_none_match(request.headers.get("If-None-Match"), etag):
             return Response(status=304, headers={"ETag": etag})
         rows, cursor, limit = _page(session, job, query)
@@ -167,13 +172,15 @@ class JobVerdicts(MethodView):
         # the boards feeding it: api.db.context): a page costs its boards, not the whole job.
         site = site_of_rows(site_rows(session, job))
         context = context_rows(session, job.id, {board for board, _circuit in wanted}, site)
+        previous = previous_visit(session, job, {board for board, _circuit in wanted})  # api/db/visits.py
         headers = {"ETag": etag, **_page_links(job.id, "verdicts", cursor, query)}
         if view == "compact":
-            compact = verify(records_of_rows(context), ruleset, only=wanted, site=site, view="compact")
+            compact = verify(records_of_rows(context), ruleset, only=wanted, site=site, view="compact",
+                             previous=previous)
             return compact_response(_COMPACT_PAGE, compact_answer(
                 compact, ruleset=ruleset, job_id=job.id, next_cursor=cursor, limit=limit, site=site),
                 {**headers, NOTICE_HEADER: NOTICE})
-        verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site)
+        verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site, previous=previous)
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,
                               limit=limit, site=site)
         if query.get("format") in (None, "json"):

@@ -46,6 +46,7 @@ from api.db.repository import (
 )
 from api.db.session import get_session
 from api.db.site_facts import merge_facts, site_of_rows, site_rows
+from api.db.visits import previous_visit
 from api.errors import ApiError, insufficient_storage, storage_full
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, answered_meanwhile, recent_duplicate, request_key
@@ -66,7 +67,9 @@ def _duplicate(session: Session, job: Job, earlier: Upload, site: Site) -> Readi
     """The answer to a blind resend: the earlier upload's, recomputed on the job as it stands."""
     touched = upload_circuit_keys(session, earlier)
     stored = context_rows(session, job.id, {board for board, _circuit in touched}, site)
-    verdicts = verify(records_of_rows(stored), resolve_ruleset(job.ruleset), only=touched, site=site)
+    previous = previous_visit(session, job, {board for board, _circuit in touched})  # api/db/visits.py
+    verdicts = verify(records_of_rows(stored), resolve_ruleset(job.ruleset), only=touched, site=site,
+                      previous=previous)
     return ReadingsAnswer(accepted=earlier.accepted, rejected=earlier.rejected,
                           warnings=earlier.warnings or [], upload=earlier, verdicts=verdicts,
                           duplicate_of=earlier.id)
@@ -141,11 +144,12 @@ class JobReadings(MethodView):
         boards = {item.board for item in intake.items} | {f.board for f in intake.facts if f.scope == "board"}
         stored = (job_rows(session, job.id) if listening
                   else context_rows(session, job.id, boards, site_before, site_of_facts(intake.facts)))
+        previous = previous_visit(session, job, None if listening else boards)  # api/db/visits.py
         merging = session.begin_nested()  # a full disk while merging still keeps the stored body
         try:
             # verdict.changed compares with the outcomes before the merge (None: nobody listens)
-            before = (outcomes_before(session, job, ruleset, records_of_rows(stored), site=site_before)
-                      if listening else None)
+            before = (outcomes_before(session, job, ruleset, records_of_rows(stored), site=site_before,
+                                      previous=previous) if listening else None)
             merged = merge_items(session, job, upload, intake.items, stored)
             facts_taken, facts_touched = merge_facts(session, job, upload, intake.facts)
             site = site_of_rows(site_rows(session, job)) if facts_touched else site_before
@@ -156,7 +160,7 @@ class JobReadings(MethodView):
             # those on boards whose facts changed) are verified unless verdict.changed needs all
             # outcomes (a logger's post touches a few).
             all_verdicts = verify(merged.records, ruleset, only=None if before is not None else wanted,
-                                  site=site)
+                                  site=site, previous=previous)
             # the webhook events commit with the merge, or neither does
             emit_readings(session, job, upload, touched=merged.touched, before=before, after=all_verdicts)
             merging.commit()  # RELEASE: the merge's rows are flushed inside the savepoint

@@ -31,6 +31,7 @@ from api.db.models import BOARD_SCOPE, INSTALLATION_SCOPE, Job, SiteFacts
 from api.db.repository import get_job, job_records, lock_job, store_upload
 from api.db.session import get_session, read_session
 from api.db.site_facts import fact_history, replace_facts, site_of_rows, site_rows
+from api.db.visits import previous_visit
 from api.errors import ApiError, escape_pointer
 from api.http.auth import tenant
 from api.http.idempotency import IDEMPOTENCY_PARAMETER_DOC, answered_meanwhile, request_key
@@ -99,14 +100,15 @@ def _put(session: Session, job_id: int, scope: str, board: str) -> FactsAnswer |
         return replayed
     ruleset = resolve_ruleset(job.ruleset)
     records = job_records(session, job)
-    before = outcomes(verify(records, ruleset, site=site_of_rows(site_rows(session, job))))
+    previous = previous_visit(session, job)  # the previous_visit check sees Ze and Zdb (api/db/visits.py)
+    before = outcomes(verify(records, ruleset, site=site_of_rows(site_rows(session, job)), previous=previous))
     upload = store_upload(session, job, body=body, content_type=JSON_MEDIA_TYPE,
                           adapter=scope, profile=None, idempotency_key=request_key())
     where = "/installation" if scope == INSTALLATION_SCOPE else f"/boards/{escape_pointer(board)}"
     row = replace_facts(session, job, upload, scope, board, fields, where)
     upload.status, upload.accepted, upload.rejected, upload.warnings = "merged", len(fields), [], warnings
     site = site_of_rows(site_rows(session, job))
-    after = verify(records, ruleset, site=site)
+    after = verify(records, ruleset, site=site, previous=previous)
     changed = [{"board": v.board, "circuit": v.circuit, "before": before.get(v.key), "after": v.outcome.value}
                for v in after if before.get(v.key) != v.outcome.value]
     # verdict.changed for each, committed with the change (when anyone subscribes)

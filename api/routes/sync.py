@@ -23,6 +23,7 @@ from api.answers import circuit_state
 from api.db.models import Circuit
 from api.db.repository import bump_revision, lock_job, records_of
 from api.db.session import get_session
+from api.db.visits import check_previous_job
 from api.errors import ApiError
 from api.http.auth import tenant
 from api.intake.bodies import JSON_MEDIA_TYPE
@@ -43,10 +44,13 @@ class JobPatch(MethodView):
     @blp.doc(requestBody=json_body_doc(JobPatchSchema, _ACCEPTED))
     @blp.response(200, JobSchema)
     def patch(self, job_id: int) -> Any:
-        """Change a job's external_ref, reference or site (merge patch)."""
+        """Change a job's external_ref, reference, site, or its installation and previous visit
+        (installation_ref, tested_on, previous_job_id, visit_map) (merge patch)."""
         data = json_body(JobPatchSchema(), media_types=_ACCEPTED)
         session = get_session()
         job = lock_job(session, tenant(), job_id)
+        if "previous_job_id" in data:  # the previous visit: another job of the same organisation
+            check_previous_job(session, data["previous_job_id"], job.organisation_id, this_job=job.id)
         changed = {k: v for k, v in data.items() if getattr(job, k) != v}
         for name, value in changed.items():
             setattr(job, name, value)

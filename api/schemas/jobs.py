@@ -11,6 +11,7 @@ from typing import Any
 from marshmallow import RAISE, Schema, fields, post_dump, validate
 
 from api.render import FORMATS
+from api.schemas.changes import VisitFieldsSchema
 from api.schemas.fields import view_field
 from api.schemas.verdicts import (
     VerifyResponseSchema,
@@ -43,7 +44,7 @@ class _Strict(Schema):
         unknown = RAISE
 
 
-class JobCreateSchema(_Strict):
+class JobCreateSchema(VisitFieldsSchema):
     reference = fields.String(required=True, validate=validate.Length(min=1, max=200),
                               metadata={"description": "the firm's job reference"})
     site = fields.String(required=True, validate=validate.Length(min=1, max=2000))
@@ -62,6 +63,15 @@ class JobSchema(_Strict):
     created_at = fields.DateTime(required=True)
     updated_at = fields.DateTime(required=True)
     revision = fields.Integer(required=True, metadata={"description": "+1 on every change to the job"})
+    installation_ref = fields.String(required=True, allow_none=True,
+                                     metadata={"description": "the firm's id for the installation"})
+    tested_on = fields.Date(required=True, allow_none=True,
+                            metadata={"description": "the date the readings were taken"})
+    previous_job_id = fields.Integer(required=True, allow_none=True,
+                                     metadata={"description": "the previous visit, when named explicitly"})
+    visit_map = fields.Raw(required=True, allow_none=True, metadata={
+        "type": "object", "description": "boards and circuits renamed since the previous visit: "
+        "{boards: {old: new}, circuits: [{from: {board, circuit}, to: {board, circuit}}]}"})
 
 
 class JobListQuerySchema(_Strict):

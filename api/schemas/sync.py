@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from marshmallow import RAISE, Schema, fields, validate
 
+from api.schemas.changes import VisitFieldsSchema
+
 __all__ = ["CircuitPatchSchema", "JobPatchSchema"]
 
 
@@ -12,8 +14,9 @@ class _Strict(Schema):
         unknown = RAISE
 
 
-class JobPatchSchema(_Strict):
-    """Only the fields given change (RFC 7396 merge patch); ``null`` clears ``external_ref``."""
+class JobPatchSchema(VisitFieldsSchema):
+    """Only the fields given change (RFC 7396 merge patch); ``null`` clears ``external_ref`` and the
+    previous visit's fields."""
 
     external_ref = fields.String(allow_none=True, validate=validate.Length(max=200),
                                  metadata={"description": "the calling system's own id for the job"})

@@ -28,7 +28,7 @@ from sqlalchemy.orm import Session, SessionTransaction
 
 from api.db.models import Circuit, Job, Upload, WebhookDelivery, WebhookEvent, WebhookSubscription
 from api.webhooks.clock import database_now
-from engine import NOTICE, CircuitRecord, Ruleset, Site, Verdict, verify
+from engine import NOTICE, CircuitRecord, PreviousVisit, Ruleset, Site, Verdict, verify
 
 __all__ = ["Outcomes", "emit", "emit_job_created", "emit_readings", "outcomes", "outcomes_before",
            "subscribed"]
@@ -78,12 +78,12 @@ def subscribed(session: Session, organisation_id: int, event_type: str) -> bool:
 
 
 def outcomes_before(session: Session, job: Job, ruleset: Ruleset, records: Sequence[CircuitRecord],
-                    site: Site | None = None) -> Outcomes | None:
+                    site: Site | None = None, previous: PreviousVisit | None = None) -> Outcomes | None:
     """The job's outcomes from its stored ``records`` and facts, before a change; ``None`` if nobody
     listens."""
     if not subscribed(session, job.organisation_id, "verdict.changed"):
         return None
-    return outcomes(verify(records, ruleset, site=site))
+    return outcomes(verify(records, ruleset, site=site, previous=previous))
 
 
 def emit(session: Session, *, organisation_id: int, job_id: int | None, event_type: str,

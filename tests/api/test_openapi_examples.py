@@ -61,6 +61,13 @@ READINGS_CSV = ("Board,Circuit,Description,Device,Cable,R1+R2,Zs,IR L-E\n"
                 "DB1,3,Kiln supply,C20,4/1.5,0.29,0.48,>299\n"
                 "DB1,4,Kitchenette,B16,2.5/1.5,0.33,0.52,>299\n")
 READINGS_LINES = "board=DB1 circuit=3 zs=0.47 rcd_trip_ms=19\n"
+#: The same studio's previous inspection (invented): the kiln's Zs has risen since, the lighting is as it was.
+PREVIOUS_CIRCUITS: list[dict[str, Any]] = [
+    {"board": "DB1", "circuit": "1", "device": "B6", "cable": "1.5/1.0", "r1_r2_ohm": 0.5, "zs_ohm": 0.69,
+     "ir_le_mohm": ">299"},
+    {"board": "DB1", "circuit": "3", "device": "C20", "cable": "4/1.5", "r1_r2_ohm": 0.27, "zs_ohm": 0.33,
+     "ir_le_mohm": ">299"},
+]
 
 
 @dataclass
@@ -137,8 +144,13 @@ def visit(client: FlaskClient, admin: dict[str, str]) -> Visit:
     send("list", "Adapters and profiles", "GET", "/v1/adapters", headers=admin)
     send("site-document", "A site document verified, nothing stored", "POST", "/v1/verify",
          json=SITE_DOCUMENT, headers=admin)
-    job = send("create", "A job for the visit", "POST", "/v1/jobs",
-               json={"reference": "LM-2031", "site": SITE, "ruleset": "bs7671-2018-a2"},
+    earlier = client.post("/v1/jobs", json={"reference": "LM-1907", "site": SITE,
+                                            "installation_ref": "LM-STUDIO", "tested_on": "2021-10-05"},
+                          headers=admin).get_json()
+    client.post(f"/v1/jobs/{earlier['id']}/readings", json={"circuits": PREVIOUS_CIRCUITS}, headers=admin)
+    job = send("create", "A job for the visit, the installation's second inspection", "POST", "/v1/jobs",
+               json={"reference": "LM-2031", "site": SITE, "ruleset": "bs7671-2018-a2",
+                     "installation_ref": "LM-STUDIO", "tested_on": "2026-11-24"},
                headers={**admin, "Idempotency-Key": "lm-2031-create"}).get_json()
     client.post("/v1/jobs", json={"reference": "LM-2032", "site": SITE}, headers=admin)
     first = send("first-page", "The first page of jobs", "GET", "/v1/jobs", query_string={"limit": 1},
@@ -179,6 +191,8 @@ def visit(client: FlaskClient, admin: dict[str, str]) -> Visit:
                     query_string={"limit": 2}, headers=admin)
     send("unchanged", "Nothing changed since that ETag", "GET", f"/v1/jobs/{jid}/verdicts",
          query_string={"limit": 2}, headers={**admin, "If-None-Match": verdicts.headers["ETag"]})
+    send("since-last-visit", "What changed since the installation's previous visit", "GET",
+         f"/v1/jobs/{jid}/changes", headers=admin)
     uploads = send("list", "Every body posted to the job", "GET", f"/v1/jobs/{jid}/uploads",
                    headers=admin).get_json()
     csv_upload = next(u for u in uploads["uploads"] if u["content_type"].startswith("text/csv"))

@@ -22,12 +22,13 @@ Invariants:
 from __future__ import annotations
 
 import secrets
-from datetime import datetime
+from datetime import date, datetime
 from typing import Any
 
 from sqlalchemy import (
     JSON,
     BigInteger,
+    Date,
     ForeignKey,
     Index,
     Integer,
@@ -64,7 +65,9 @@ class Organisation(Base):
 class Job(Base):
     __tablename__ = "jobs"
     # GET /v1/jobs lists one organisation's jobs by creation time, then id (migration 0006)
-    __table_args__ = (Index("ix_jobs_org_created", "organisation_id", "created_at", "id"),)
+    __table_args__ = (Index("ix_jobs_org_created", "organisation_id", "created_at", "id"),
+                      # a job's earlier visits: same organisation and installation, by date (migration 0009)
+                      Index("ix_jobs_org_installation", "organisation_id", "installation_ref", "tested_on"))
 
     id: Mapped[int] = mapped_column(JOB_ID, primary_key=True, autoincrement=False, default=new_job_id)
     organisation_id: Mapped[int] = mapped_column(ForeignKey("organisations.id"), index=True)
@@ -75,6 +78,12 @@ class Job(Base):
     created_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow)
     updated_at: Mapped[datetime] = mapped_column(UtcDateTime(), default=utcnow, index=True)
     revision: Mapped[int] = mapped_column(default=1, server_default="1")  # +1 on every change (0004)
+    # the previous visit (migration 0009): the installation, the date the readings were taken, an
+    # explicit previous job and the boards and circuits renamed since (api/db/visits.py)
+    installation_ref: Mapped[str | None] = mapped_column(String(200), default=None)
+    tested_on: Mapped[date | None] = mapped_column(Date, default=None)
+    previous_job_id: Mapped[int | None] = mapped_column(JOB_ID, default=None)
+    visit_map: Mapped[dict[str, Any] | None] = mapped_column(JSON, default=None)
 
     organisation: Mapped[Organisation] = relationship()
 
