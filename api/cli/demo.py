@@ -2,8 +2,10 @@
 
 Steps: migrate the SQLite database in the instance folder; start ``ohmtally
 serve`` as a child process on 127.0.0.1 (a free port unless ``--port``), with
-``OHMTALLY_AUTH=off`` (allowed on loopback only); create the manifest's job;
-post its files; print the verdicts a person can read; leave the server
+``OHMTALLY_AUTH=off`` (allowed on loopback only); create the manifest's previous
+visit's job and post its files, if it has one; create the manifest's job;
+post its files; print the verdicts a person can read and what changed since the
+previous visit (``GET /v1/jobs/<id>/changes``); leave the server
 running with its URL printed until Ctrl-C, SIGTERM or SIGHUP (``--no-wait``: stop
 and exit). However the demo ends, short of SIGKILL, its server is stopped with it.
 """
@@ -31,7 +33,7 @@ from api.db.session import default_sqlite_url
 from api.render._text import meter_pair
 from api.settings import load_settings
 
-__all__ = ["format_report", "free_port", "register", "run", "wait_healthy"]
+__all__ = ["format_changes", "format_report", "free_port", "register", "run", "wait_healthy"]
 
 
 def register(sub: Any) -> None:
@@ -119,20 +121,71 @@ def format_report(job: dict[str, Any], posts: list[tuple[str, int, dict[str, Any
     return "\n".join(lines) + "\n"
 
 
+def _shown(value: dict[str, Any]) -> str:
+    rel = "" if value.get("relation") in (None, "=") else f"{value['relation']} "
+    figure = "OL" if value.get("value") is None else meter_pair(value["value"], None)[0]
+    unit = f" {value['unit']}" if value.get("unit") else ""
+    return f"{rel}{figure}{unit}"
+
+
+def format_changes(changes: dict[str, Any]) -> str:
+    """What changed since the previous visit: the changes that need a look, circuits appeared and gone."""
+    previous = changes.get("previous")
+    if previous is None:
+        return "no previous visit of this installation: nothing to compare\n"
+    lines = [f"since the previous visit (job {previous['job']}, readings of {previous['date']}):"]
+    within = 0
+    for circuit in changes["circuits"]:
+        looks = [c for c in circuit["changes"] if c["needs_look"] is not False]
+        within += len(circuit["changes"]) - len(looks)
+        if looks:
+            said = "; ".join(f"{c['field']} {_shown(c['previous'])} → {_shown(c['current'])}" for c in looks)
+            lines.append(f"  {circuit['board']}/{circuit['circuit']:<6} NEEDS A LOOK: {said}")
+    for row in changes["supply"]:
+        mark = "NEEDS A LOOK" if row["needs_look"] is not False else "within the thresholds"
+        lines.append(f"  {row['where']} {row['field']} {_shown(row['previous'])} → {_shown(row['current'])}: "
+                     f"{mark}")
+    lines.append(f"  {within} other reading(s) changed within the thresholds")
+    for what in ("appeared", "gone"):
+        if changes[what]:
+            lines.append(f"  {what}: " + ", ".join(f"{c['board']}/{c['circuit']}" for c in changes[what]))
+    return "\n".join(lines) + "\n"
+
+
+def _post_visit(client: httpx.Client, job_fields: dict[str, Any], uploads: Any, prefix: str = ""
+                ) -> tuple[dict[str, Any], list[tuple[str, int, dict[str, Any]]]]:
+    created = client.post("/v1/jobs", json=job_fields)
+    created.raise_for_status()
+    job: dict[str, Any] = created.json()
+    posts = []
+    for spec in uploads:
+        response = client.post(f"/v1/jobs/{job['id']}/readings", content=spec.path.read_bytes(),
+                               headers={"Content-Type": spec.content_type}, params=spec.params())
+        posts.append((prefix + spec.path.name, response.status_code, response.json()))
+    return job, posts
+
+
 def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str, int, dict[str, Any]]],
                                                 dict[str, Any]]:
+    """The previous visit (if the manifest has one), then the demo job: (job, posts, its verdicts)."""
     with httpx.Client(base_url=base, timeout=30.0) as client:
-        created = client.post("/v1/jobs", json=manifest.job)
-        created.raise_for_status()
-        job = created.json()
-        posts = []
-        for spec in manifest.uploads:
-            response = client.post(f"/v1/jobs/{job['id']}/readings", content=spec.path.read_bytes(),
-                                   headers={"Content-Type": spec.content_type}, params=spec.params())
-            posts.append((spec.path.name, response.status_code, response.json()))
+        posts: list[tuple[str, int, dict[str, Any]]] = []
+        if manifest.previous is not None:
+            _earlier, posts = _post_visit(client, manifest.previous.job, manifest.previous.uploads,
+                                          "previous visit: ")
+        job, own = _post_visit(client, manifest.job, manifest.uploads)
         verdicts = client.get(f"/v1/jobs/{job['id']}/verdicts")
         verdicts.raise_for_status()
-        return job, posts, verdicts.json()
+        return job, posts + own, verdicts.json()
+
+
+def demo_changes(base: str, job_id: int) -> dict[str, Any]:
+    """``GET /v1/jobs/<id>/changes`` of the demo job."""
+    with httpx.Client(base_url=base, timeout=30.0) as client:
+        answer = client.get(f"/v1/jobs/{job_id}/changes")
+        answer.raise_for_status()
+        changes: dict[str, Any] = answer.json()
+        return changes
 
 
 def _stop_on_signal(signum: int, _frame: Any) -> None:
@@ -164,6 +217,7 @@ def run(args: argparse.Namespace) -> int:
             return EXIT_BAD_INPUT
         job, posts, verdicts = post_demo(base, manifest)
         sys.stdout.write(format_report(job, posts, verdicts))
+        sys.stdout.write("\n" + format_changes(demo_changes(base, job["id"])))
         print(f"\nAPI running at {base}/v1 — job {job['id']}: {base}/v1/jobs/{job['id']}/verdicts"
               f"\nOpenAPI: {base}/v1/openapi.json"
               "\nThis demo server runs with OHMTALLY_AUTH=off (loopback only). For a server with keys:"

@@ -54,7 +54,10 @@ def _basis(rules: Ruleset, change: FieldChange | None = None) -> tuple[Basis | s
 
 
 def _shown(value: Any, unit: str | None) -> str:
-    return value.display(unit) if isinstance(value, Reading) else f"{value} {unit or ''}".strip()
+    if isinstance(value, Reading):
+        return value.display(unit)
+    shown = f"{value:g}" if isinstance(value, float) else str(value)
+    return f"{shown} {unit or ''}".strip()
 
 
 def _sentence(change: FieldChange, when: str) -> str:

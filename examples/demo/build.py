@@ -152,3 +152,39 @@ SAID_ONCE = {"earthing", "board_fed_from", "ze_ohm", "pfc_ka", "ra_ohm", "test_t
 circuits = [{k: v for k, v in r.items() if k not in SAID_ONCE} for r in recs]
 json.dump({"ruleset": "bs7671-2018-a2", "installation": installation, "boards": boards, "circuits": circuits},
           open(str(HERE.parent / "demo-site.json"),"w"), indent=1, ensure_ascii=False)
+# ---- the previous visit: the same installation inspected on 2021-11-16 (invented) ----
+# Posted first by `ohmtally demo` into a job with the same installation_ref and an earlier tested_on, so
+# the demo job's verdicts compare each circuit with it (the previous_visit check) and
+# GET /v1/jobs/<id>/changes lists what changed. Since then: the cooker's insulation has fallen to a few
+# MΩ (DB1/7), the store-room sockets' R1+R2 has risen by a third and their Zs with it (DB1/9), the spray
+# booth fan's breaker was changed from C10 to C16 (DB2/3), an old sign-lighting circuit (DB1/11) was
+# removed, and the yard cabin (DB3) was built: its circuits are new, listed as appeared, not judged.
+PREVIOUS_DATE = "2021-11-16"
+R_PREVIOUS = {
+ ("DB1","1"): dict(r1_r2_ohm=0.73, zs_ohm=0.94, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","2"): dict(ring_r1_ohm=0.47, ring_rn_ohm=0.48, ring_r2_ohm=0.78, r1_r2_ohm=0.32, zs_ohm=0.54, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=19.8, rcd_trip_5x_ms=11.6),
+ ("DB1","3"): dict(ring_r1_ohm=0.34, ring_rn_ohm=0.52, ring_r2_ohm=0.55, r1_r2_ohm=0.23, zs_ohm=0.44, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=23.1),
+ ("DB1","4"): dict(r1_r2_ohm=0.54, zs_ohm=0.76, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm="420", polarity_ok=True),
+ ("DB1","5"): dict(r1_r2_ohm=0.16, zs_ohm=0.37, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","6"): dict(r1_r2_ohm=1.81, zs_ohm=2.02, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm="210", polarity_ok=True),
+ ("DB1","7"): dict(r1_r2_ohm=0.15, zs_ohm=0.36, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","8"): dict(r1_r2_ohm=0.28, zs_ohm=0.48, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","9"): dict(r1_r2_ohm=0.39, zs_ohm=0.6, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=25.9),
+ ("DB1","10"): dict(r1_r2_ohm=0.36, zs_ohm=0.58, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB1","11"): dict(r1_r2_ohm=0.92, zs_ohm=1.13, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB2","1"): dict(r1_r2_ohm=0.27, zs_ohm=0.64, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+ ("DB2","2"): dict(r1_r2_ohm=0.36, zs_ohm=0.74, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True, rcd_trip_ms=31.5, rcd_half_no_trip=True),
+ ("DB2","3"): dict(r1_r2_ohm=0.34, zs_ohm=0.72, ir_test_v=500, ir_ll_mohm="2.1", ir_le_mohm="1.6", polarity_ok=True),
+ ("DB2","4"): dict(r1_r2_ohm=0.16, zs_ohm=0.55, ir_test_v=500, ir_ll_mohm=">999", ir_le_mohm=">999", polarity_ok=True),
+}
+SIGN = dict(board="DB1", circuit="11", description="Sign lighting (removed since)", load_type="lighting", device_kind="breaker", device_standard="BS EN 60898", device_curve="B", device_rating_a=6, device_breaking_ka=6, line_mm2=1.5, cpc_mm2=1.0, length_m=30, cable_type="twin_and_earth", reference_method="C")
+previous_design = [dict(d) for d in design if d["board"] != "DB3"] + [SIGN]
+for d in previous_design:
+    if (d["board"], d["circuit"]) == ("DB2", "3"): d["device_rating_a"] = 10
+previous_circuits = [{**{k: v for k, v in d.items() if k not in SAID_ONCE}, **R_PREVIOUS[(d["board"], d["circuit"])]}
+                     for d in previous_design]
+previous_installation = {**SCHEDULE_INSTALLATION, "ze_ohm": 0.21, "pfc_ka": 1.09, "test_temp_c": 20}
+previous_boards = [{**b, **({"zdb_ohm": 0.37, "pfc_ka": 0.64} if b["board"] == "DB2" else {})}
+                   for b in SCHEDULE_BOARDS if b["board"] != "DB3"]
+json.dump({"ruleset": "bs7671-2018-a2", "installation": previous_installation, "boards": previous_boards,
+           "circuits": previous_circuits}, open(f"{out}/previous-visit.json","w"), indent=1, ensure_ascii=False)

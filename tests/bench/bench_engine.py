@@ -129,8 +129,9 @@ def run(circuits: int = 10_000, rounds: int = 5) -> list[Figure]:
         figures.append(compare("engine", f"compact results ({compact[0]}), circuits/s", "/s",
                                rates["compact"], base, target=target,
                                met=lambda v, _r: v >= TARGET_PER_S))
+    single_visit = set(CHECK_IDS) - {"previous_visit"}  # it needs a previous visit; the set is one visit
     figures.append(Figure(bench="engine", what="check ids reached", unit="ids", value=len(seen),
-                          target=f"{len(CHECK_IDS)} (all)", met=seen == set(CHECK_IDS)))
+                          target=f"{len(single_visit)} (all of one visit)", met=seen == single_visit))
     return figures
 
 
