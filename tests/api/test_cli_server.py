@@ -211,6 +211,7 @@ def test_examples_run_against_a_real_server(tmp_path: Path) -> None:
             "site": [201, 200, 200, 200, 200, 200], "circuits": [201, 200, 200, 200, 200, 200],
             "uploads": [201, 200, 200, 200], "sync": [201, 200, 200, 304, 200, 200, 200, 200],
             "errors": [422, 404, 415, 200], "webhooks": [201, 200, 200, 200, 204],
+            "visits": [201, 200, 201, 200, 200],
         }
         assert sorted(expected) == sorted(p.stem for p in (ROOT / "examples/api").glob("*.sh")
                                           if not p.name.startswith("_"))
