@@ -12,6 +12,8 @@ from datetime import date
 from typing import Any
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from engine import (
     BoardRecord,
@@ -20,6 +22,7 @@ from engine import (
     Site,
     build_board,
     build_record,
+    builtin_ruleset_ids,
     load_builtin,
     ruleset_from_data,
     verify,
@@ -27,6 +30,8 @@ from engine import (
     visit_changes,
 )
 from engine.stream import verify_stream
+from tests.engine.test_verify_properties import _usable
+from tests.strategies import records
 
 WHEN = date(2022, 3, 14)
 
@@ -262,3 +267,30 @@ def test_both_rulesets_hold_every_figure_with_a_basis(ruleset: str) -> None:
                 "loop_margin_ohm", "ze_change_fraction", "rcd_slower_fraction", "rcd_margin_ms"):
         assert section[key].marker == "practice" and section[key].source
     assert section["basis"].value
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(current=st.lists(records(), min_size=1, max_size=3), before=st.lists(records(), max_size=3),
+       ruleset=st.sampled_from(builtin_ruleset_ids()))
+def test_any_two_visits_verify_and_a_pass_rests_on_usable_values(current: list[Any], before: list[Any],
+                                                                 ruleset: str) -> None:
+    """Any records on either visit (bounded, zero, negative, refused values): no check error, the compact
+    view agrees, and each field a previous_visit pass compared is usable on both visits (the oracle of
+    tests/engine/test_verify_properties.py: present, not refused, not impossible by sign)."""
+    previous = visit(*before)
+    verdicts = verify(current, ruleset, previous=previous)
+    compact = verify_compact(current, ruleset, previous=previous)
+    assert [[(c.check, c.outcome.value) for c in v.checks] for v in verdicts] == \
+        [[(row[0], row[1]) for row in v["checks"]] for v in compact]
+    now = {r.key: r for r in current}
+    then = {r.key: r for r in before}
+    for verdict in verdicts:
+        assert "check_error" not in [e.get("code") for e in verdict.errors], verdict.errors
+        for check in verdict.checks:
+            if check.check != "previous_visit":
+                continue
+            assert verdict.key in then  # matched by name: no map here
+            assert check.outcome.value in ("pass", "investigate")
+            if check.outcome.value == "pass":
+                for name in check.inputs["compared"]:
+                    assert _usable(now[verdict.key], name) and _usable(then[verdict.key], name), name
