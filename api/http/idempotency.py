@@ -68,7 +68,10 @@ _CHANGING = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 
 
 def _applies() -> bool:
-    return request.method in _CHANGING and request.path.startswith("/v1/jobs")
+    # A request routing refuses (no such path, a method the path does not take) changes nothing:
+    # its 404 or 405 (with Allow, RFC 9110 §15.5.6) is the answer, whatever key it carries.
+    return (request.method in _CHANGING and request.path.startswith("/v1/jobs")
+            and request.routing_exception is None)
 
 
 def request_key() -> str | None:

@@ -237,8 +237,6 @@ def test_schemathesis_finds_no_5xx_and_no_unstated_constraint(fuzz_app: Flask) -
     assert MAX_EXAMPLES > 25 or elapsed < 60, elapsed
 
 
-@pytest.mark.xfail(strict=True, reason="api/http/idempotency.py reserves the key before routing refuses the "
-                                       "method: a used Idempotency-Key turns a 405 into a 409")
 def test_an_undeclared_method_is_405_even_with_a_used_idempotency_key(client: Any) -> None:
     """PUT /v1/jobs (no such operation) with a key a POST already used: 405 with Allow (RFC 9110 §15.5.6)."""
     key = {"Idempotency-Key": "fuzz-405"}
