@@ -86,6 +86,7 @@ def run(args: argparse.Namespace) -> int:
     # when it is first imported, so the app (which imports it) is imported only after it is set.
     from api.app import create_app
     from api.db.schema import SchemaNotCurrent  # start-up order (above)
+    from api.http.request_log import gunicorn_logconfig  # start-up order (above)
     from api.ops.agreement import HostsDisagree, check_agreement  # start-up order (above)
     from api.settings import SettingsError, load_settings  # start-up order (above)
     from api.webhooks import runner as webhook_hooks  # start-up order (above)
@@ -117,6 +118,7 @@ def run(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     options = {"bind": [args.bind], "workers": args.workers, "timeout": timeout,
                "accesslog": None, "errorlog": "-", "loglevel": settings.log_level.lower(),
+               "logconfig_dict": gunicorn_logconfig(settings.log_level),
                "proc_name": "ohmtally", "graceful_timeout": 10,
                # one webhook delivery thread per worker, leased claims (api/webhooks/runner.py)
                "post_worker_init": webhook_hooks.post_worker_init, "worker_exit": webhook_hooks.worker_exit,

@@ -33,7 +33,7 @@ from flask import Flask, Response, g, has_request_context, request
 from pythonjsonlogger.json import JsonFormatter as _LibraryJsonFormatter
 
 __all__ = ["LOGGER_ROOT", "REQUEST_ID_HEADER", "JsonFormatter", "StderrHandler", "configure_logging",
-           "init_app"]
+           "gunicorn_logconfig", "init_app"]
 
 REQUEST_ID_HEADER = "X-Request-Id"
 LOGGER_ROOT = "ohmtally"
@@ -94,6 +94,27 @@ def configure_logging(level: str) -> None:
             "ohmtally.capture": {"level": "NOTSET", "propagate": True},
         },
     })
+
+
+def gunicorn_logconfig(level: str) -> dict[str, Any]:
+    """gunicorn's ``logconfig_dict``: its own lines (the arbiter's boots, exits, a worker's timeout)
+    as the same JSON lines on stderr, so a log collector reads one format from ``ohmtally serve``.
+
+    gunicorn merges this over its defaults key by key, so every key its defaults name is given:
+    the root logger too (other packages' warnings, in JSON on stderr rather than text on stdout).
+    """
+    stderr = {"()": StderrHandler, "formatter": "json"}
+    return {
+        "version": 1,
+        "disable_existing_loggers": False,
+        "formatters": {"json": {"()": JsonFormatter}},
+        "handlers": {"console": stderr, "error_console": stderr},
+        "root": {"level": "WARNING", "handlers": ["console"]},
+        "loggers": {
+            "gunicorn.error": {"level": level, "handlers": ["error_console"], "propagate": False},
+            "gunicorn.access": {"level": "INFO", "handlers": ["console"], "propagate": False},
+        },
+    }
 
 
 def init_app(app: Flask, level: str) -> None:

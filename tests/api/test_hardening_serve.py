@@ -8,6 +8,7 @@ gunicorn's settings reference (control_socket, control_socket_disable, since 25.
 
 from __future__ import annotations
 
+import json
 import os
 import socket
 import subprocess
@@ -163,3 +164,17 @@ def test_each_instance_has_its_own_control_socket_or_none(tmp_path: Path) -> Non
             time.sleep(0.1)
         assert first_socket.is_socket() and second_socket.is_socket()
     assert not (runtime / "gunicorn.ctl").exists()
+
+
+def test_every_line_serve_writes_is_json(tmp_path: Path) -> None:
+    """A log collector reads one format: at OHMTALLY_LOG_LEVEL=INFO, gunicorn's own lines (the
+    arbiter's start, each worker's boot, the shutdown) and the app's request lines are each one
+    JSON object with time, level, logger and message."""
+    with Served(tmp_path, OHMTALLY_LOG_LEVEL="INFO") as served:
+        assert httpx.get(f"{served.base}/v1/health", timeout=10).status_code == 200
+    lines = [line for line in served.log.read_text(encoding="utf-8").splitlines() if line.strip()]
+    parsed = [json.loads(line) for line in lines]  # a plain-text line fails here, naming itself
+    assert all({"time", "level", "logger", "message"} <= set(entry) for entry in parsed), parsed
+    loggers = {entry["logger"] for entry in parsed}
+    assert "gunicorn.error" in loggers and "ohmtally.api" in loggers, loggers
+    assert any(entry["message"] == "request" and entry.get("path") == "/v1/health" for entry in parsed)
