@@ -151,6 +151,18 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     url = db.database_url_for(app.instance_path, settings.database_url)
     app.config["OHMTALLY_DATABASE_URL"] = url
     db.init_app(app, url)
+    try:
+        _finish(app)
+    except BaseException:
+        # a boot refused after the database was opened (a key file others may read, a bad
+        # setting) leaves no connection behind: the caller never gets the app to close it
+        db.close_engines(app)
+        raise
+    return app
+
+
+def _finish(app: Flask) -> None:
+    """Everything after the database: the server key check, middleware, the document, the routes."""
     # The webhook secrets' server key is checked now, so a bad key file stops the boot rather
     # than the first subscription; with keys on and no OHMTALLY_ENCRYPTION_KEY, webhooks refuse
     # to store secrets (api/webhooks/README.md) and the operator is told at start-up.
@@ -170,7 +182,6 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.register_error_handler(ApiError, _api_error)
     for blueprint in BLUEPRINTS:
         api.register_blueprint(blueprint)
-    return app
 
 
 def default_instance_path() -> str:

@@ -48,6 +48,7 @@ from sqlalchemy.orm import Session, sessionmaker
 from api.db.schema import check_schema
 
 __all__ = [
+    "close_engines",
     "database_url_for",
     "default_sqlite_url",
     "get_session",
@@ -184,6 +185,14 @@ def init_app(app: Flask, url: str) -> None:
         session = g.pop("db_session", None)
         if session is not None:
             session.close()
+
+
+def close_engines(app: Flask) -> None:
+    """Close the app's connection pools (the writer's and, on SQLite, the reader's)."""
+    pools = (app.extensions.get("ohmtally.engine"), app.extensions.get("ohmtally.engine.read"))
+    engines = {id(e): e for e in pools if e is not None}
+    for engine in engines.values():
+        engine.dispose()
 
 
 def get_session() -> Session:

@@ -26,6 +26,7 @@ from sqlalchemy.engine import make_url
 
 from api.app import create_app
 from api.db.schema import upgrade
+from api.db.session import close_engines
 from tests.api.openapi_check import check_response
 from tests.api.webhook_receiver import Receiver
 
@@ -125,7 +126,7 @@ def app_factory(tmp_path: Path) -> Iterator[Callable[..., Flask]]:
 
     yield factory
     for application in made:
-        application.extensions["ohmtally.engine"].dispose()
+        close_engines(application)
 
 
 @pytest.fixture

@@ -15,8 +15,10 @@ Circuits and sites are invented.
 from __future__ import annotations
 
 import base64
+import gc
 import os
 import stat
+import warnings
 from collections.abc import Callable
 from pathlib import Path
 
@@ -226,3 +228,19 @@ def test_keys_reseal_finishes_a_server_key_rotation(db_url: str, receiver: Recei
     assert deliver(after) == 1
     (receipt,) = receiver.receipts
     assert Webhook(sub["secret"]).verify(receipt.body, receipt.headers)["type"] == "job.created"
+
+
+def test_a_refused_boot_leaves_no_connection_open(db_url: str, tmp_path: Path,
+                                                  app_factory: Callable[..., Flask]) -> None:
+    """A boot refused after the database was opened (here: a key file others may read) closes what it
+    opened: the caller never gets the app, so nobody else could (on PostgreSQL an open connection
+    left for the collector is a ResourceWarning)."""
+    app_factory(db_url)
+    (tmp_path / KEY_FILE).chmod(0o644)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        with pytest.raises(ServerKeyFileError):
+            app_factory(db_url)
+        gc.collect()
+    leaks = [str(w.message) for w in caught if issubclass(w.category, ResourceWarning)]
+    assert not leaks, leaks
