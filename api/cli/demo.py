@@ -32,6 +32,7 @@ from api.db.schema import upgrade
 from api.db.session import default_sqlite_url
 from api.render._text import meter_pair
 from api.settings import load_settings
+from engine.words import word_for
 
 __all__ = ["format_changes", "format_report", "free_port", "register", "run", "wait_healthy"]
 
@@ -139,11 +140,13 @@ def format_changes(changes: dict[str, Any]) -> str:
         looks = [c for c in circuit["changes"] if c["needs_look"] is not False]
         within += len(circuit["changes"]) - len(looks)
         if looks:
-            said = "; ".join(f"{c['field']} {_shown(c['previous'])} → {_shown(c['current'])}" for c in looks)
+            said = "; ".join(f"{word_for(c['field'])} {_shown(c['previous'])} → {_shown(c['current'])}"
+                             for c in looks)
             lines.append(f"  {circuit['board']}/{circuit['circuit']:<6} NEEDS A LOOK: {said}")
     for row in changes["supply"]:
         mark = "NEEDS A LOOK" if row["needs_look"] is not False else "within the thresholds"
-        lines.append(f"  {row['where']} {row['field']} {_shown(row['previous'])} → {_shown(row['current'])}: "
+        lines.append(f"  {row['where']} {word_for(row['field'])} {_shown(row['previous'])} → "
+                     f"{_shown(row['current'])}: "
                      f"{mark}")
     lines.append(f"  {within} other reading(s) changed within the thresholds")
     for what in ("appeared", "gone"):
@@ -170,10 +173,14 @@ def post_demo(base: str, manifest: Any) -> tuple[dict[str, Any], list[tuple[str,
     """The previous visit (if the manifest has one), then the demo job: (job, posts, its verdicts)."""
     with httpx.Client(base_url=base, timeout=30.0) as client:
         posts: list[tuple[str, int, dict[str, Any]]] = []
+        job_fields = dict(manifest.job)
         if manifest.previous is not None:
-            _earlier, posts = _post_visit(client, manifest.previous.job, manifest.previous.uploads,
-                                          "previous visit: ")
-        job, own = _post_visit(client, manifest.job, manifest.uploads)
+            earlier, posts = _post_visit(client, manifest.previous.job, manifest.previous.uploads,
+                                         "previous visit: ")
+            # named explicitly: a demo run again on the same database would otherwise find the last
+            # run's job of the same installation and date as this visit's previous one
+            job_fields["previous_job_id"] = earlier["id"]
+        job, own = _post_visit(client, job_fields, manifest.uploads)
         verdicts = client.get(f"/v1/jobs/{job['id']}/verdicts")
         verdicts.raise_for_status()
         return job, posts + own, verdicts.json()

@@ -112,7 +112,8 @@ def gunicorn_logconfig(level: str) -> dict[str, Any]:
         "root": {"level": "WARNING", "handlers": ["console"]},
         "loggers": {
             "gunicorn.error": {"level": level, "handlers": ["error_console"], "propagate": False},
-            "gunicorn.access": {"level": "INFO", "handlers": ["console"], "propagate": False},
+            # the app writes its own line per request (above): gunicorn's access log stays off
+            "gunicorn.access": {"level": "WARNING", "handlers": ["console"], "propagate": False},
         },
     }
 

@@ -149,14 +149,28 @@ def test_demo_files_through_a_real_server(server: str) -> None:
         checked(client.post("/v1/verify", content=b"{", headers={"Content-Type": "application/json"}))
 
 
+def _changes_section(out: str) -> list[str]:
+    lines = out.splitlines()
+    start = next(i for i, line in enumerate(lines) if line.startswith("since the previous visit"))
+    return [line for line in lines[start + 1:] if line.startswith("  ")]
+
+
 def test_demo_no_wait_prints_the_report_and_stops(tmp_path: Path) -> None:
-    """`ohmtally demo --no-wait` migrates, serves, posts, prints verdicts and the caution, exits 0."""
-    port = free_port()
-    command = [sys.executable, "-m", "api.cli", "demo", "--no-wait", "--port", str(port)]
-    done = subprocess.run(command, cwd=ROOT, env=_env(OHMTALLY_INSTANCE_PATH=str(tmp_path)),
-                          capture_output=True, text=True, timeout=90)
-    assert done.returncode == 0, done.stderr[-2000:]
-    out = done.stdout
+    """`ohmtally demo --no-wait` migrates, serves, posts, prints verdicts, the changes since the previous
+    visit and the caution, exits 0; run again on the same database it says the same (the demo job
+    names its previous visit, so the first run's job is never taken for it)."""
+    outs = []
+    for _run in range(2):
+        port = free_port()
+        command = [sys.executable, "-m", "api.cli", "demo", "--no-wait", "--port", str(port)]
+        done = subprocess.run(command, cwd=ROOT, env=_env(OHMTALLY_INSTANCE_PATH=str(tmp_path)),
+                              capture_output=True, text=True, timeout=90)
+        assert done.returncode == 0, done.stderr[-2000:]
+        outs.append(done.stdout)
+    changes = _changes_section(outs[0])
+    assert any("NEEDS A LOOK: IR L-E" in line for line in changes), changes  # trade words, not field names
+    assert changes == _changes_section(outs[1])
+    out = outs[1]
     manifest = load_manifest(DEFAULT_MANIFEST)
     assert manifest.job["reference"] in out and f"http://127.0.0.1:{port}/v1" in out
     assert "board DB1" in out and "CAUTION: Decision aid only" in out
