@@ -18,6 +18,7 @@ from typing import Any
 from api.app import create_app
 from api.cli import EXIT_BAD_INPUT, EXIT_OK, EXIT_USAGE
 from api.db.schema import SchemaNotCurrent
+from api.db.session import close_engines
 from api.settings import SettingsError
 from api.webhooks.delivery import config_from_settings, run_once
 
@@ -59,4 +60,4 @@ def run(args: argparse.Namespace) -> int:
             stopping.wait(args.poll)
         return EXIT_OK
     finally:
-        app.extensions["ohmtally.engine"].dispose()
+        close_engines(app)

@@ -37,6 +37,7 @@ from sqlalchemy.exc import IntegrityError
 
 from api.db.models import utcnow
 from api.db.schema import DEPLOYMENT_FACTS
+from api.db.session import close_engines
 from api.http.json_provider import dumps_bytes
 from engine import __version__, builtin_ruleset_ids, load_ruleset
 
@@ -155,8 +156,7 @@ def check_agreement(app: Flask, *, close: bool = False) -> list[Disagreement]:
         return _check(engine, app.extensions["ohmtally.settings"])
     finally:
         if close:
-            engine.dispose()
-            app.extensions["ohmtally.engine.read"].dispose()
+            close_engines(app)
 
 
 def _check(engine: Engine, settings: Any) -> list[Disagreement]:

@@ -73,9 +73,8 @@ def resolve_ruleset(ruleset_id: str | None, *, pointer: str | None = None,
         raise ApiError(500, "bad_ruleset", exc.message) from exc
 
 
-def json_body_document(media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> Any:
-    """The request's JSON document: 415 for another media type, 400 for one that does not parse,
-    422 for one the server will not take (api.intake.json_document)."""
+def _json_bytes(media_types: tuple[str, ...]) -> bytes:
+    """The request's body when its media type is one of ``media_types``, else 415."""
     body, media_type, _charset = raw_body()
     if media_type not in media_types:
         sent = media_type or "a body without a Content-Type"
@@ -83,19 +82,19 @@ def json_body_document(media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> Any
                        errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
                                 "reason": f"expected {media_types[0]}"}],
                        extra={"choices": list(media_types)})
-    return read_json_document(body)
+    return body
+
+
+def json_body_document(media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> Any:
+    """The request's JSON document: 415 for another media type, 400 for one that does not parse,
+    422 for one the server will not take (api.intake.json_document)."""
+    return read_json_document(_json_bytes(media_types))
 
 
 def json_body(schema: Schema, *, media_types: tuple[str, ...] = (JSON_MEDIA_TYPE,)) -> dict[str, Any]:
     """The request's JSON document loaded by ``schema``: 415 for another media type, 400 for a
     document that does not parse, 422 naming every bad field by pointer."""
-    body, media_type, _charset = raw_body()
-    if media_type not in media_types:
-        sent = media_type or "a body without a Content-Type"
-        raise ApiError(415, "unsupported_media_type", f"send {' or '.join(media_types)}, not {sent}",
-                       errors=[{"parameter": "Content-Type", "code": "unsupported_media_type",
-                                "reason": f"expected {media_types[0]}"}],
-                       extra={"choices": list(media_types)})
+    body = _json_bytes(media_types)
     try:
         loaded: dict[str, Any] = schema.load(read_json_document(body, max_rows=settings().max_rows))
     except ValidationError as exc:
@@ -131,10 +130,10 @@ def view_of(query: dict[str, Any]) -> str:
     return view
 
 
-def compact_response(schema: Any, answer: Any, headers: dict[str, str], status: int = 200) -> Response:
-    """A compact answer, serialised by its schema, in the compact media type."""
-    body = current_app.json.dumps(schema.dump(answer))
-    return Response(body, status=status, content_type=COMPACT_MEDIA_TYPE, headers=headers)
+def compact_response(body: dict[str, Any], headers: dict[str, str]) -> Response:
+    """A compact answer's document (its schema's dump) in the compact media type."""
+    return Response(current_app.json.dumps(body), status=200, content_type=COMPACT_MEDIA_TYPE,
+                    headers=headers)
 
 
 def compact_doc(schema: type) -> dict[str, Any]:

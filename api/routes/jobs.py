@@ -177,8 +177,8 @@ class JobVerdicts(MethodView):
         if view == "compact":
             compact = verify(records_of_rows(context), ruleset, only=wanted, site=site, view="compact",
                              previous=previous)
-            return compact_response(_COMPACT_PAGE, compact_answer(
-                compact, ruleset=ruleset, job_id=job.id, next_cursor=cursor, limit=limit, site=site),
+            return compact_response(_COMPACT_PAGE.dump(compact_answer(
+                compact, ruleset=ruleset, job_id=job.id, next_cursor=cursor, limit=limit, site=site)),
                 {**headers, NOTICE_HEADER: NOTICE})
         verdicts = verify(records_of_rows(context), ruleset, only=wanted, site=site, previous=previous)
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verdicts, job_id=job.id, next_cursor=cursor,

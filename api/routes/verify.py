@@ -9,7 +9,7 @@ from flask.views import MethodView
 from flask_smorest import Blueprint
 from marshmallow import RAISE, Schema, fields, validate
 
-from api.answers import VerifyAnswer, compact_answer, verify_body
+from api.answers import VerifyAnswer, compact_body, verify_body
 from api.http.limits import body_limits
 from api.intake.bodies import read_body
 from api.render import (
@@ -82,9 +82,6 @@ _FORMATS_DOC: dict[int, Any] = {200: {
                                     "description": "the safety caution, also in the JSON body's notice"}}}}
 
 
-_COMPACT_SCHEMA = CompactVerifyResponseSchema()
-
-
 @blp.route("/verify")
 class Verify(MethodView):
     @blp.arguments(VerifyQuerySchema, location="query", as_kwargs=True, unknown=RAISE)
@@ -111,11 +108,10 @@ class Verify(MethodView):
         site = intake.site()
         policy = policy_from_names(query.get("fail_on"), query.get("warn_on"))
         if view == "compact":
-            compact = verify(intake.records(), ruleset, site=site, view="compact")
-            failing = sum(1 for v in compact if policy.treat(v["outcome"]) is Treatment.FAIL)
-            return compact_response(_COMPACT_SCHEMA, compact_answer(
-                compact, ruleset=ruleset, rejected=intake.rejected, warnings=intake.warnings, site=site),
-                {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE})
+            compact = compact_body(ruleset, verify(intake.records(), ruleset, site=site, view="compact"),
+                                   intake.rejected, intake.warnings, site=site)
+            failing = policy.failing_circuits(compact["verdicts"])
+            return compact_response(compact, {FAILING_HEADER: str(failing), NOTICE_HEADER: NOTICE})
         answer = VerifyAnswer(ruleset=ruleset, verdicts=verify(intake.records(), ruleset, site=site),
                               rejected=intake.rejected, warnings=intake.warnings, site=site)
         failing = sum(1 for v in answer.verdicts if policy.treat(v.outcome.value) is Treatment.FAIL)
