@@ -26,6 +26,7 @@ __all__ = [
     "CircuitStateSchema",
     "CircuitsQuerySchema",
     "CircuitsResponseSchema",
+    "HistoryOnRequest",
     "JobCreateSchema",
     "JobListQuerySchema",
     "JobListSchema",
@@ -36,6 +37,7 @@ __all__ = [
     "UploadRefSchema",
     "UploadSchema",
     "VerdictsQuerySchema",
+    "history_field",
 ]
 
 
@@ -99,7 +101,24 @@ class HistoryEntrySchema(_Strict):
     recorded_at = fields.DateTime(required=True)
 
 
-class CircuitStateSchema(_Strict):
+def history_field() -> fields.Dict:
+    """``history``: every value of each field, oldest first, only when ``?history=true`` asked."""
+    return fields.Dict(keys=fields.String(), values=fields.List(fields.Nested(HistoryEntrySchema)),
+                       metadata={"description": "with ?history=true: every value of each field, "
+                                                "oldest first"})
+
+
+class HistoryOnRequest:
+    """A schema whose ``history`` (:func:`history_field`) is left out when it was not asked for."""
+
+    @post_dump
+    def _history_only_when_asked(self, data: dict[str, Any], **_kwargs: Any) -> dict[str, Any]:
+        if data.get("history") is None:
+            data.pop("history", None)
+        return data
+
+
+class CircuitStateSchema(HistoryOnRequest, _Strict):
     board = fields.String(required=True)
     circuit = fields.String(required=True)
     external_ref = fields.String(required=True, allow_none=True,
@@ -109,15 +128,7 @@ class CircuitStateSchema(_Strict):
     updated_at = fields.DateTime(required=True)
     upload_id = fields.Integer(required=True, allow_none=True,
                                metadata={"description": "the upload that last changed it"})
-    history = fields.Dict(keys=fields.String(), values=fields.List(fields.Nested(HistoryEntrySchema)),
-                          metadata={"description": "with ?history=true: every value of each field, "
-                                                   "oldest first"})
-
-    @post_dump
-    def _history_only_when_asked(self, data: dict[str, Any], **_kwargs: Any) -> dict[str, Any]:
-        if data.get("history") is None:
-            data.pop("history", None)
-        return data
+    history = history_field()
 
 
 MAX_CIRCUITS_PAGE = 1000

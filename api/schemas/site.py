@@ -2,11 +2,9 @@
 
 from __future__ import annotations
 
-from typing import Any
+from marshmallow import RAISE, Schema, fields, validate
 
-from marshmallow import RAISE, Schema, fields, post_dump, validate
-
-from api.schemas.jobs import HistoryEntrySchema, UploadRefSchema
+from api.schemas.jobs import HistoryOnRequest, UploadRefSchema, history_field
 from api.schemas.verdicts import notice_field, warning_list
 
 __all__ = ["BoardListSchema", "FactsAnswerSchema", "FactsQuerySchema", "FactsStateSchema"]
@@ -22,7 +20,7 @@ class FactsQuerySchema(_Strict):
         "description": "true: every value each field had, oldest first, with its upload"})
 
 
-class FactsStateSchema(_Strict):
+class FactsStateSchema(HistoryOnRequest, _Strict):
     job_id = fields.Integer(required=True)
     scope = fields.String(required=True, validate=validate.OneOf(("installation", "board")))
     board = fields.String(required=True, allow_none=True,
@@ -33,15 +31,7 @@ class FactsStateSchema(_Strict):
     updated_at = fields.DateTime(required=True, allow_none=True)
     upload_id = fields.Integer(required=True, allow_none=True,
                                metadata={"description": "the upload that last changed them"})
-    history = fields.Dict(keys=fields.String(), values=fields.List(fields.Nested(HistoryEntrySchema)),
-                          metadata={"description": "with ?history=true: every value of each field, "
-                                                   "oldest first"})
-
-    @post_dump
-    def _history_only_when_asked(self, data: dict[str, Any], **_kwargs: Any) -> dict[str, Any]:
-        if data.get("history") is None:
-            data.pop("history", None)
-        return data
+    history = history_field()
 
 
 class BoardListSchema(_Strict):
