@@ -234,7 +234,9 @@ def test_schemathesis_finds_no_5xx_and_no_unstated_constraint(fuzz_app: Flask) -
     assert not [f for f in findings if f.check in SERVER_ERRORS], "\n".join(map(str, findings))
     assert not [f for f in findings if f.check in UNSTATED], "\n".join(map(str, findings))
     assert not findings, "\n".join(map(str, findings))
-    assert MAX_EXAMPLES > 25 or elapsed < 60, elapsed
+    # A guard on CI's time, not a benchmark: at the CI bound this run took 42–61 s on 2 shared cores
+    # (31 operations); twice that says the fuzz run has run away.
+    assert MAX_EXAMPLES > 25 or elapsed < 120, elapsed
 
 
 def test_an_undeclared_method_is_405_even_with_a_used_idempotency_key(client: Any) -> None:
